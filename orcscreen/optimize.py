@@ -1,0 +1,232 @@
+"""Choice of the free variables of one fluid and layout: evaporation temperature and superheat.
+
+The objective (net power) can have kinks where the binding constraint changes (bubble-point
+pinch, source outlet limit, turbine outlet quality, pressure limit), so unimodality is not
+assumed over the whole range: a uniform scan of the evaporation temperature brackets the best
+feasible region first, the edge of the feasible region is located by bisection where the best
+scan point borders an infeasible one, and a bounded Brent search (scipy ``minimize_scalar``,
+method "bounded") refines inside the bracket. The scan and the search use the closed-form pinch
+candidates (``exact=False``); the optimum is then evaluated on the discretised profiles
+(``exact=True``) and, if the discretised pinch moves the answer, refined again on that model.
+
+Sources: Brent, R. P., *Algorithms for Minimization without Derivatives*, Prentice-Hall 1973
+(the bounded scalar search as implemented in SciPy).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+from scipy.optimize import minimize_scalar
+
+from .cycle import CycleResult, CycleSettings, Layout, evaluate
+from .properties import Fluid
+
+__all__ = ["Optimum", "optimise", "evaporation_window_K"]
+
+#: Number of evaporation temperatures in the bracketing scan.
+N_SCAN = 24
+#: Tolerance of the refinement on the evaporation temperature [K].
+XATOL_K = 2e-3
+
+
+@dataclass
+class Optimum:
+    """Result of one fluid-layout optimisation."""
+
+    cycle: CycleResult  # the optimum, evaluated on the discretised profiles
+    binding_limit: str
+    evaluations: int
+    scan_T_K: list = field(default_factory=list)
+    scan_W: list = field(default_factory=list)
+    scan_limit: list = field(default_factory=list)
+
+
+def evaporation_window_K(fluid: Fluid, source, sink, s: CycleSettings, superheat_K: float) -> tuple[float, float, str]:
+    """Range of evaporation temperatures [K] worth searching, and the name of the upper limit.
+
+    Lower end: 1 K above the hottest condensing temperature the sink can need (sink outlet plus
+    pinch). Upper end: the smallest of the pressure limit (subcritical, DESIGN section 3), the
+    source inlet minus pinch and superheat (hot end), and the thermal-stability limit.
+    """
+    T_lo = sink.T_out_K + s.pinch_condenser_K + 1.0
+    T_lo = max(T_lo, fluid.T_min_K + 1.0)
+    if s.min_condensing_pressure_Pa is not None and s.min_condensing_pressure_Pa < fluid.p_crit_Pa:
+        T_lo = max(T_lo, fluid.T_sat_K(s.min_condensing_pressure_Pa) + 1.0)
+    p_lim = s.max_evaporation_pressure_Pa(fluid)
+    limits = [(fluid.T_sat_K(p_lim), "max pressure" if s.max_pressure_Pa is not None and s.max_pressure_Pa < s.max_reduced_pressure * fluid.p_crit_Pa else "max reduced pressure")]
+    limits.append((source.T_in_K - s.pinch_evaporator_K - superheat_K, "hot-end approach"))
+    if s.max_turbine_inlet_temperature_K is not None:
+        limits.append((s.max_turbine_inlet_temperature_K - superheat_K, "thermal stability"))
+    T_hi, name = min(limits)
+    return T_lo, T_hi, name
+
+
+class _Objective:
+    """Counts evaluations and keeps a warm start for the condensing temperature."""
+
+    def __init__(self, fluid, source, sink, s, layout, superheat_K, exact):
+        self.args = (fluid, source, sink, s, layout)
+        self.superheat_K = superheat_K
+        self.exact = exact
+        self.n = 0
+        self.T_cond_guess = None
+        self.cache: dict[float, CycleResult] = {}
+
+    def __call__(self, T_evap_K: float) -> CycleResult:
+        hit = self.cache.get(T_evap_K)
+        if hit is not None:
+            return hit
+        self.n += 1
+        r = evaluate(*self.args, T_evap_K, self.superheat_K, exact=self.exact, T_cond_guess_K=self.T_cond_guess)
+        if r.ok:
+            self.T_cond_guess = r.T_cond_K
+        self.cache[T_evap_K] = r
+        return r
+
+    def power(self, T_evap_K: float) -> float:
+        r = self(T_evap_K)
+        return r.W_net_W if r.ok else -math.inf
+
+
+def _feasible_edge(obj: _Objective, T_ok: float, T_bad: float, tol_K: float = 1e-4) -> tuple[float, str]:
+    """Bisection for the edge of the feasible region between a feasible and an infeasible point."""
+    limit = obj(T_bad).limit
+    while abs(T_bad - T_ok) > tol_K:
+        mid = 0.5 * (T_ok + T_bad)
+        r = obj(mid)
+        if r.ok:
+            T_ok = mid
+        else:
+            T_bad, limit = mid, r.limit
+    return T_ok, limit
+
+
+def _refine(obj: _Objective, a: float, b: float) -> float:
+    """Bounded Brent search for the largest net power in [a, b]; returns the best point seen."""
+    if b - a <= XATOL_K:
+        return a if obj.power(a) >= obj.power(b) else b
+    res = minimize_scalar(lambda T: -obj.power(T), bounds=(a, b), method="bounded", options={"xatol": XATOL_K})
+    best = max([a, b, float(res.x)], key=obj.power)
+    return best
+
+
+def _optimise_T_evap(obj: _Objective, T_lo: float, T_hi: float, T_hi_name: str, n_scan: int):
+    """Scan, bracket, refine. Returns (T_opt, binding limit name, scan) or (None, reason, scan)."""
+    grid = np.linspace(T_lo, T_hi, n_scan)
+    results = [obj(float(T)) for T in grid]
+    W = np.array([r.W_net_W if r.ok else -np.inf for r in results])
+    scan = (list(grid), list(W), [r.limit for r in results])
+    if not np.any(np.isfinite(W)):
+        return None, results, scan
+    i = int(np.argmax(W))
+    a = float(grid[max(i - 1, 0)])
+    b = float(grid[min(i + 1, n_scan - 1)])
+    lower_edge = upper_edge = None
+    if i > 0 and not results[i - 1].ok:
+        a, lower_edge = _feasible_edge(obj, float(grid[i]), a)
+    if i < n_scan - 1 and not results[i + 1].ok:
+        b, upper_edge = _feasible_edge(obj, float(grid[i]), b)
+    T_opt = _refine(obj, a, b)
+    if upper_edge is not None and T_opt >= b - 10 * XATOL_K:
+        limit = upper_edge
+    elif lower_edge is not None and T_opt <= a + 10 * XATOL_K:
+        limit = lower_edge
+    elif T_opt >= T_hi - 10 * XATOL_K:
+        limit = T_hi_name
+    elif T_opt <= T_lo + 10 * XATOL_K:
+        limit = "lowest evaporation temperature"
+    else:
+        limit = "none (interior optimum)"
+    return T_opt, limit, scan
+
+
+def _no_feasible_reason(results: list[CycleResult], T_lo: float, T_hi: float) -> str:
+    reasons = [r.reason for r in results if r.reason]
+    common = max(set(reasons), key=reasons.count) if reasons else "no feasible point"
+    return f"no feasible evaporation temperature between {T_lo - 273.15:.1f} and {T_hi - 273.15:.1f} °C: e.g. {common}"
+
+
+def _optimise_fixed_superheat(fluid, source, sink, s, layout, superheat_K, n_scan):
+    T_lo, T_hi, T_hi_name = evaporation_window_K(fluid, source, sink, s, superheat_K)
+    if T_hi <= T_lo:
+        reason = (
+            f"no room for evaporation: the upper limit ({T_hi_name}, {T_hi - 273.15:.1f} °C) is not above "
+            f"the lowest useful evaporation temperature ({T_lo - 273.15:.1f} °C)"
+        )
+        return None, reason, 0, ([], [], [])
+    fast = _Objective(fluid, source, sink, s, layout, superheat_K, exact=False)
+    T_opt, info, scan = _optimise_T_evap(fast, T_lo, T_hi, T_hi_name, n_scan)
+    if T_opt is None:
+        return None, _no_feasible_reason(info, T_lo, T_hi), fast.n, scan
+    exact = _Objective(fluid, source, sink, s, layout, superheat_K, exact=True)
+    exact.T_cond_guess = fast(T_opt).T_cond_K
+    r = exact(T_opt)
+    fr = fast(T_opt)
+    limit = info
+    if not r.ok or abs(r.W_net_W - fr.W_net_W) > 2e-5 * abs(fr.W_net_W):
+        # the discretised profiles bind somewhere the closed-form candidates do not see:
+        # refine again on the discretised model around the fast optimum
+        step = (T_hi - T_lo) / (n_scan - 1)
+        a, b = max(T_lo, T_opt - step), min(T_hi, T_opt + step)
+        T2 = _refine(exact, a, b)
+        if exact.power(T2) > -math.inf:
+            r = exact(T2)
+            limit = info if abs(T2 - T_opt) < 10 * XATOL_K else "evaporator pinch (discretised)"
+    if not r.ok:
+        return None, r.reason, fast.n + exact.n, scan
+    return r, limit, fast.n + exact.n, scan
+
+
+def optimise(
+    fluid: Fluid,
+    source,
+    sink,
+    settings: CycleSettings,
+    layout: Layout,
+    superheat_K: float | str = 0.0,
+    max_superheat_K: float = 50.0,
+    n_scan: int = N_SCAN,
+) -> Optimum | tuple[None, str, int]:
+    """Best cycle of one fluid and layout for net power.
+
+    superheat_K: a fixed superheat [K], or "optimise" to choose it in [0, max_superheat_K].
+    Returns an :class:`Optimum`, or (None, reason, evaluations) when nothing is feasible.
+    """
+    if superheat_K != "optimise":
+        r, limit, n, scan = _optimise_fixed_superheat(fluid, source, sink, settings, layout, float(superheat_K), n_scan)
+        if r is None:
+            return None, limit, n
+        return Optimum(r, limit, n, *scan)
+
+    total = 0
+    memo: dict[float, tuple] = {}
+
+    def inner(sh: float):
+        nonlocal total
+        if sh not in memo:
+            out = _optimise_fixed_superheat(fluid, source, sink, settings, layout, sh, max(12, n_scan // 2))
+            total += out[2]
+            memo[sh] = out
+        return memo[sh]
+
+    def power(sh: float) -> float:
+        r = inner(sh)[0]
+        return r.W_net_W if r is not None else -math.inf
+
+    grid = np.linspace(0.0, max_superheat_K, 6)
+    W = [power(float(g)) for g in grid]
+    if not np.any(np.isfinite(W)):
+        return None, inner(0.0)[1], total
+    i = int(np.argmax(W))
+    a, b = float(grid[max(i - 1, 0)]), float(grid[min(i + 1, len(grid) - 1)])
+    res = minimize_scalar(lambda sh: -power(sh), bounds=(a, b), method="bounded", options={"xatol": 0.05})
+    best = max([float(grid[i]), float(res.x)], key=power)
+    # polish at the best superheat with the full scan
+    r, limit, n, scan = _optimise_fixed_superheat(fluid, source, sink, settings, layout, best, n_scan)
+    total += n
+    if r is None:
+        r, limit, _, scan = inner(best)
+    return Optimum(r, limit, total, *scan)
