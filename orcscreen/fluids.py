@@ -1,0 +1,449 @@
+"""The fluid catalogue: data file, loading, look-up, filtering and the vapour-curve type.
+
+Typed-in data (family, ASHRAE 34 safety class, GWP100, ODP, thermal-stability limit, each with
+its source) come from ``fluids/catalogue.csv`` (override with the environment variable
+``ORCSCREEN_CATALOGUE``). Everything else is computed once per process from the equation of
+state through :mod:`orcscreen.properties`: critical temperature and pressure, normal boiling
+point, molar mass and the vapour-curve type.
+
+Vapour-curve criterion (dry / wet / isentropic)
+    sigma = (T_c / R) * (ds/dT) of the saturated vapour at T_r = T/T_c = 0.7 [-],
+    R = R_u / M the specific gas constant. This is the dimensionless slope that Invernizzi,
+    Iora and Silva (Appl. Therm. Eng. 27 (2007) 100-110) call the molecular complexity (from
+    memory); the sign convention is that of Liu, Chien and Wang (Energy 29 (2004) 1207-1217,
+    xi = ds/dT > 0 dry, < 0 wet; from memory), and it is the slope ds*/dT_r with s* = s/R used
+    by White and Velasco (Energy 154 (2018) 269-276, abstract read). sigma > +1 is "dry",
+    sigma < -1 is "wet", |sigma| <= 1 is "isentropic". The band of +-1 is orcscreen's own
+    choice: for fluids inside it an isentropic expansion from saturated vapour at T_r = 0.7
+    to T_r = 0.6 ends within about 2.5 % of the saturated-vapour state (e.g. R11, sigma =
+    -0.57: quality 0.98). If 0.7 T_c lies below the lowest temperature of the equation of
+    state (carbon dioxide: triple point), the slope is taken 1 K above that temperature.
+"""
+
+from __future__ import annotations
+
+import csv
+import difflib
+import functools
+import math
+import os
+from dataclasses import dataclass
+from pathlib import Path
+
+import pandas as pd
+
+from orcscreen.properties import PropertyError, coolprop_fluid_names, get_fluid
+
+__all__ = [
+    "CAUTIONS",
+    "CATALOGUE_ENV",
+    "CURVE_REDUCED_TEMPERATURE",
+    "FAMILIES",
+    "ISENTROPIC_BAND",
+    "SAFETY_CLASSES",
+    "CatalogueError",
+    "FluidInfo",
+    "UnknownFluidError",
+    "catalogue_frame",
+    "catalogue_path",
+    "classify_curve",
+    "close_matches",
+    "get_info",
+    "load_catalogue",
+    "select",
+    "vapour_curve_slope",
+]
+
+CATALOGUE_ENV = "ORCSCREEN_CATALOGUE"
+DEFAULT_CATALOGUE = Path(__file__).resolve().parent.parent / "fluids" / "catalogue.csv"
+
+FAMILIES = (
+    "hfc", "hfo", "hcfo", "hydrocarbon", "siloxane", "aromatic", "perfluorocarbon",
+    "ether", "ketone", "alcohol", "natural", "cfc", "hcfc", "other",
+)
+#: ASHRAE 34 / ISO 817 safety groups: toxicity A (lower) / B (higher), flammability 1, 2L, 2, 3.
+SAFETY_CLASSES = ("A1", "A2L", "A2", "A3", "B1", "B2L", "B2", "B3")
+_FLAMMABLE_SUBCLASSES = ("2L", "2", "3")
+_FLAMMABILITY_WORDS = {
+    "1": "no flame propagation",
+    "2L": "lower flammability, low burning velocity",
+    "2": "flammable",
+    "3": "higher flammability",
+}
+
+CURVE_REDUCED_TEMPERATURE = 0.7  # T/T_c at which sigma is evaluated (Invernizzi et al. 2007)
+ISENTROPIC_BAND = 1.0  # |sigma| <= band -> "isentropic" (orcscreen's choice, see docstring)
+R_UNIVERSAL_J_molK = 8.314462618  # molar gas constant, CODATA 2018 (exact in the 2019 SI)
+P_NORMAL_Pa = 101325.0  # pressure of the normal boiling point
+GWP_FGAS_NOTICE = 150.0  # GWP100 from which F-gas restrictions commonly start (common practice)
+
+_COLUMNS = (
+    "coolprop_name", "display_name", "family", "safety_class", "safety_class_source",
+    "gwp100", "gwp_source", "odp", "odp_source", "max_temperature_C", "max_temperature_source",
+)
+_SOURCE_COLUMNS = ("safety_class_source", "gwp_source", "odp_source", "max_temperature_source")
+
+CAUTIONS = """\
+Working fluids can burn, poison and suffocate. Classes 2L, 2 and 3 of ASHRAE 34 / ISO 817 are
+flammable (3 most of all); class B fluids are of higher toxicity; fluids without a class are
+treated here as flammable and toxic until their safety data sheet says otherwise.
+Any leaked vapour displaces air: in plant rooms, pits and other enclosed or low spaces even a
+non-toxic, non-flammable fluid can asphyxiate. Detect, ventilate, and never enter unchecked.
+High-GWP fluids (fluorinated gases) face charge, leak-check, phase-down and ban rules (e.g. the
+EU F-gas regulation); ozone-depleting fluids are controlled by the Montreal Protocol.
+An ORC is pressure equipment: design, materials, relief and inspection follow pressure
+equipment law, not this screening.
+These results are a preliminary screening, not a design. Local codes (pressure equipment,
+refrigerant safety, F-gas and environmental rules) and licensed engineers have the last word.
+"""
+
+
+class UnknownFluidError(ValueError):
+    """A fluid, display or family name that the catalogue does not know; lists close matches."""
+
+
+class CatalogueError(ValueError):
+    """The catalogue file is malformed; the message names the file, line, column and value."""
+
+
+@dataclass(frozen=True)
+class FluidInfo:
+    """One catalogue fluid: typed-in data with sources, and values computed from the EOS.
+
+    Units: T_crit_K, T_nbp_K [K]; p_crit_Pa [Pa]; M_kg_mol [kg/mol]; gwp100 [-] (100-year,
+    mass basis); odp [-] (CFC-11 = 1); max_temperature_C [°C] (highest allowed turbine-inlet
+    temperature, thermal-stability limit). None where unknown; T_nbp_K is None when the fluid
+    has no liquid at 101325 Pa. curve_slope is sigma, see the module docstring.
+    safety_class is an ASHRAE 34 group, "none" (not classified) or "" (unknown).
+    """
+
+    coolprop_name: str
+    display_name: str
+    family: str
+    safety_class: str
+    safety_class_source: str
+    gwp100: float | None
+    gwp_source: str
+    odp: float | None
+    odp_source: str
+    max_temperature_C: float | None
+    max_temperature_source: str
+    T_crit_K: float
+    p_crit_Pa: float
+    T_nbp_K: float | None
+    M_kg_mol: float
+    curve_type: str
+    curve_slope: float
+
+    @property
+    def classified(self) -> bool:
+        """True when the fluid has an ASHRAE 34 safety group in the catalogue."""
+        return self.safety_class in SAFETY_CLASSES
+
+    @property
+    def flammable(self) -> bool:
+        """Flammability subclass 2L, 2 or 3; also True for unclassified fluids (conservative)."""
+        if not self.classified:
+            return True
+        return self.safety_class[1:] in _FLAMMABLE_SUBCLASSES
+
+    @property
+    def toxicity(self) -> str:
+        """"lower" (class A), "higher" (class B) or "unclassified"."""
+        if not self.classified:
+            return "unclassified"
+        return "lower" if self.safety_class[0] == "A" else "higher"
+
+    @property
+    def cautions(self) -> str:
+        """Short fluid-specific cautions (safety class, GWP, ODP, stability, condenser)."""
+        parts = []
+        if self.classified:
+            sub = self.safety_class[1:]
+            parts.append(
+                f"ASHRAE 34 class {self.safety_class}: {self.toxicity} toxicity, "
+                f"{_FLAMMABILITY_WORDS[sub]}."
+            )
+        else:
+            parts.append("No ASHRAE 34 class recorded: treat as flammable and toxic.")
+        if self.gwp100 is None:
+            parts.append("GWP unknown.")
+        elif self.gwp100 >= GWP_FGAS_NOTICE:
+            parts.append(f"GWP100 {self.gwp100:g}: F-gas rules apply.")
+        if self.odp is None:
+            parts.append("ODP unknown.")
+        elif self.odp > 0.0:
+            parts.append(f"Ozone-depleting (ODP {self.odp:g}): Montreal Protocol controls.")
+        if self.max_temperature_C is None:
+            parts.append("Thermal-stability limit unknown.")
+        else:
+            parts.append(f"Stable to about {self.max_temperature_C:g} °C.")
+        if self.T_nbp_K is not None and self.T_nbp_K > 303.15:
+            parts.append("Boils above 30 °C at 1 atm: sub-atmospheric condenser likely.")
+        return " ".join(parts)
+
+
+# -- computed columns ----------------------------------------------------------------------
+def classify_curve(sigma: float, band: float = ISENTROPIC_BAND) -> str:
+    """"dry" if sigma > band, "wet" if sigma < -band, else "isentropic" (sigma [-])."""
+    if sigma > band:
+        return "dry"
+    if sigma < -band:
+        return "wet"
+    return "isentropic"
+
+
+def vapour_curve_slope(coolprop_name: str) -> float:
+    """sigma = (T_c/R) ds/dT of the saturated vapour at T_r = 0.7 [-] (module docstring)."""
+    fluid = get_fluid(coolprop_name)
+    T_K = max(CURVE_REDUCED_TEMPERATURE * fluid.T_crit_K, fluid.T_min_K + 1.0)
+    R_J_kgK = R_UNIVERSAL_J_molK / fluid.M_kg_mol
+    dTds = fluid.saturated_vapour_dTds(T_K)
+    return fluid.T_crit_K / (R_J_kgK * dTds)
+
+
+def _normal_boiling_point_K(fluid) -> float | None:
+    """Saturation temperature [K] at 101325 Pa, None if that pressure has no liquid-vapour line."""
+    if fluid.p_crit_Pa <= P_NORMAL_Pa:
+        return None
+    try:
+        p_lowest_Pa = fluid.sat_T(fluid.T_min_K).p_Pa
+    except PropertyError:
+        p_lowest_Pa = None
+    if p_lowest_Pa is not None and p_lowest_Pa > P_NORMAL_Pa:
+        return None  # 1 atm is below the triple-point pressure (e.g. carbon dioxide)
+    return fluid.T_sat_K(P_NORMAL_Pa)
+
+
+@functools.lru_cache(maxsize=None)
+def _computed(coolprop_name: str) -> dict:
+    fluid = get_fluid(coolprop_name)
+    sigma = vapour_curve_slope(coolprop_name)
+    return {
+        "T_crit_K": fluid.T_crit_K,
+        "p_crit_Pa": fluid.p_crit_Pa,
+        "T_nbp_K": _normal_boiling_point_K(fluid),
+        "M_kg_mol": fluid.M_kg_mol,
+        "curve_type": classify_curve(sigma),
+        "curve_slope": sigma,
+    }
+
+
+# -- the data file -------------------------------------------------------------------------
+def catalogue_path() -> Path:
+    """The catalogue file in use: $ORCSCREEN_CATALOGUE if set, else fluids/catalogue.csv."""
+    override = os.environ.get(CATALOGUE_ENV)
+    return Path(override).expanduser().resolve() if override else DEFAULT_CATALOGUE
+
+
+def _number(text: str, where: str, column: str, minimum: float) -> float | None:
+    if text == "":
+        return None
+    try:
+        value = float(text)
+    except ValueError:
+        raise CatalogueError(f"{where}: column {column!r} = {text!r} is not a number (leave it empty if unknown)") from None
+    if not math.isfinite(value) or value < minimum:
+        raise CatalogueError(f"{where}: column {column!r} = {text!r} must be a finite number >= {minimum:g}")
+    return value
+
+
+def _parse_row(row: dict, where: str, known: frozenset[str]) -> FluidInfo:
+    name = row["coolprop_name"]
+    if name not in known:
+        hint = difflib.get_close_matches(name, sorted(known), n=3)
+        raise CatalogueError(
+            f"{where}: coolprop_name {name!r} is not a CoolProp HEOS fluid"
+            + (f"; did you mean {', '.join(hint)}?" if hint else "")
+        )
+    if not row["display_name"]:
+        raise CatalogueError(f"{where}: column 'display_name' is empty")
+    family = row["family"].lower()
+    if family not in FAMILIES:
+        raise CatalogueError(f"{where}: family {row['family']!r} is not one of {', '.join(FAMILIES)}")
+    safety = row["safety_class"].upper() if row["safety_class"].lower() != "none" else "none"
+    if safety not in SAFETY_CLASSES + ("none", ""):
+        raise CatalogueError(
+            f"{where}: safety_class {row['safety_class']!r} is not one of "
+            f"{', '.join(SAFETY_CLASSES)}, 'none' (not classified) or empty (unknown)"
+        )
+    for column in _SOURCE_COLUMNS:
+        if not row[column]:
+            raise CatalogueError(f"{where}: column {column!r} is empty (write 'unknown' if there is no source)")
+    try:
+        computed = _computed(name)
+    except (PropertyError, ValueError, ZeroDivisionError) as exc:
+        raise CatalogueError(f"{where}: equation-of-state values for {name!r} failed: {exc}") from None
+    return FluidInfo(
+        coolprop_name=name,
+        display_name=row["display_name"],
+        family=family,
+        safety_class=safety,
+        safety_class_source=row["safety_class_source"],
+        gwp100=_number(row["gwp100"], where, "gwp100", 0.0),
+        gwp_source=row["gwp_source"],
+        odp=_number(row["odp"], where, "odp", 0.0),
+        odp_source=row["odp_source"],
+        max_temperature_C=_number(row["max_temperature_C"], where, "max_temperature_C", -273.15),
+        max_temperature_source=row["max_temperature_source"],
+        **computed,
+    )
+
+
+@functools.lru_cache(maxsize=8)
+def _load(path_text: str) -> tuple[FluidInfo, ...]:
+    path = Path(path_text)
+    try:
+        with path.open(newline="", encoding="utf-8") as fh:
+            lines = [(n, line) for n, line in enumerate(fh, start=1) if line.strip() and not line.lstrip().startswith("#")]
+    except OSError as exc:
+        raise CatalogueError(f"{path}: cannot read the fluid catalogue: {exc.strerror}") from None
+    if not lines:
+        raise CatalogueError(f"{path}: the fluid catalogue is empty")
+    reader = csv.reader([line for _, line in lines])
+    header = [h.strip() for h in next(reader)]
+    missing = [c for c in _COLUMNS if c not in header]
+    if missing:
+        raise CatalogueError(f"{path}: header lacks column(s) {', '.join(missing)}; expected {', '.join(_COLUMNS)}")
+    known = frozenset(coolprop_fluid_names())
+    infos: list[FluidInfo] = []
+    seen: dict[str, str] = {}
+    reserved = set(FAMILIES) | {"all"}
+    for (line_no, _), cells in zip(lines[1:], reader):
+        where = f"{path}, line {line_no}"
+        if len(cells) != len(header):
+            raise CatalogueError(f"{where}: {len(cells)} fields, the header has {len(header)}")
+        row = {h: c.strip() for h, c in zip(header, cells)}
+        info = _parse_row(row, where, known)
+        for key in {info.coolprop_name.lower(), info.display_name.lower()}:
+            if key in reserved:
+                raise CatalogueError(f"{where}: name {key!r} is reserved for a family or 'all'")
+            if key in seen:
+                raise CatalogueError(f"{where}: name {key!r} is already used by {seen[key]}")
+            seen[key] = info.coolprop_name
+        infos.append(info)
+    return tuple(infos)
+
+
+def load_catalogue() -> tuple[FluidInfo, ...]:
+    """All catalogue fluids in file order (cached per file; EOS values cached per process)."""
+    return _load(str(catalogue_path()))
+
+
+# -- look-up and filtering -----------------------------------------------------------------
+def _index() -> dict[str, FluidInfo]:
+    index: dict[str, FluidInfo] = {}
+    for info in load_catalogue():
+        index[info.coolprop_name.lower()] = info
+        index[info.display_name.lower()] = info
+    return index
+
+
+def close_matches(name: str, include_families: bool = False) -> list[str]:
+    """Catalogue names (CoolProp or display) close to name; optionally family names and "all"."""
+    spellings: dict[str, str] = {}
+    for info in load_catalogue():
+        spellings.setdefault(info.coolprop_name.lower(), info.coolprop_name)
+        spellings.setdefault(info.display_name.lower(), info.display_name)
+    if include_families:
+        for word in FAMILIES + ("all",):
+            spellings.setdefault(word, word)
+    hits = difflib.get_close_matches(name.strip().lower(), list(spellings), n=5, cutoff=0.6)
+    return [spellings[h] for h in hits]
+
+
+def _unknown(name: str, include_families: bool) -> UnknownFluidError:
+    what = "fluid or family" if include_families else "fluid"
+    hints = close_matches(name, include_families)
+    hint = f"; close matches: {', '.join(hints)}" if hints else "; see `orcscreen fluids` for the list"
+    return UnknownFluidError(f"unknown {what} {name!r}{hint}")
+
+
+def get_info(name: str) -> FluidInfo:
+    """The catalogue entry for a CoolProp or display name (case-insensitive)."""
+    info = _index().get(str(name).strip().lower())
+    if info is None:
+        raise _unknown(str(name), include_families=False)
+    return info
+
+
+def _resolve(item: str) -> set[str]:
+    key = str(item).strip().lower()
+    infos = load_catalogue()
+    if key == "all":
+        return {i.coolprop_name for i in infos}
+    if key in FAMILIES:
+        return {i.coolprop_name for i in infos if i.family == key}
+    info = _index().get(key)
+    if info is None:
+        raise _unknown(str(item), include_families=True)
+    return {info.coolprop_name}
+
+
+def _as_list(items) -> list[str]:
+    return [items] if isinstance(items, str) else list(items)
+
+
+def select(include=("all",), exclude=(), max_gwp=None, safety_classes=None, zero_odp=False) -> list[FluidInfo]:
+    """Catalogue fluids chosen by names/families, in catalogue order.
+
+    include, exclude: fluid names (CoolProp or display), family names or "all".
+    max_gwp: keep GWP100 <= max_gwp; fluids with unknown GWP are dropped.
+    safety_classes: keep only these ASHRAE 34 groups; unclassified fluids are dropped.
+    zero_odp: keep only ODP == 0; fluids with unknown ODP are dropped.
+    Raises UnknownFluidError for an unknown name, ValueError for a bad filter value.
+    """
+    chosen: set[str] = set()
+    for item in _as_list(include):
+        chosen |= _resolve(item)
+    for item in _as_list(exclude):
+        chosen -= _resolve(item)
+    if max_gwp is not None and (not isinstance(max_gwp, (int, float)) or not max_gwp >= 0):
+        raise ValueError(f"max_gwp = {max_gwp!r}: must be a number >= 0")
+    allowed = None
+    if safety_classes is not None:
+        allowed = {str(c).strip().upper() for c in _as_list(safety_classes)}
+        bad = sorted(allowed - set(SAFETY_CLASSES))
+        if bad:
+            raise ValueError(f"safety class(es) {', '.join(bad)} unknown; allowed: {', '.join(SAFETY_CLASSES)}")
+    out = []
+    for info in load_catalogue():
+        if info.coolprop_name not in chosen:
+            continue
+        if max_gwp is not None and (info.gwp100 is None or info.gwp100 > max_gwp):
+            continue
+        if allowed is not None and info.safety_class not in allowed:
+            continue
+        if zero_odp and info.odp != 0.0:
+            continue
+        out.append(info)
+    return out
+
+
+def catalogue_frame(infos=None) -> pd.DataFrame:
+    """Display table of catalogue fluids (°C, bar, g/mol); all fluids when infos is None."""
+    infos = load_catalogue() if infos is None else infos
+    rows = [
+        {
+            "coolprop_name": i.coolprop_name,
+            "display_name": i.display_name,
+            "family": i.family,
+            "safety_class": i.safety_class or "unknown",
+            "gwp100": i.gwp100,
+            "odp": i.odp,
+            "T_crit_C": i.T_crit_K - 273.15,
+            "p_crit_bar": i.p_crit_Pa / 1e5,
+            "T_nbp_C": None if i.T_nbp_K is None else i.T_nbp_K - 273.15,
+            "M_g_mol": i.M_kg_mol * 1e3,
+            "curve_type": i.curve_type,
+            "max_temperature_C": i.max_temperature_C,
+            "flammable": i.flammable,
+            "toxicity": i.toxicity,
+        }
+        for i in infos
+    ]
+    columns = [
+        "coolprop_name", "display_name", "family", "safety_class", "gwp100", "odp", "T_crit_C",
+        "p_crit_bar", "T_nbp_C", "M_g_mol", "curve_type", "max_temperature_C", "flammable", "toxicity",
+    ]
+    return pd.DataFrame(rows, columns=columns)
