@@ -291,7 +291,7 @@ def _parse_row(row: dict, where: str, known: frozenset[str]) -> FluidInfo:
 
 
 @functools.lru_cache(maxsize=8)
-def _load(path_text: str) -> tuple[FluidInfo, ...]:
+def _load(path_text: str, stamp: tuple[int, int]) -> tuple[FluidInfo, ...]:
     path = Path(path_text)
     try:
         with path.open(newline="", encoding="utf-8") as fh:
@@ -326,8 +326,14 @@ def _load(path_text: str) -> tuple[FluidInfo, ...]:
 
 
 def load_catalogue() -> tuple[FluidInfo, ...]:
-    """All catalogue fluids in file order (cached per file; EOS values cached per process)."""
-    return _load(str(catalogue_path()))
+    """All catalogue fluids in file order (cached per file version; EOS values per process)."""
+    path = catalogue_path()
+    try:
+        st = path.stat()
+        stamp = (st.st_mtime_ns, st.st_size)
+    except OSError:
+        stamp = (0, 0)  # _load reports the missing file
+    return _load(str(path), stamp)
 
 
 # -- look-up and filtering -----------------------------------------------------------------
