@@ -1,0 +1,365 @@
+"""The ``orcscreen`` command line: parse, call the library, print, choose the exit status.
+
+Exit status: 0 success, 2 bad input (the message names the file, the key, the value and what is
+allowed; never a traceback), 1 internal error, 130 interrupted.
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import math
+import os
+import sys
+import traceback
+from collections.abc import Sequence
+from pathlib import Path
+from typing import Any
+
+EXIT_OK = 0
+EXIT_INTERNAL = 1
+EXIT_BAD_INPUT = 2
+EXIT_INTERRUPTED = 130
+
+SECONDS_PER_CASE_PER_CORE = 0.005
+"""Rough cost of one case [s] on one core, for the estimate of ``orcscreen check``."""
+
+CAUTION_LINE = "Preliminary screening, not a design: see README Cautions."
+
+
+class UsageError(Exception):
+    """Bad input found by the command line itself (a missing directory, a bad option value)."""
+
+
+# ---------------------------------------------------------------------------------------------
+# Commands
+# ---------------------------------------------------------------------------------------------
+
+def _cmd_run(args: argparse.Namespace) -> int:
+    from orcscreen import batch, outputs
+    from orcscreen.study import load_study
+
+    study = load_study(args.study, allow_huge=args.yes)
+    out_dir = Path(args.out) if args.out else Path("out") / Path(args.study).stem
+    print(f"study {study.study.name!r}: {study.n_cases} cases -> {out_dir}", file=sys.stderr)
+    summary = batch.run_study(study, out_dir=out_dir, jobs=args.jobs, cluster=args.cluster, progress=True)
+    table = outputs.write_outputs(out_dir)
+    print(outputs.top_table(table, n=args.top))
+    print(f"run: {summary}")
+    print(f"ranking: {out_dir / outputs.RANKING_FILE}")
+    if not args.no_report:
+        _build_report_quietly(out_dir)
+    print(CAUTION_LINE)
+    return EXIT_OK
+
+
+def _build_report_quietly(out_dir: Path) -> None:
+    """Charts and report after a run; a failure here warns and keeps the results."""
+    try:
+        from orcscreen import report
+    except ImportError as exc:  # the report module is not there yet: results stand alone
+        if getattr(exc, "name", None) not in ("orcscreen.report",):
+            print(f"warning: report skipped: {exc}", file=sys.stderr)
+        return
+    try:
+        path = report.build_report(out_dir)
+    except Exception as exc:  # noqa: BLE001 - a chart must never cost the results
+        print(f"warning: report not built ({type(exc).__name__}: {exc}); the results in {out_dir} "
+              f"are kept; try `orcscreen report {out_dir}`", file=sys.stderr)
+        return
+    print(f"report: {path if path else out_dir / 'report.html'}")
+
+
+def _cmd_check(args: argparse.Namespace) -> int:
+    from orcscreen.study import load_study
+
+    study = load_study(args.study, allow_huge=args.yes)
+    print(f"{args.study}: valid study {study.study.name!r} (schema version 1)")
+    sizes = study.sweep_sizes
+    for path, values in study.sweep_axes.items() if study.n_points <= 10_000_000 else ():
+        shown = ", ".join(f"{v:g}" if isinstance(v, float) else str(v) for v in values[:6])
+        more = f", ... {values[-1]:g}" if len(values) > 6 and isinstance(values[-1], float) else ""
+        print(f"  sweep {path}: {len(values)} values ({shown}{more})")
+    fluids = study.fluids
+    shown = ", ".join(fluids[:8]) + (", ..." if len(fluids) > 8 else "")
+    print(f"  fluids: {len(fluids)} ({shown})")
+    print(f"  layouts: {len(study.layouts)} ({', '.join(study.layouts)})")
+    factors = [str(n) for n in sizes.values()] + [str(len(fluids)), str(len(study.layouts))]
+    print(f"  cases: {' x '.join(factors)} = {study.n_cases}")
+    cores = args.jobs or _cores()
+    seconds = study.n_cases * SECONDS_PER_CASE_PER_CORE / cores
+    print(f"  time: about {_duration(seconds)} on {cores} core{'s' if cores != 1 else ''} "
+          f"(a rough estimate at {SECONDS_PER_CASE_PER_CORE * 1000:g} ms per case per core; "
+          f"real cases vary with fluid and layout)")
+    print("nothing was run or written.")
+    return EXIT_OK
+
+
+def _cmd_fluids(args: argparse.Namespace) -> int:
+    from orcscreen import fluids
+
+    include = list(args.family) if args.family else ["all"]
+    infos = fluids.select(include=include, exclude=[], max_gwp=args.max_gwp,
+                          safety_classes=args.safety_class or None, zero_odp=args.zero_odp)
+    frame = fluids.catalogue_frame(infos)
+    if args.format == "csv":
+        sys.stdout.write(frame.to_csv(index=False, lineterminator="\n"))
+    elif args.format == "json":
+        print(json.dumps(json.loads(frame.to_json(orient="records")), indent=2, ensure_ascii=False))
+    else:
+        with_units = frame.rename(columns=_TABLE_HEADERS)
+        print(with_units.to_string(index=False, na_rep="-", float_format=lambda x: f"{x:.5g}")
+              if len(frame) else "no fluid matches these filters")
+        print(f"\n{len(frame)} fluids.")
+        print(_cautions_text(fluids))
+    return EXIT_OK
+
+
+_TABLE_HEADERS = {"coolprop_name": "fluid", "display_name": "name", "safety_class": "class",
+                  "gwp100": "GWP100", "odp": "ODP", "T_crit_C": "T_crit °C", "p_crit_bar": "p_crit bar",
+                  "T_nbp_C": "T_nbp °C", "M_g_mol": "M g/mol", "curve_type": "vapour curve",
+                  "max_temperature_C": "T_max °C"}
+
+
+def _cautions_text(fluids_module: Any) -> str:
+    cautions = getattr(fluids_module, "CAUTIONS", "")
+    if isinstance(cautions, str):
+        return "Cautions:\n" + cautions.strip()
+    return "Cautions:\n" + "\n".join(f"- {c}" for c in cautions)
+
+
+def _cmd_schema(args: argparse.Namespace) -> int:
+    from orcscreen.study import json_schema
+
+    print(json.dumps(json_schema(), indent=2, ensure_ascii=False))
+    return EXIT_OK
+
+
+def _cmd_report(args: argparse.Namespace) -> int:
+    out_dir = Path(args.dir)
+    store = out_dir / "run.sqlite"
+    if not store.is_file():
+        raise UsageError(f"{out_dir}: no run store {store.name} here; allowed: the --out directory of an "
+                         f"`orcscreen run`")
+    try:
+        from orcscreen import report
+    except ImportError as exc:
+        if getattr(exc, "name", None) == "orcscreen.report":
+            raise UsageError("this orcscreen has no report module yet; ranking.csv in the run "
+                             "directory holds the results") from None
+        raise
+    path = report.build_report(out_dir)
+    print(f"report: {path if path else out_dir / 'report.html'}")
+    print(CAUTION_LINE)
+    return EXIT_OK
+
+
+# ---------------------------------------------------------------------------------------------
+# Parser
+# ---------------------------------------------------------------------------------------------
+
+def _positive_int(text: str) -> int:
+    try:
+        value = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"{text!r} is not a whole number; allowed: a whole number >= 1") from None
+    if value < 1:
+        raise argparse.ArgumentTypeError(f"{value} is below 1; allowed: a whole number >= 1")
+    return value
+
+
+def _non_negative_float(text: str) -> float:
+    try:
+        value = float(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"{text!r} is not a number; allowed: a number >= 0") from None
+    if not (value >= 0 and math.isfinite(value)):
+        raise argparse.ArgumentTypeError(f"{text} is out of range; allowed: a number >= 0")
+    return value
+
+
+class _Parser(argparse.ArgumentParser):
+    """argparse that reports usage errors as one line and exit status 2, without exiting."""
+
+    def error(self, message: str) -> None:  # type: ignore[override]
+        raise UsageError(f"{self.prog}: {message} (see {self.prog} --help)")
+
+    def exit(self, status: int = 0, message: str | None = None) -> None:  # type: ignore[override]
+        if message:
+            sys.stderr.write(message)
+        raise _Exit(status)
+
+
+class _Exit(Exception):
+    def __init__(self, status: int):
+        self.status = status
+
+
+def _version() -> str:
+    from importlib import metadata
+
+    try:
+        return metadata.version("orcscreen")
+    except metadata.PackageNotFoundError:
+        return "unknown"
+
+
+def build_parser() -> argparse.ArgumentParser:
+    fmt = argparse.RawDescriptionHelpFormatter
+    parser = _Parser(
+        prog="orcscreen",
+        description="Screen working fluids and layouts of organic Rankine cycles for a heat source "
+        "and sink described in a TOML study file.",
+        epilog="example:\n  orcscreen check studies/demo.toml\n  orcscreen run studies/demo.toml --out out/demo\n\n"
+        "Exit status: 0 ok, 2 bad input, 1 internal error.\n" + CAUTION_LINE,
+        formatter_class=fmt,
+    )
+    parser.add_argument("--version", action="version", version=f"orcscreen {_version()}")
+    parser.add_argument("--debug", action="store_true", help="show the traceback of an internal error")
+    sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
+
+    p = sub.add_parser(
+        "run", help="run a study and write ranking.csv, the run store, charts and report",
+        description="Run every case of a study (resuming from DIR/run.sqlite), write the outputs and "
+        "print the top of the ranking.",
+        epilog="example:\n  orcscreen run studies/geothermal-brine.toml --out out/brine --jobs 2\n\n"
+        "Running the same command again resumes: finished cases are not computed again.",
+        formatter_class=fmt,
+    )
+    p.add_argument("study", metavar="STUDY.toml", help="the study file")
+    p.add_argument("--out", metavar="DIR", help="output directory (default out/<study file name>)")
+    p.add_argument("--jobs", type=_positive_int, metavar="N", help="worker processes (default: all cores)")
+    p.add_argument("--cluster", metavar="ADDRESS", help="Dask scheduler address, e.g. tcp://10.0.0.5:8786 "
+                   "(needs orcscreen[cluster])")
+    p.add_argument("--yes", action="store_true", help=f"allow a study of more than 1,000,000 cases")
+    p.add_argument("--no-report", action="store_true", help="skip the charts and report.html")
+    p.add_argument("--top", type=_positive_int, default=10, metavar="N", help="rows of the ranking to print (default 10)")
+    p.set_defaults(func=_cmd_run)
+
+    p = sub.add_parser(
+        "check", help="validate a study and count its cases; runs nothing",
+        description="Validate a study file, print the number of cases (by sweep axis, fluids and "
+        "layouts) and a rough time estimate. Changes nothing.",
+        epilog="example:\n  orcscreen check studies/overnight-sweep.toml",
+        formatter_class=fmt,
+    )
+    p.add_argument("study", metavar="STUDY.toml", help="the study file")
+    p.add_argument("--jobs", type=_positive_int, metavar="N", help="cores to base the time estimate on (default: all)")
+    p.add_argument("--yes", action="store_true", help="accept a study of more than 1,000,000 cases")
+    p.set_defaults(func=_cmd_check)
+
+    p = sub.add_parser(
+        "fluids", help="list the fluid catalogue with safety class, GWP, ODP and cautions",
+        description="Print the working-fluid catalogue: ASHRAE 34 safety class, GWP100, ODP, family, "
+        "critical point and vapour-curve type, filtered as asked, with the cautions.",
+        epilog="example:\n  orcscreen fluids --safety-class A1 A2L --max-gwp 150\n"
+        "  orcscreen fluids --family hydrocarbon --format csv > hydrocarbons.csv",
+        formatter_class=fmt,
+    )
+    p.add_argument("--family", action="append", metavar="F", help="keep this family (repeatable)")
+    p.add_argument("--safety-class", nargs="+", metavar="C",
+                   choices=["A1", "A2L", "A2", "A3", "B1", "B2L", "B2", "B3"],
+                   help="keep these ASHRAE 34 safety classes (A1 A2L A2 A3 B1 B2L B2 B3)")
+    p.add_argument("--max-gwp", type=_non_negative_float, metavar="X", help="keep fluids with GWP100 <= X")
+    p.add_argument("--zero-odp", action="store_true", help="keep fluids with zero ODP")
+    p.add_argument("--format", choices=["table", "csv", "json"], default="table", help="output format (default table)")
+    p.set_defaults(func=_cmd_fluids)
+
+    p = sub.add_parser(
+        "schema", help="print the JSON Schema of the study file",
+        description="Print the JSON Schema (draft 2020-12) of the study file, schema version 1, for "
+        "editors that complete and check TOML against a schema.",
+        epilog="example:\n  orcscreen schema > orcscreen-study.schema.json",
+        formatter_class=fmt,
+    )
+    p.set_defaults(func=_cmd_schema)
+
+    p = sub.add_parser(
+        "report", help="rebuild the charts and report.html of a finished run",
+        description="Rebuild DIR/figures/*.png and DIR/report.html from the run store DIR/run.sqlite.",
+        epilog="example:\n  orcscreen report out/demo",
+        formatter_class=fmt,
+    )
+    p.add_argument("dir", metavar="DIR", help="output directory of an `orcscreen run`")
+    p.set_defaults(func=_cmd_report)
+    return parser
+
+
+# ---------------------------------------------------------------------------------------------
+# Entry point
+# ---------------------------------------------------------------------------------------------
+
+def _bad_input_types() -> tuple[type[BaseException], ...]:
+    """Our exceptions that mean bad input (exit 2); imported lazily, missing modules skipped."""
+    from orcscreen.study import StudyError
+
+    found: list[type[BaseException]] = [StudyError, UsageError]
+    for module, names in (("orcscreen.fluids", ("UnknownFluidError",)),
+                          ("orcscreen.store", ("StoreError",)),
+                          ("orcscreen.batch", ("ClusterError",))):
+        try:
+            mod = __import__(module, fromlist=list(names))
+        except ImportError:
+            continue
+        found.extend(getattr(mod, n) for n in names if isinstance(getattr(mod, n, None), type))
+    return tuple(found)
+
+
+def main(argv: Sequence[str] | None = None) -> int:
+    """Run the command line with ``argv`` (default sys.argv[1:]); return the exit status."""
+    parser = build_parser()
+    debug = False
+    try:
+        args = parser.parse_args(argv)
+        debug = args.debug
+        if not getattr(args, "func", None):
+            parser.print_help(sys.stderr)
+            return EXIT_BAD_INPUT
+        return args.func(args)
+    except _Exit as exc:
+        return exc.status
+    except KeyboardInterrupt:
+        print("orcscreen: interrupted; finished cases are kept in the run store, run again to resume",
+              file=sys.stderr)
+        return EXIT_INTERRUPTED
+    except BrokenPipeError:
+        # the reader went away (orcscreen fluids | head); not an error of ours
+        try:
+            sys.stdout = open(os.devnull, "w")
+        except OSError:
+            pass
+        return EXIT_OK
+    except Exception as exc:  # noqa: BLE001 - the boundary: every error becomes an exit status
+        try:
+            bad_input = _bad_input_types()
+        except Exception:  # noqa: BLE001
+            bad_input = (UsageError,)
+        if isinstance(exc, bad_input):
+            from orcscreen.study import StudyError
+
+            message = str(exc) or type(exc).__name__
+            if not isinstance(exc, StudyError) and not message.startswith("orcscreen"):
+                message = f"orcscreen: {message}"
+            print(message, file=sys.stderr)
+            return EXIT_BAD_INPUT
+        if debug:
+            traceback.print_exc()
+        else:
+            print(f"orcscreen: internal error: {type(exc).__name__}: {exc} "
+                  f"(run with --debug for the traceback)", file=sys.stderr)
+        return EXIT_INTERNAL
+
+
+def _cores() -> int:
+    try:
+        return len(os.sched_getaffinity(0)) or 1
+    except AttributeError:
+        return os.cpu_count() or 1
+
+
+def _duration(seconds: float) -> str:
+    if seconds < 60:
+        return f"{max(seconds, 0.1):.1f} s" if seconds < 10 else f"{seconds:.0f} s"
+    if seconds < 3600:
+        return f"{seconds / 60:.1f} min"
+    return f"{seconds / 3600:.1f} h"

@@ -1,0 +1,1143 @@
+"""Study files (TOML, schema version 1): validation, defaults, sweep expansion, case keys.
+
+A study file is data, never executed. :func:`load_study` reads it, validates every key with
+pydantic models (unknown keys are refused with the nearest valid key), fills every default and
+resolves the fluid filter into a list of fluids. :meth:`Study.cases` expands the sweeps into case
+dictionaries (contract section 1) in a deterministic order. This module is the single source of
+truth for the defaults of the schema.
+
+Bad input raises :class:`StudyError` whose message has one line per fault, each naming the file,
+the key path, the offending value and what is allowed.
+"""
+
+from __future__ import annotations
+
+import difflib
+import functools
+import hashlib
+import itertools
+import json
+import math
+import tomllib
+from collections.abc import Iterator, Mapping
+from importlib import metadata
+from pathlib import Path
+from typing import Annotated, Any, Literal, Optional, Union
+
+from pydantic import (
+    BaseModel,
+    ConfigDict,
+    Field,
+    PrivateAttr,
+    TypeAdapter,
+    ValidationError,
+    field_validator,
+    model_validator,
+)
+
+__all__ = [
+    "StudyError",
+    "Study",
+    "load_study",
+    "study_from_dict",
+    "case_key",
+    "study_hash",
+    "json_schema",
+    "SCHEMA_VERSION",
+    "LAYOUTS",
+    "MAX_CASES",
+]
+
+SCHEMA_VERSION = 1
+LAYOUTS = ("basic", "recuperated")
+SOURCE_KINDS = ("water", "brine", "thermal-oil", "flue-gas", "fluid")
+SINK_KINDS = ("water", "air")
+SAFETY_CLASSES = ("A1", "A2L", "A2", "A3", "B1", "B2L", "B2", "B3")
+FLUE_GAS_SPECIES = ("N2", "O2", "CO2", "H2O", "Ar")
+MAX_CASES = 1_000_000
+"""Studies with more cases are refused unless explicitly allowed (``allow_huge`` / ``--yes``)."""
+
+ATMOSPHERE_bar = 1.01325
+
+
+def _default_flue_gas() -> dict[str, float]:
+    """Default flue gas: natural gas (methane) burnt with 15 % excess air (streams.py owns the model)."""
+    from orcscreen.streams import methane_flue_gas_mole_fractions
+
+    return dict(methane_flue_gas_mole_fractions())
+
+
+# Default source pressures [bar] by kind: hot water and brine are kept liquid (10 bar, common
+# practice for a pressurised loop up to about 175 °C), flue gas is at atmospheric pressure,
+# thermal oil loops run a few bar of nitrogen blanket and pump head (5 bar, common practice).
+_DEFAULT_SOURCE_PRESSURE_bar = {"water": 10.0, "brine": 10.0, "flue-gas": ATMOSPHERE_bar, "thermal-oil": 5.0}
+# Default specific heats [kJ/(kg K)] where the model takes a cp rather than an equation of state.
+# brine: a geothermal brine of about 70 g/kg dissolved salts; seawater-like brines fall from
+# 4.18 (pure water) to about 3.8 kJ/(kg K) at 70 g/kg near 100 °C (Sharqawy, Lienhard, Zubair,
+# Desalination and Water Treatment 16 (2010) 354-380, Fig. of cp vs salinity; from memory).
+# thermal-oil: synthetic heat-transfer oils have cp of about 2.2-2.5 kJ/(kg K) at 200-300 °C
+# (manufacturers' data sheets, from memory); 2.3 is taken.
+_DEFAULT_CP_kJ_kgK = {"brine": 3.8, "thermal-oil": 2.3}
+_DEFAULT_SINK_PRESSURE_bar = {"water": 2.0, "air": ATMOSPHERE_bar}
+
+
+class StudyError(ValueError):
+    """A study is invalid. ``errors`` holds one message line per fault; str() joins them."""
+
+    def __init__(self, errors: list[str] | str):
+        self.errors = [errors] if isinstance(errors, str) else list(errors)
+        super().__init__("\n".join(self.errors))
+
+
+# ---------------------------------------------------------------------------------------------
+# Models of schema version 1
+# ---------------------------------------------------------------------------------------------
+
+_CONFIG = ConfigDict(extra="forbid", strict=True, frozen=True, allow_inf_nan=False, populate_by_name=True)
+
+
+def _f(default: Any, description: str, allowed: str, **constraints: Any) -> Any:
+    """A field whose description carries the unit and whose schema names what is allowed."""
+    return Field(
+        default,
+        description=f"{description} Allowed: {allowed}.",
+        json_schema_extra={"allowed": allowed},
+        **constraints,
+    )
+
+
+def _as_list(value: Any) -> Any:
+    """Let a single string stand for a one-element list (``include = "all"``)."""
+    return [value] if isinstance(value, str) else value
+
+
+class _Section(BaseModel):
+    model_config = _CONFIG
+
+
+class StudySection(_Section):
+    """[study]: name and objective of the study."""
+
+    name: str = _f("unnamed study", "Name of the study, shown in the outputs.", "any text")
+    objective: Literal["net_power"] = _f(
+        "net_power", "What the optimiser maximises per fluid and layout.", '"net_power"'
+    )
+    case_time_limit_s: float = _f(60.0, "Time limit of one case [s].", "a number > 0", gt=0)
+
+
+class SourceSection(_Section):
+    """[source]: the heat source (required)."""
+
+    kind: Literal["water", "brine", "thermal-oil", "flue-gas", "fluid"] = _f(
+        ..., "Kind of heat source.", '"water", "brine", "thermal-oil", "flue-gas", "fluid"'
+    )
+    inlet_temperature_C: float = _f(..., "Source inlet temperature [°C].", "a number from -50 to 1000", ge=-50, le=1000)
+    mass_flow_kg_s: float = _f(..., "Source mass flow [kg/s].", "a number > 0", gt=0)
+    pressure_bar: Optional[float] = _f(
+        None,
+        "Source pressure [bar]. Default 10 for water and brine, 1.01325 for flue gas, 5 for thermal "
+        "oil; required for kind \"fluid\" unless inlet_quality is given (then saturation).",
+        "a number > 0",
+        gt=0,
+    )
+    min_outlet_temperature_C: Optional[float] = _f(
+        None,
+        "Lowest allowed source outlet temperature [°C] (reinjection limit, acid dew point); none by default.",
+        "a number from -50 to 1000, below the inlet temperature",
+        ge=-50,
+        le=1000,
+    )
+    cp_kJ_kgK: Optional[float] = _f(
+        None,
+        "Specific heat at 0 °C [kJ/(kg K)] of a brine or thermal oil. Default 3.8 for brine, 2.3 for thermal oil.",
+        "a number > 0 (kind brine or thermal-oil only)",
+        gt=0,
+    )
+    cp_slope_kJ_kgK2: float = _f(
+        0.0,
+        "Slope of cp with temperature [kJ/(kg K^2)]: cp = cp_kJ_kgK + cp_slope_kJ_kgK2 * T_C.",
+        "a number (kind brine or thermal-oil only)",
+    )
+    composition: Optional[dict[Literal["N2", "O2", "CO2", "H2O", "Ar"], Annotated[float, Field(ge=0)]]] = _f(
+        None,
+        "Flue gas composition as fractions (normalised to sum 1). Default: exhaust of natural gas "
+        "burnt with 15 % excess air.",
+        "a table of N2, O2, CO2, H2O, Ar fractions >= 0 summing to 1 (kind flue-gas only)",
+    )
+    composition_basis: Literal["mole", "mass"] = _f("mole", "Basis of the composition fractions.", '"mole", "mass"')
+    fluid: Optional[str] = _f(
+        None, "CoolProp name of the source fluid (kind \"fluid\").", "a CoolProp fluid name (kind fluid only)"
+    )
+    inlet_quality: Optional[float] = _f(
+        None,
+        "Vapour quality of the source fluid at the inlet, e.g. 1 for condensing saturated vapour (kind \"fluid\").",
+        "a number from 0 to 1 (kind fluid only)",
+        ge=0,
+        le=1,
+    )
+
+    @model_validator(mode="before")
+    @classmethod
+    def _kind_defaults(cls, data: Any) -> Any:
+        """Fill the defaults that depend on the kind of source."""
+        if not isinstance(data, Mapping):
+            return data
+        data = dict(data)
+        kind = data.get("kind")
+        if not isinstance(kind, str):
+            return data
+        if data.get("pressure_bar") is None and kind in _DEFAULT_SOURCE_PRESSURE_bar:
+            data["pressure_bar"] = _DEFAULT_SOURCE_PRESSURE_bar[kind]
+        if data.get("cp_kJ_kgK") is None and kind in _DEFAULT_CP_kJ_kgK:
+            data["cp_kJ_kgK"] = _DEFAULT_CP_kJ_kgK[kind]
+        if data.get("composition") is None and kind == "flue-gas" and data.get("composition_basis", "mole") == "mole":
+            data["composition"] = _default_flue_gas()
+        return data
+
+
+class SinkSection(_Section):
+    """[sink]: the heat sink (cooling water or ambient air)."""
+
+    kind: Literal["water", "air"] = _f("water", "Kind of heat sink.", '"water", "air"')
+    inlet_temperature_C: float = _f(20.0, "Sink inlet temperature [°C].", "a number from -50 to 80", ge=-50, le=80)
+    temperature_rise_K: float = _f(10.0, "Temperature rise of the sink across the condenser [K].", "a number > 0", gt=0)
+    pressure_bar: Optional[float] = _f(
+        None, "Sink pressure [bar]. Default 2 for water, 1.01325 for air.", "a number > 0", gt=0
+    )
+    aux_power_per_kW_rejected: float = _f(
+        0.0, "Fan or pump power per kW of heat rejected [kW/kW].", "a number >= 0", ge=0
+    )
+
+    @model_validator(mode="before")
+    @classmethod
+    def _kind_defaults(cls, data: Any) -> Any:
+        if not isinstance(data, Mapping):
+            return data
+        data = dict(data)
+        kind = data.get("kind", "water")
+        if data.get("pressure_bar") is None and isinstance(kind, str) and kind in _DEFAULT_SINK_PRESSURE_bar:
+            data["pressure_bar"] = _DEFAULT_SINK_PRESSURE_bar[kind]
+        return data
+
+
+class ExchangersSection(_Section):
+    """[exchangers]: pinch points and recuperator effectiveness."""
+
+    pinch_evaporator_K: float = _f(10.0, "Minimum temperature difference in the evaporator [K].", "a number > 0", gt=0)
+    pinch_condenser_K: float = _f(5.0, "Minimum temperature difference in the condenser [K].", "a number > 0", gt=0)
+    pinch_recuperator_K: float = _f(10.0, "Minimum temperature difference in the recuperator [K].", "a number > 0", gt=0)
+    recuperator_effectiveness: float = _f(
+        0.8, "Recuperator effectiveness [-].", "a number in (0, 1]", gt=0, le=1
+    )
+
+
+class MachinesSection(_Section):
+    """[machines]: efficiencies of turbine, pump, generator and motor."""
+
+    turbine_efficiency: float = _f(0.80, "Isentropic efficiency of the turbine [-].", "a number in (0, 1]", gt=0, le=1)
+    pump_efficiency: float = _f(0.70, "Isentropic efficiency of the pump [-].", "a number in (0, 1]", gt=0, le=1)
+    generator_efficiency: float = _f(1.0, "Generator efficiency [-].", "a number in (0, 1]", gt=0, le=1)
+    motor_efficiency: float = _f(1.0, "Efficiency of the pump motor [-].", "a number in (0, 1]", gt=0, le=1)
+
+
+class LimitsSection(_Section):
+    """[limits]: pressure, reduced-pressure and quality limits."""
+
+    max_pressure_bar: Optional[float] = _f(None, "Highest cycle pressure [bar]; none by default.", "a number > 0", gt=0)
+    max_reduced_pressure: float = _f(
+        0.9, "Highest evaporation pressure as a fraction of the critical pressure [-].", "a number in (0, 1)", gt=0, lt=1
+    )
+    min_turbine_outlet_quality: float = _f(
+        0.9, "Lowest vapour quality at the turbine outlet when it is two-phase [-].", "a number in [0, 1]", ge=0, le=1
+    )
+    min_condensing_pressure_bar: Optional[float] = _f(
+        None, "Lowest condensing pressure [bar]; none by default.", "a number > 0", gt=0
+    )
+
+
+class CycleSection(_Section):
+    """[cycle]: layouts and the superheat and subcooling settings."""
+
+    layouts: list[Literal["basic", "recuperated"]] = _f(
+        ["basic", "recuperated"], "Cycle layouts to screen.", 'a non-empty list of "basic", "recuperated"', min_length=1
+    )
+    superheat_K: Union[float, Literal["optimise"]] = _f(
+        0.0, "Superheat at the turbine inlet [K], or \"optimise\".", 'a number >= 0 or "optimise"'
+    )
+    max_superheat_K: float = _f(50.0, "Upper bound of the superheat when it is optimised [K].", "a number > 0", gt=0)
+    subcooling_K: float = _f(0.0, "Subcooling at the condenser outlet [K].", "a number >= 0", ge=0)
+
+    @field_validator("layouts", mode="before")
+    @classmethod
+    def _layouts_list(cls, v: Any) -> Any:
+        return _as_list(v)
+
+    @field_validator("layouts")
+    @classmethod
+    def _layouts_unique(cls, v: list[str]) -> list[str]:
+        dup = sorted({x for x in v if v.count(x) > 1})
+        if dup:
+            raise ValueError(f"layout {dup[0]!r} is listed twice")
+        return v
+
+    @field_validator("superheat_K", mode="before")
+    @classmethod
+    def _superheat(cls, v: Any) -> Any:
+        if v == "optimize":  # the other spelling
+            return "optimise"
+        if isinstance(v, (int, float)) and not isinstance(v, bool) and v < 0:
+            raise ValueError("superheat must be >= 0")
+        return v
+
+
+class FluidsSection(_Section):
+    """[fluids]: which working fluids of the catalogue to screen."""
+
+    include: list[str] = _f(
+        ["all"], "Fluids to screen: CoolProp names, display names, family names or \"all\".",
+        'a list of fluid names, family names or "all"', min_length=1,
+    )
+    exclude: list[str] = _f([], "Fluids or families to leave out.", "a list of fluid or family names")
+    max_gwp: Optional[float] = _f(None, "Highest 100-year global warming potential [-].", "a number >= 0", ge=0)
+    safety_classes: Optional[list[Literal["A1", "A2L", "A2", "A3", "B1", "B2L", "B2", "B3"]]] = _f(
+        None, "ASHRAE 34 safety classes allowed; all by default.",
+        'a list of "A1", "A2L", "A2", "A3", "B1", "B2L", "B2", "B3"',
+    )
+    zero_odp: bool = _f(False, "Keep only fluids with zero ozone depletion potential.", "true or false")
+
+    @field_validator("include", "exclude", "safety_classes", mode="before")
+    @classmethod
+    def _lists(cls, v: Any) -> Any:
+        return _as_list(v)
+
+
+_CASE_SECTIONS = ("study", "source", "sink", "exchangers", "machines", "limits", "cycle")
+
+
+class Study(BaseModel):
+    """A validated study. Build it with :func:`load_study` or :func:`study_from_dict`.
+
+    Attributes beyond the sections: ``fluids`` (resolved fluid names, catalogue order),
+    ``sweep_axes`` (dotted path -> list of values, file order), ``n_cases``, ``origin``.
+    """
+
+    model_config = ConfigDict(
+        extra="forbid", strict=True, frozen=True, populate_by_name=True,
+        title="orcscreen study (schema version 1)",
+    )
+
+    schema_version: Literal[1] = _f(1, "Version of the study-file schema.", "1")
+    study: StudySection = Field(default_factory=StudySection, description="[study] name and objective.")
+    source: SourceSection = Field(..., description="[source] the heat source (required).")
+    sink: SinkSection = Field(default_factory=SinkSection, description="[sink] cooling water or ambient air.")
+    exchangers: ExchangersSection = Field(default_factory=ExchangersSection, description="[exchangers] pinch points.")
+    machines: MachinesSection = Field(default_factory=MachinesSection, description="[machines] efficiencies.")
+    limits: LimitsSection = Field(default_factory=LimitsSection, description="[limits] pressure and quality limits.")
+    cycle: CycleSection = Field(default_factory=CycleSection, description="[cycle] layouts, superheat, subcooling.")
+    fluid_filter: FluidsSection = Field(
+        default_factory=FluidsSection, alias="fluids", description="[fluids] which fluids to screen."
+    )
+
+    _origin: str = PrivateAttr("<dict>")
+    _fluids: tuple[str, ...] = PrivateAttr(())
+    _sweep: dict[str, Any] = PrivateAttr(default_factory=dict)  # path -> list of values or range dict
+
+    @property
+    def origin(self) -> str:
+        """Where the study came from (file path or "<dict>")."""
+        return self._origin
+
+    @property
+    def fluids(self) -> tuple[str, ...]:
+        """CoolProp names of the fluids selected by the [fluids] section, in catalogue order."""
+        return self._fluids
+
+    @property
+    def layouts(self) -> tuple[str, ...]:
+        return tuple(self.cycle.layouts)
+
+    @property
+    def sweep_spec(self) -> dict[str, Any]:
+        """The sweep as written (flattened to dotted paths): list of values or {start, stop, step}."""
+        return dict(self._sweep)
+
+    @property
+    def sweep_axes(self) -> dict[str, list[Any]]:
+        """Dotted path -> list of values, in file order."""
+        return {path: list(_axis_values(spec)) for path, spec in self._sweep.items()}
+
+    @property
+    def sweep_sizes(self) -> dict[str, int]:
+        """Dotted path -> number of values, without expanding the sweep."""
+        return {path: _axis_length(spec) for path, spec in self._sweep.items()}
+
+    @property
+    def n_points(self) -> int:
+        """Number of operating points (product of the sweep sizes; 1 without a sweep)."""
+        return math.prod(self.sweep_sizes.values())
+
+    @property
+    def n_cases(self) -> int:
+        return self.n_points * len(self._fluids) * len(self.cycle.layouts)
+
+    def base_case(self) -> dict[str, Any]:
+        """The case sections without sweep values applied (plain JSON-able dicts)."""
+        dumped = self.model_dump(mode="python", by_alias=True)
+        return {name: dumped[name] for name in _CASE_SECTIONS}
+
+    def cases(self) -> Iterator[dict[str, Any]]:
+        """Case dictionaries (contract section 1): sweep points x fluids x layouts, in that order."""
+        base = self.base_case()
+        cycle = {k: v for k, v in base["cycle"].items() if k != "layouts"}
+        paths = list(self._sweep)
+        axes = [_axis_values(self._sweep[p]) for p in paths]
+        split = [tuple(p.split(".", 1)) for p in paths]
+        for point in itertools.product(*axes):
+            sections = {name: dict(base[name]) for name in _CASE_SECTIONS if name != "cycle"}
+            sections["cycle"] = dict(cycle)
+            for (section, key), value in zip(split, point):
+                sections[section][key] = value
+            sweep = dict(zip(paths, point))
+            for fluid in self._fluids:
+                for layout in self.cycle.layouts:
+                    case = {name: dict(sec) for name, sec in sections.items()}
+                    if case["source"].get("composition") is not None:
+                        case["source"]["composition"] = dict(case["source"]["composition"])
+                    case["cycle"]["layout"] = layout
+                    case["fluid"] = fluid
+                    case["layout"] = layout
+                    case["sweep"] = dict(sweep)
+                    yield case
+
+
+# ---------------------------------------------------------------------------------------------
+# Field lookup (for sweeps and messages)
+# ---------------------------------------------------------------------------------------------
+
+_SECTION_MODELS: dict[str, type[BaseModel]] = {
+    "study": StudySection,
+    "source": SourceSection,
+    "sink": SinkSection,
+    "exchangers": ExchangersSection,
+    "machines": MachinesSection,
+    "limits": LimitsSection,
+    "cycle": CycleSection,
+    "fluids": FluidsSection,
+}
+_TOP_KEYS = ("schema_version", *_SECTION_MODELS, "sweep")
+
+
+def _is_numeric(annotation: Any) -> bool:
+    if annotation is float:
+        return True
+    return float in getattr(annotation, "__args__", ())
+
+
+NUMERIC_PATHS: tuple[str, ...] = tuple(
+    f"{section}.{name}"
+    for section, model in _SECTION_MODELS.items()
+    if section != "fluids"
+    for name, fi in model.model_fields.items()
+    if _is_numeric(fi.annotation)
+)
+"""Dotted paths of the settings a [sweep] may vary (numeric settings of the case sections)."""
+
+ALL_PATHS: tuple[str, ...] = tuple(
+    f"{section}.{name}" for section, model in _SECTION_MODELS.items() for name in model.model_fields
+)
+
+
+@functools.lru_cache(maxsize=None)
+def _field_adapter(path: str) -> TypeAdapter:
+    section, key = path.split(".", 1)
+    fi = _SECTION_MODELS[section].model_fields[key]
+    annotation = fi.annotation
+    if path == "cycle.superheat_K":
+        annotation = Union[Annotated[float, Field(ge=0)], Literal["optimise"]]
+    return TypeAdapter(Annotated[annotation, *fi.metadata], config=ConfigDict(strict=True, allow_inf_nan=False))
+
+
+def _allowed(path: str) -> str:
+    section, _, key = path.partition(".")
+    model = _SECTION_MODELS.get(section)
+    if model is None:
+        return ""
+    fi = model.model_fields.get(key)
+    if fi is None or not isinstance(fi.json_schema_extra, dict):
+        return ""
+    return str(fi.json_schema_extra.get("allowed", ""))
+
+
+def _nearest(word: str, choices: list[str] | tuple[str, ...]) -> str | None:
+    best = difflib.get_close_matches(word, list(choices), n=1, cutoff=0.6)
+    if not best:
+        lowered = {c.lower(): c for c in choices}
+        best = [lowered[m] for m in difflib.get_close_matches(word.lower(), list(lowered), n=1, cutoff=0.6)]
+    return best[0] if best else None
+
+
+def _show(value: Any) -> str:
+    """A value as it would be written in TOML (strings quoted, lists and tables as JSON)."""
+    try:
+        return json.dumps(value, ensure_ascii=False, default=str)
+    except (TypeError, ValueError):
+        return repr(value)
+
+
+# ---------------------------------------------------------------------------------------------
+# Turning pydantic errors into one line per key
+# ---------------------------------------------------------------------------------------------
+
+_TYPE_NAMES = {bool: "a boolean", int: "a number", float: "a number", str: "a string", list: "a list", dict: "a table"}
+
+
+def _type_name(value: Any) -> str:
+    for t, name in _TYPE_NAMES.items():
+        if type(value) is t:
+            return name
+    return type(value).__name__
+
+
+def _loc_path(loc: tuple[Any, ...]) -> tuple[str, str]:
+    """(dotted key path, field path for the allowed text) from a pydantic error location."""
+    parts: list[str] = []
+    model: Any = Study
+    field_path = ""
+    for item in loc:
+        if isinstance(item, int):
+            parts[-1] = f"{parts[-1]}[{item}]" if parts else f"[{item}]"
+            continue
+        if model is None:
+            # union member tags ("float", "literal['optimise']") or dict keys below a field
+            if field_path.endswith(".composition") and item in FLUE_GAS_SPECIES:
+                parts.append(item)
+            continue
+        fields = {(fi.alias or name): name for name, fi in model.model_fields.items()}
+        if item not in fields and item not in model.model_fields:
+            parts.append(str(item))
+            model = None
+            continue
+        name = fields.get(item, item)
+        parts.append(str(item))
+        annotation = model.model_fields[name].annotation
+        if isinstance(annotation, type) and issubclass(annotation, BaseModel):
+            model = annotation
+        else:
+            field_path = ".".join(parts)
+            model = None
+    return ".".join(parts), field_path
+
+
+def _format_validation_errors(exc: ValidationError, origin: str, prefix: str = "") -> list[str]:
+    """One line per key path: file, path, value, problem, what is allowed."""
+    grouped: dict[str, list[dict[str, Any]]] = {}
+    fields: dict[str, str] = {}
+    for err in exc.errors():
+        path, field_path = _loc_path(tuple(err["loc"]))
+        path = prefix + path if prefix else path
+        grouped.setdefault(path, []).append(err)
+        fields[path] = prefix + field_path if field_path and prefix else field_path
+    lines = []
+    for path, errs in grouped.items():
+        lines.append(_error_line(origin, path, fields[path], errs))
+    return lines
+
+
+def _error_line(origin: str, path: str, field_path: str, errs: list[dict[str, Any]]) -> str:
+    err = errs[0]
+    kind = err["type"]
+    value = err.get("input")
+    allowed = _allowed(field_path) if field_path else ""
+    if kind == "extra_forbidden":
+        return _unknown_key_line(origin, path, value)
+    if kind == "missing":
+        if path in _SECTION_MODELS:
+            return f"{origin}: [{path}] section is required but missing; it needs at least kind, inlet_temperature_C and mass_flow_kg_s"
+        return f"{origin}: {path}: required key is missing; allowed: {allowed or 'see orcscreen schema'}"
+    if kind == "model_type" or (kind == "dict_type" and path in _SECTION_MODELS):
+        return f"{origin}: {path} = {_show(value)}: must be a table [{path}] of keys, not {_type_name(value)}"
+    value_errors = [e for e in errs if e["type"] == "value_error"]
+    if value_errors:
+        problem = value_errors[0]["msg"].removeprefix("Value error, ")
+    elif any(e["type"] in ("literal_error", "enum") for e in errs) and not any(
+        e["type"].endswith("_type") and not isinstance(value, (int, float)) for e in errs if e["type"] != "literal_error"
+    ):
+        problem = "not an allowed value"
+    elif all(e["type"].endswith(("_type", "_parsing")) or e["type"] == "literal_error" for e in errs):
+        problem = f"wrong type ({_type_name(value)})"
+    elif kind in ("greater_than", "greater_than_equal", "less_than", "less_than_equal"):
+        problem = "out of range"
+    elif kind == "finite_number":
+        problem = "must be a finite number"
+    elif kind == "too_short":
+        problem = "must not be empty"
+    else:
+        problem = err["msg"].lower()
+    tail = f"; allowed: {allowed}" if allowed else ""
+    return f"{origin}: {path} = {_show(value)}: {problem}{tail}"
+
+
+def _unknown_key_line(origin: str, path: str, value: Any) -> str:
+    section, _, key = path.rpartition(".")
+    if not section:
+        guess = _nearest(key, _TOP_KEYS)
+        hint = f"; did you mean [{guess}]?" if guess else ""
+        return f"{origin}: [{key}]: unknown section{hint} allowed: {', '.join(_TOP_KEYS)}"
+    model = _SECTION_MODELS.get(section)
+    choices = list(model.model_fields) if model is not None else []
+    guess = _nearest(key, choices)
+    hint = f"; did you mean {section}.{guess}?" if guess else ""
+    return f"{origin}: {path}: unknown key{hint} allowed in [{section}]: {', '.join(choices)}"
+
+
+# ---------------------------------------------------------------------------------------------
+# Sweeps
+# ---------------------------------------------------------------------------------------------
+
+_RANGE_KEYS = ("start", "stop", "step")
+
+
+def _range_length(start: float, stop: float, step: float) -> int:
+    """Number of grid values start + i*step <= stop (stop included within 1e-9*step)."""
+    return int(math.floor((stop - start) / step + 1e-9)) + 1
+
+
+def _axis_length(spec: Any) -> int:
+    if isinstance(spec, dict):
+        return _range_length(spec["start"], spec["stop"], spec["step"])
+    return len(spec)
+
+
+def _axis_values(spec: Any) -> Iterator[Any] | list[Any]:
+    """Values of one sweep axis: a list as given, or a range start + i*step to 12 significant digits."""
+    if isinstance(spec, dict):
+        start, step = spec["start"], spec["step"]
+        n = _axis_length(spec)
+        return [float(f"{start + i * step:.12g}") for i in range(n)]
+    return list(spec)
+
+
+def _flatten_sweep(raw: Any, origin: str, errors: list[str]) -> dict[str, tuple[str, Any]]:
+    """Dotted path -> (key path in the file, raw spec) for both the quoted and the nested form."""
+    out: dict[str, tuple[str, Any]] = {}
+    if not isinstance(raw, Mapping):
+        errors.append(f"{origin}: sweep = {_show(raw)}: must be a table [sweep] of dotted paths, not {_type_name(raw)}")
+        return out
+
+    def walk(prefix: str, table: Mapping[str, Any], where: str) -> None:
+        for key, value in table.items():
+            path = f"{prefix}.{key}" if prefix else key
+            file_path = f'{where}."{key}"' if "." in key else f"{where}.{key}"
+            is_range = isinstance(value, Mapping) and any(k in value for k in _RANGE_KEYS)
+            if isinstance(value, Mapping) and not is_range:
+                if path.count(".") >= 1:
+                    errors.append(
+                        f"{origin}: {file_path}: not a numeric setting, a sweep varies one number; "
+                        f"allowed (numeric settings): {', '.join(NUMERIC_PATHS)}"
+                    )
+                    continue
+                walk(path, value, file_path)
+                continue
+            if path in out:
+                errors.append(f"{origin}: {file_path}: {path} is swept twice (quoted and nested form)")
+                continue
+            out[path] = (file_path, value)
+
+    walk("", raw, "sweep")
+    return out
+
+
+def _check_sweep(flat: dict[str, tuple[str, Any]], origin: str, errors: list[str]) -> dict[str, Any]:
+    """Validate every sweep axis; return path -> list of validated values or a range dict."""
+    specs: dict[str, Any] = {}
+    for path, (file_path, spec) in flat.items():
+        if path not in NUMERIC_PATHS:
+            if path in ALL_PATHS:
+                why = f"{path} is not a numeric setting and cannot be swept"
+            else:
+                why = "unknown setting"
+            guess = _nearest(path, NUMERIC_PATHS) if path not in ALL_PATHS else None
+            if guess:
+                errors.append(f"{origin}: {file_path}: {why}; did you mean {guess}? allowed: a numeric "
+                              f"setting by its dotted path (orcscreen schema lists them)")
+            else:
+                errors.append(f"{origin}: {file_path}: {why}; allowed (numeric settings): {', '.join(NUMERIC_PATHS)}")
+            continue
+        adapter = _field_adapter(path)
+        allowed = _allowed(path)
+        if isinstance(spec, list):
+            if not spec:
+                errors.append(f"{origin}: {file_path} = []: a sweep list needs at least one value; allowed: {allowed}")
+                continue
+            values, bad = [], False
+            for i, item in enumerate(spec):
+                try:
+                    values.append(adapter.validate_python(item))
+                except ValidationError:
+                    errors.append(f"{origin}: {file_path}[{i}] = {_show(item)}: not valid for {path}; allowed: {allowed}")
+                    bad = True
+            if bad:
+                continue
+            dup = [v for i, v in enumerate(values) if v in values[:i]]
+            if dup:
+                errors.append(f"{origin}: {file_path} = {_show(spec)}: value {_show(dup[0])} is listed twice; each value once")
+                continue
+            specs[path] = values
+        elif isinstance(spec, Mapping):
+            rng = _check_range(path, file_path, spec, origin, errors)
+            if rng is not None:
+                specs[path] = rng
+        else:
+            errors.append(
+                f"{origin}: {file_path} = {_show(spec)}: a sweep needs a list of values or a "
+                f"{{start, stop, step}} range, not {_type_name(spec)}; allowed values: {allowed}"
+            )
+    return specs
+
+
+def _check_range(path: str, file_path: str, spec: Mapping[str, Any], origin: str, errors: list[str]) -> dict | None:
+    ok = True
+    for key in spec:
+        if key not in _RANGE_KEYS:
+            guess = _nearest(key, _RANGE_KEYS)
+            hint = f"; did you mean {guess}?" if guess else ""
+            errors.append(f"{origin}: {file_path}.{key}: unknown key in a sweep range{hint} allowed: start, stop, step")
+            ok = False
+    for key in _RANGE_KEYS:
+        if key not in spec:
+            errors.append(f"{origin}: {file_path}.{key}: required key of a sweep range is missing; allowed: a number")
+            ok = False
+        elif isinstance(spec[key], bool) or not isinstance(spec[key], (int, float)) or not math.isfinite(spec[key]):
+            errors.append(f"{origin}: {file_path}.{key} = {_show(spec[key])}: wrong type ({_type_name(spec[key])}); allowed: a finite number")
+            ok = False
+    if not ok:
+        return None
+    start, stop, step = (float(spec[k]) for k in _RANGE_KEYS)
+    if step <= 0:
+        errors.append(f"{origin}: {file_path}.step = {_show(spec['step'])}: out of range; allowed: a number > 0")
+        return None
+    if stop < start:
+        errors.append(
+            f"{origin}: {file_path}.stop = {_show(spec['stop'])}: below start = {_show(spec['start'])}; allowed: stop >= start"
+        )
+        return None
+    rng = {"start": start, "stop": stop, "step": step}
+    n = _range_length(start, stop, step)
+    adapter = _field_adapter(path)
+    for label, value in (("start", start), ("stop", float(f"{start + (n - 1) * step:.12g}"))):
+        try:
+            adapter.validate_python(value)
+        except ValidationError:
+            errors.append(f"{origin}: {file_path}.{label} = {_show(spec[label])}: out of range for {path}; allowed: {_allowed(path)}")
+            return None
+    return rng
+
+
+# ---------------------------------------------------------------------------------------------
+# Checks across keys (per sweep point)
+# ---------------------------------------------------------------------------------------------
+
+_POINT_PATHS = (
+    "source.inlet_temperature_C",
+    "source.min_outlet_temperature_C",
+    "source.pressure_bar",
+    "sink.inlet_temperature_C",
+    "sink.temperature_rise_K",
+    "sink.pressure_bar",
+    "exchangers.pinch_evaporator_K",
+    "exchangers.pinch_condenser_K",
+    "limits.max_pressure_bar",
+    "limits.min_condensing_pressure_bar",
+    "cycle.superheat_K",
+    "cycle.max_superheat_K",
+)
+# Every swept source or sink setting can break the stream models, so they count as well.
+_POINT_PATHS = tuple(dict.fromkeys(
+    _POINT_PATHS + tuple(p for p in NUMERIC_PATHS if p.startswith(("source.", "sink.")))
+))
+
+
+@functools.lru_cache(maxsize=4096)
+def _water_saturation_pressure_bar(T_C: float) -> float:
+    """Saturation pressure of pure water [bar] (IAPWS-95 through orcscreen.properties)."""
+    from orcscreen.properties import get_fluid
+
+    water = get_fluid("Water")
+    T_K = T_C + 273.15
+    if T_K >= water.T_crit_K:
+        return math.inf
+    return water.sat_T(T_K).p_Pa / 1e5
+
+
+def _point_problems(study: Study, base: Mapping[str, Any], v: Mapping[str, Any]) -> list[tuple[str, str, str]]:
+    """(check id, key path, message) for every cross-key rule the point v breaks."""
+    out = []
+    T_src = v["source.inlet_temperature_C"]
+    T_sink = v["sink.inlet_temperature_C"]
+    rise = v["sink.temperature_rise_K"]
+    pe, pc = v["exchangers.pinch_evaporator_K"], v["exchangers.pinch_condenser_K"]
+    # Any cycle must reject heat above the sink outlet + condenser pinch and take it in below
+    # the source inlet - evaporator pinch, so the source must be hotter than their sum.
+    need = T_sink + rise + pe + pc
+    if not T_src > need:
+        out.append((
+            "too-cold", "source.inlet_temperature_C",
+            f"source.inlet_temperature_C = {_show(T_src)}: the source is too cold for the sink; allowed: above "
+            f"sink.inlet_temperature_C + sink.temperature_rise_K + pinch_evaporator_K + pinch_condenser_K "
+            f"= {T_sink:g} + {rise:g} + {pe:g} + {pc:g} = {need:g} °C",
+        ))
+    T_min = v["source.min_outlet_temperature_C"]
+    if T_min is not None and not T_min < T_src:
+        out.append((
+            "min-outlet", "source.min_outlet_temperature_C",
+            f"source.min_outlet_temperature_C = {_show(T_min)}: not below the source inlet temperature "
+            f"{T_src:g} °C; allowed: a number below source.inlet_temperature_C",
+        ))
+    kind = study.source.kind
+    p_src = v["source.pressure_bar"]
+    if kind == "water" and p_src is not None:
+        p_sat = _water_saturation_pressure_bar(T_src)
+        if not p_src > p_sat:
+            out.append((
+                "boiling-source", "source.pressure_bar",
+                f"source.pressure_bar = {_show(p_src)}: hot water at {T_src:g} °C boils at this pressure "
+                f"(saturation {p_sat:.4g} bar, IAPWS-95); allowed: a pressure above {p_sat:.4g} bar, "
+                f'or kind = "fluid" for steam',
+            ))
+    if study.sink.kind == "water":
+        if not T_sink > 0:
+            out.append((
+                "freezing-sink", "sink.inlet_temperature_C",
+                f"sink.inlet_temperature_C = {_show(T_sink)}: cooling water would freeze; allowed: above 0 °C, "
+                f'or sink.kind = "air"',
+            ))
+        p_sink = v["sink.pressure_bar"]
+        T_out = T_sink + rise
+        p_sat = _water_saturation_pressure_bar(T_out)
+        if p_sink is not None and not p_sink > p_sat:
+            out.append((
+                "boiling-sink", "sink.pressure_bar",
+                f"sink.pressure_bar = {_show(p_sink)}: cooling water leaving at {T_out:g} °C boils at this "
+                f"pressure (saturation {p_sat:.4g} bar, IAPWS-95); allowed: above {p_sat:.4g} bar",
+            ))
+    p_max, p_cmin = v["limits.max_pressure_bar"], v["limits.min_condensing_pressure_bar"]
+    if p_max is not None and p_cmin is not None and not p_cmin < p_max:
+        out.append((
+            "pressures", "limits.min_condensing_pressure_bar",
+            f"limits.min_condensing_pressure_bar = {_show(p_cmin)}: not below limits.max_pressure_bar = "
+            f"{p_max:g}; allowed: a number below the highest pressure",
+        ))
+    sh, sh_max = v["cycle.superheat_K"], v["cycle.max_superheat_K"]
+    if isinstance(sh, float) and sh > sh_max:
+        out.append((
+            "superheat", "cycle.superheat_K",
+            f"cycle.superheat_K = {_show(sh)}: above cycle.max_superheat_K = {sh_max:g}; allowed: a number "
+            f"from 0 to cycle.max_superheat_K",
+        ))
+    if not out:
+        for name in ("source", "sink"):
+            section = dict(base[name])
+            section.update({p.split(".", 1)[1]: x for p, x in v.items() if p.startswith(name + ".")})
+            problem = _stream_problem(name, _canonical(section))
+            if problem:
+                out.append((f"stream-{name}", name, f"{name} = {_show(section)}: {problem}"))
+    return out
+
+
+@functools.lru_cache(maxsize=4096)
+def _stream_problem(name: str, section_json: str) -> str | None:
+    """What the stream model of streams.py says against a source or sink section, or None."""
+    from orcscreen import streams
+    from orcscreen.properties import PropertyError
+
+    section = json.loads(section_json)
+    build = streams.source_from_settings if name == "source" else streams.sink_from_settings
+    try:
+        build(section)
+    except (streams.StreamError, PropertyError) as exc:
+        return f"the {name} model refuses these settings: {exc}"
+    return None
+
+
+def _check_points(study: Study, specs: dict[str, Any], origin: str, errors: list[str]) -> None:
+    """Apply the cross-key rules to the base values and to every sweep point that can matter."""
+    base = study.base_case()
+    fixed = {p: base[p.split(".")[0]][p.split(".")[1]] for p in _POINT_PATHS}
+    swept = [p for p in specs if p in _POINT_PATHS]
+    axes = [_axis_values(specs[p]) for p in swept]
+    n_total = math.prod(len(a) for a in axes)
+    if n_total > 100_000:
+        # The rules are monotone in each value, so the corners of the sweep box find any breach.
+        axes = [sorted({min(a, key=_order), max(a, key=_order)}, key=_order) for a in axes]
+        exact = False
+    else:
+        exact = True
+    seen: dict[str, tuple[str, dict[str, Any], int]] = {}
+    n_points = 0
+    for combo in itertools.product(*axes):
+        n_points += 1
+        values = dict(fixed)
+        values.update(zip(swept, combo))
+        for check, path, message in _point_problems(study, base, values):
+            if check in seen:
+                first = seen[check]
+                seen[check] = (first[0], first[1], first[2] + 1)
+            else:
+                seen[check] = (message, dict(zip(swept, combo)), 1)
+    for message, point, count in seen.values():
+        where = ""
+        if point:
+            where = " (at sweep point " + ", ".join(f"{p} = {_show(x)}" for p, x in point.items())
+            where += f"; {count} of {n_points} points)" if exact else "; a corner of the sweep)"
+        errors.append(f"{origin}: {message}{where}")
+
+
+def _order(x: Any) -> float:
+    return x if isinstance(x, float) else math.inf
+
+
+def _check_source_keys(study: Study, origin: str, errors: list[str]) -> Study:
+    """Rules between keys of [source] that do not vary with the sweep; returns the study with
+    the flue-gas composition normalised and the source fluid name canonical."""
+    src = study.source
+    kind = src.kind
+    fixes: dict[str, Any] = {}
+    if src.cp_kJ_kgK is not None and kind not in _DEFAULT_CP_kJ_kgK:
+        errors.append(f"{origin}: source.cp_kJ_kgK = {_show(src.cp_kJ_kgK)}: only for kind brine or thermal-oil "
+                      f"(this source is {kind!r}, whose properties come from its equation of state); allowed: leave it out")
+    if src.cp_slope_kJ_kgK2 != 0.0 and kind not in _DEFAULT_CP_kJ_kgK:
+        errors.append(f"{origin}: source.cp_slope_kJ_kgK2 = {_show(src.cp_slope_kJ_kgK2)}: only for kind brine or "
+                      f"thermal-oil; allowed: leave it out")
+    if src.composition is not None:
+        if kind != "flue-gas":
+            errors.append(f"{origin}: source.composition = {_show(src.composition)}: only for kind flue-gas; allowed: leave it out")
+        else:
+            total = sum(src.composition.values())
+            if not abs(total - 1.0) <= 0.01:
+                errors.append(f"{origin}: source.composition = {_show(src.composition)}: fractions sum to {total:.6g}; "
+                              f"allowed: fractions of N2, O2, CO2, H2O, Ar summing to 1 (within 0.01)")
+            else:
+                fixes["composition"] = {k: x / total for k, x in src.composition.items()}
+    elif kind == "flue-gas":
+        errors.append(f'{origin}: source.composition: required when composition_basis = "mass"; allowed: a table '
+                      f"of N2, O2, CO2, H2O, Ar mass fractions")
+    if kind == "fluid":
+        if src.fluid is None:
+            errors.append(f'{origin}: source.fluid: required for kind = "fluid"; allowed: a CoolProp fluid name such as "Water"')
+        else:
+            canonical = _coolprop_name(src.fluid)
+            if canonical is None:
+                from orcscreen.properties import coolprop_fluid_names
+
+                close = difflib.get_close_matches(src.fluid, coolprop_fluid_names(), n=3, cutoff=0.5)
+                hint = f"; close matches: {', '.join(close)}" if close else ""
+                errors.append(f"{origin}: source.fluid = {_show(src.fluid)}: unknown to CoolProp{hint}; allowed: a CoolProp fluid name")
+            else:
+                fixes["fluid"] = canonical
+        if src.inlet_quality is None and src.pressure_bar is None:
+            errors.append(f'{origin}: source.pressure_bar: required for kind = "fluid" without inlet_quality; '
+                          f"allowed: a number > 0 (or give source.inlet_quality for a saturated source)")
+        if src.inlet_quality is not None and src.pressure_bar is not None:
+            errors.append(f"{origin}: source.pressure_bar = {_show(src.pressure_bar)}: a saturated source "
+                          f"(inlet_quality given) takes its pressure from the temperature; allowed: leave it out")
+    else:
+        for key in ("fluid", "inlet_quality"):
+            if getattr(src, key) is not None:
+                errors.append(f'{origin}: source.{key} = {_show(getattr(src, key))}: only for kind = "fluid"; allowed: leave it out')
+    if fixes:
+        study = study.model_copy(update={"source": src.model_copy(update=fixes)})
+    return study
+
+
+def _coolprop_name(name: str) -> str | None:
+    from orcscreen.properties import coolprop_fluid_names
+
+    names = coolprop_fluid_names()
+    if name in names:
+        return name
+    lowered = {n.lower(): n for n in names}
+    return lowered.get(name.lower())
+
+
+# ---------------------------------------------------------------------------------------------
+# Fluids
+# ---------------------------------------------------------------------------------------------
+
+def _resolve_fluids(section: FluidsSection, origin: str, errors: list[str]) -> tuple[str, ...]:
+    from orcscreen import fluids
+
+    try:
+        infos = fluids.select(
+            include=list(section.include),
+            exclude=list(section.exclude),
+            max_gwp=section.max_gwp,
+            safety_classes=None if section.safety_classes is None else list(section.safety_classes),
+            zero_odp=section.zero_odp,
+        )
+    except fluids.UnknownFluidError as exc:
+        errors.append(f"{origin}: fluids: {exc}; allowed: names and families listed by `orcscreen fluids`")
+        return ()
+    except ValueError as exc:
+        errors.append(f"{origin}: fluids: {exc}")
+        return ()
+    names = [getattr(info, "coolprop_name", info) for info in infos]
+    names = tuple(dict.fromkeys(names))
+    if not names:
+        errors.append(
+            f"{origin}: fluids = {_show(section.model_dump(exclude_defaults=True))}: the filter leaves no fluid; "
+            f"allowed: a filter that keeps at least one fluid (see orcscreen fluids)"
+        )
+    return names
+
+
+# ---------------------------------------------------------------------------------------------
+# Entry points
+# ---------------------------------------------------------------------------------------------
+
+def load_study(path: str | Path, *, allow_huge: bool = False) -> Study:
+    """Read, validate and resolve a study file; raise :class:`StudyError` on any bad input."""
+    path = Path(path)
+    origin = str(path)
+    try:
+        raw_bytes = path.read_bytes()
+    except FileNotFoundError:
+        raise StudyError(f"{origin}: study file not found") from None
+    except OSError as exc:
+        raise StudyError(f"{origin}: cannot read the study file: {exc.strerror or exc}") from None
+    try:
+        data = tomllib.loads(raw_bytes.decode("utf-8"))
+    except UnicodeDecodeError as exc:
+        raise StudyError(f"{origin}: not UTF-8 text (byte {exc.start}); allowed: a UTF-8 TOML file") from None
+    except tomllib.TOMLDecodeError as exc:
+        raise StudyError(f"{origin}: TOML syntax error: {exc}") from None
+    return study_from_dict(data, origin=origin, allow_huge=allow_huge)
+
+
+def study_from_dict(d: Mapping[str, Any], origin: str = "<dict>", *, allow_huge: bool = False) -> Study:
+    """Validate a study given as a dictionary (the parsed TOML); raise :class:`StudyError`."""
+    if not isinstance(d, Mapping):
+        raise StudyError(f"{origin}: a study must be a table of sections, not {_type_name(d)}")
+    errors: list[str] = []
+    raw = dict(d)
+    raw_sweep = raw.pop("sweep", {})
+    version = raw.get("schema_version", SCHEMA_VERSION)
+    if version != SCHEMA_VERSION or isinstance(version, bool):
+        raise StudyError(
+            f"{origin}: schema_version = {_show(version)}: this orcscreen reads schema version "
+            f"{SCHEMA_VERSION}; allowed: 1"
+        )
+    study: Study | None
+    try:
+        study = Study.model_validate(raw)
+    except ValidationError as exc:
+        errors.extend(_format_validation_errors(exc, origin))
+        study = None
+    flat = _flatten_sweep(raw_sweep, origin, errors)
+    specs = _check_sweep(flat, origin, errors)
+    if study is None:
+        raise StudyError(errors)
+    study = _check_source_keys(study, origin, errors)
+    fluids = _resolve_fluids(study.fluid_filter, origin, errors)
+    _check_points(study, specs, origin, errors)
+    study._origin = origin
+    study._fluids = fluids
+    study._sweep = specs
+    if not errors and not allow_huge and study.n_cases > MAX_CASES:
+        sizes = " x ".join(f"{n} {p}" for p, n in study.sweep_sizes.items())
+        sizes = f"{sizes} x " if sizes else ""
+        errors.append(
+            f"{origin}: sweep: {study.n_cases:,} cases ({sizes}{len(fluids)} fluids x {len(study.layouts)} layouts) "
+            f"is more than {MAX_CASES:,}; allowed: at most {MAX_CASES:,} cases, or confirm with --yes"
+        )
+    if errors:
+        raise StudyError(errors)
+    return study
+
+
+def _versions() -> dict[str, str]:
+    from orcscreen.properties import coolprop_version
+
+    try:
+        own = metadata.version("orcscreen")
+    except metadata.PackageNotFoundError:
+        own = "0+unknown"
+    return {"orcscreen": own, "coolprop": coolprop_version()}
+
+
+def _canonical(obj: Any) -> str:
+    return json.dumps(obj, sort_keys=True, separators=(",", ":"), ensure_ascii=True, allow_nan=False)
+
+
+def case_key(case: Mapping[str, Any]) -> str:
+    """Stable key of a case: first 16 hex digits of sha256 over its canonical JSON and versions.
+
+    Every input that can change the result is covered; the study name and the "sweep" entry
+    (a restatement of values already in the sections) are left out, so renaming a study or
+    turning a sweep into a single point recomputes nothing.
+    """
+    body = {k: v for k, v in case.items() if k != "sweep"}
+    if isinstance(body.get("study"), Mapping):
+        body["study"] = {k: v for k, v in body["study"].items() if k != "name"}
+    text = _canonical({"case": body, "versions": _versions()})
+    return hashlib.sha256(text.encode("ascii")).hexdigest()[:16]
+
+
+def study_hash(study: Study) -> str:
+    """First 16 hex digits of sha256 over the whole validated study, its fluids and the versions."""
+    body = {
+        "study": study.model_dump(mode="json", by_alias=True),
+        "sweep": study.sweep_spec,
+        "fluids": list(study.fluids),
+        "versions": _versions(),
+    }
+    return hashlib.sha256(_canonical(body).encode("ascii")).hexdigest()[:16]
+
+
+def json_schema() -> dict[str, Any]:
+    """JSON Schema of the study file (schema version 1), with units and allowed values."""
+    schema = Study.model_json_schema(by_alias=True)
+    schema["$schema"] = "https://json-schema.org/draft/2020-12/schema"
+    schema["description"] = (
+        "Study file of orcscreen, TOML, schema version 1. Units are in the key names (_C, _K, _bar, "
+        "_kg_s). Every key has a default except [source] kind, inlet_temperature_C and mass_flow_kg_s."
+    )
+    schema["properties"]["sweep"] = _sweep_schema()
+    schema.setdefault("$defs", {})["SweepRange"] = _SWEEP_RANGE_SCHEMA
+    return schema
+
+
+_SWEEP_RANGE_SCHEMA: dict[str, Any] = {
+    "type": "object",
+    "description": "A range: start + i*step up to stop, stop included when it falls on the grid.",
+    "properties": {
+        "start": {"type": "number"},
+        "stop": {"type": "number", "description": "stop >= start"},
+        "step": {"type": "number", "exclusiveMinimum": 0},
+    },
+    "required": list(_RANGE_KEYS),
+    "additionalProperties": False,
+}
+
+
+def _sweep_schema() -> dict[str, Any]:
+    axis = {
+        "description": "A list of values or a {start, stop, step} range.",
+        "oneOf": [{"type": "array", "minItems": 1, "items": {"type": ["number", "string"]}}, {"$ref": "#/$defs/SweepRange"}],
+    }
+    props: dict[str, Any] = {}
+    nested: dict[str, dict[str, Any]] = {}
+    for path in NUMERIC_PATHS:
+        section, key = path.split(".")
+        entry = dict(axis, description=f"Sweep of {path}: list of values or range. Each value: {_allowed(path)}.")
+        props[path] = entry
+        nested.setdefault(section, {"type": "object", "additionalProperties": False, "properties": {}})
+        nested[section]["properties"][key] = entry
+    props.update(nested)
+    return {
+        "type": "object",
+        "title": "Sweep",
+        "description": "Settings to vary, by dotted path (quoted, or nested as [sweep.<section>]); the cases "
+        "are the product of all sweeps times fluids times layouts.",
+        "properties": props,
+        "additionalProperties": False,
+    }
