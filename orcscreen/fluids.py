@@ -29,10 +29,12 @@ import math
 import os
 from dataclasses import dataclass
 from pathlib import Path
-
-import pandas as pd
+from typing import TYPE_CHECKING
 
 from orcscreen.properties import PropertyError, coolprop_fluid_names, get_fluid
+
+if TYPE_CHECKING:
+    import pandas as pd
 
 __all__ = [
     "CAUTIONS",
@@ -426,8 +428,10 @@ def select(include=("all",), exclude=(), max_gwp=None, safety_classes=None, zero
     return out
 
 
-def catalogue_frame(infos=None) -> pd.DataFrame:
+def catalogue_frame(infos=None) -> "pd.DataFrame":
     """Display table of catalogue fluids (°C, bar, g/mol); all fluids when infos is None."""
+    import pandas as pd  # imported here: keeps `import orcscreen.fluids` light
+
     infos = load_catalogue() if infos is None else infos
     rows = [
         {
