@@ -1,0 +1,565 @@
+"""Charts of a screening study (matplotlib, Agg canvas, never shown on screen).
+
+Every chart function takes result data (rows of contract section 2 as a DataFrame, or the detail
+dict of section 3) and an optional ``ax``; it draws on that Axes (or on a new figure) and returns
+the Axes. Nothing here computes physics: every number drawn is read from the rows or the detail.
+Saving is separate (:func:`save_figure`); the report layer decides what to draw and where to keep it.
+
+Visual design (our own):
+- Colours from the Okabe-Ito palette, chosen to stay distinguishable with the common forms of
+  colour-vision deficiency: M. Okabe and K. Ito, "Color Universal Design (CUD) - How to make
+  figures and presentations that are friendly to colorblind people" (2002/2008),
+  https://jfly.uni-koeln.de/color/ ; also B. Wong, "Points of view: Color blindness",
+  Nature Methods 8, 441 (2011), doi:10.1038/nmeth.1618. Colour never carries meaning alone:
+  layouts also differ by marker and hatch, streams by line style, map cells carry text.
+- Sizes for A4 print: figures 6.7 in (170 mm, an A4 text width) wide, text 8-10 pt.
+- Units in square brackets on every axis.
+"""
+
+from __future__ import annotations
+
+import math
+import re
+from pathlib import Path
+from typing import Iterable, Mapping, Sequence
+
+import numpy as np
+import pandas as pd
+from matplotlib.axes import Axes
+from matplotlib.backends.backend_agg import FigureCanvasAgg
+from matplotlib.colors import ListedColormap
+from matplotlib.figure import Figure
+from matplotlib.lines import Line2D
+from matplotlib.patches import Patch, Rectangle
+from matplotlib.transforms import blended_transform_factory
+
+from orcscreen import rank
+
+__all__ = [
+    "OKABE_ITO",
+    "STREAM_COLOURS",
+    "LAYOUT_STYLE",
+    "axis_label",
+    "case_label",
+    "ranking_chart",
+    "tq_diagram",
+    "ts_diagram",
+    "tradeoff_chart",
+    "landscape_chart",
+    "sweep_chart",
+    "best_fluid_map",
+    "file_stem",
+    "save_figure",
+]
+
+#: Okabe-Ito palette (see module docstring for the source), in their published order.
+OKABE_ITO = {
+    "black": "#000000",
+    "orange": "#E69F00",
+    "sky_blue": "#56B4E9",
+    "bluish_green": "#009E73",
+    "yellow": "#F0E442",
+    "blue": "#0072B2",
+    "vermillion": "#D55E00",
+    "reddish_purple": "#CC79A7",
+}
+#: Order for series lines (yellow left out: too pale for a line on white paper).
+SERIES_COLOURS = [OKABE_ITO[k] for k in
+                  ("blue", "vermillion", "bluish_green", "orange", "reddish_purple", "sky_blue",
+                   "black")]
+#: Order for filled areas (map cells), where the pale yellow works; grey added for an 9th class.
+FILL_COLOURS = [OKABE_ITO[k] for k in
+                ("sky_blue", "orange", "bluish_green", "yellow", "reddish_purple", "vermillion",
+                 "blue")] + ["#BBBBBB"]
+STREAM_COLOURS = {"source": OKABE_ITO["vermillion"], "working fluid": OKABE_ITO["blue"],
+                  "sink": OKABE_ITO["sky_blue"]}
+LAYOUT_STYLE = {
+    "basic": {"color": OKABE_ITO["blue"], "marker": "o", "hatch": ""},
+    "recuperated": {"color": OKABE_ITO["orange"], "marker": "s", "hatch": "///"},
+}
+_OTHER_LAYOUT = {"color": OKABE_ITO["reddish_purple"], "marker": "^", "hatch": "..."}
+_GREY = "#777777"
+
+WIDTH_IN = 6.7          # A4 text width, 170 mm
+TITLE_PT, LABEL_PT, TICK_PT, NOTE_PT = 10, 9, 8, 7.5
+
+_NAMED_LABELS = {
+    "net_power_kW": "net power",
+    "size_parameter_m": "turbine size parameter SP",
+    "ua_total_kW_K": "total UA (all exchangers)",
+    "evaporation_temperature_C": "evaporation temperature",
+    "condensing_temperature_C": "condensing temperature",
+    "heat_duty_kW": "heat duty",
+}
+# longest suffix first so "_kW_K" wins over "_K"
+_UNIT_SUFFIXES = [
+    ("_kJ_kgK2", "kJ/(kg·K²)"), ("_kJ_kgK", "kJ/(kg·K)"), ("_kJ_kg", "kJ/kg"),
+    ("_kW_K", "kW/K"), ("_kg_s", "kg/s"), ("_per_kW_rejected", "kW per kW rejected"),
+    ("_kW", "kW"), ("_bar", "bar"), ("_Pa", "Pa"), ("_C", "°C"), ("_K", "K"), ("_m", "m"),
+    ("_s", "s"), ("_W", "W"),
+]
+
+
+def axis_label(column: str) -> str:
+    """Readable axis label with its unit in brackets, from a column or dotted study path.
+
+    ``"source.inlet_temperature_C"`` -> ``"source inlet temperature [°C]"``;
+    quantities without a unit (efficiencies, qualities, ratios) get ``[-]``.
+    """
+    if column in _NAMED_LABELS:
+        name, unit = _NAMED_LABELS[column], None
+        for suffix, u in _UNIT_SUFFIXES:
+            if column.endswith(suffix):
+                unit = u
+                break
+        return f"{name} [{unit or '-'}]"
+    text = column.replace(".", " ")
+    unit = "-"
+    for suffix, u in _UNIT_SUFFIXES:
+        if text.endswith(suffix):
+            text, unit = text[: -len(suffix)], u
+            break
+    return f"{text.replace('_', ' ').strip()} [{unit}]"
+
+
+def case_label(row: Mapping) -> str:
+    """Short name of a case: display name (or CoolProp name) and layout."""
+    name = row.get("display_name") or row.get("fluid") or "?"
+    layout = row.get("layout") or ""
+    return f"{name} · {layout}" if layout else str(name)
+
+
+def _layout_style(layout) -> dict:
+    return LAYOUT_STYLE.get(str(layout), _OTHER_LAYOUT)
+
+
+def _new_axes(ax: Axes | None, height_in: float) -> Axes:
+    if ax is not None:
+        return ax
+    fig = Figure(figsize=(WIDTH_IN, height_in), layout="constrained")
+    FigureCanvasAgg(fig)
+    return fig.add_subplot()
+
+
+def _finish(ax: Axes, xlabel: str, ylabel: str, title: str | None) -> Axes:
+    ax.set_xlabel(xlabel, fontsize=LABEL_PT)
+    ax.set_ylabel(ylabel, fontsize=LABEL_PT)
+    if title:
+        ax.set_title(title, fontsize=TITLE_PT, loc="left")
+    ax.tick_params(labelsize=TICK_PT)
+    ax.grid(True, color="#DDDDDD", linewidth=0.6)
+    ax.set_axisbelow(True)
+    return ax
+
+
+def _num(value) -> float:
+    try:
+        out = float(value)
+    except (TypeError, ValueError):
+        return math.nan
+    return out
+
+
+def _fmt(value, spec: str = ".1f", missing: str = "n/a") -> str:
+    v = _num(value)
+    return missing if not math.isfinite(v) else format(v, spec)
+
+
+# --------------------------------------------------------------------------- ranking
+
+def ranking_chart(df: pd.DataFrame, ax: Axes | None = None, max_bars: int = 40,
+                  title: str | None = "Net power of the feasible cases") -> Axes:
+    """Horizontal bars of net power [kW], best case on top, one bar per feasible fluid + layout.
+
+    Beside each bar: the net power, the ASHRAE 34 safety class and the GWP100. Shows at most
+    ``max_bars`` cases (the best ones) and says so in the title when it cuts.
+    """
+    ok = rank.feasible(df)
+    if ok.empty:
+        raise ValueError("ranking chart: no feasible case to plot")
+    ok = ok.assign(_p=pd.to_numeric(ok["net_power_kW"])).sort_values("_p", ascending=False,
+                                                                      kind="stable")
+    cut = len(ok) - max_bars
+    ok = ok.head(max_bars)
+    ax = _new_axes(ax, 1.2 + 0.24 * len(ok))
+    y = np.arange(len(ok))
+    power = ok["_p"].to_numpy()
+    top = float(np.nanmax(power))
+    for i, (_, row) in enumerate(ok.iterrows()):
+        style = _layout_style(row.get("layout"))
+        ax.barh(i, row["_p"], height=0.7, color=style["color"], hatch=style["hatch"],
+                edgecolor="white" if not style["hatch"] else "#333333", linewidth=0.4,
+                gid=f"bar-{i}")
+        safety = row.get("safety_class") or "class n/a"
+        note = f"{row['_p']:.1f} kW   {safety}   GWP {_fmt(row.get('gwp100'), '.0f')}"
+        ax.text(max(row["_p"], 0) + 0.01 * top, i, note, va="center", ha="left",
+                fontsize=NOTE_PT, gid=f"bar-note-{i}")
+    ax.set_yticks(y, [case_label(r) for _, r in ok.iterrows()], fontsize=TICK_PT)
+    ax.set_ylim(len(ok) - 0.5, -0.5)        # best (index 0) on top
+    ax.set_xlim(min(0.0, float(np.nanmin(power)) * 1.05), top * 1.38)
+    layouts = list(dict.fromkeys(ok["layout"]))
+    ax.legend(handles=[Patch(facecolor=_layout_style(l)["color"], hatch=_layout_style(l)["hatch"],
+                             edgecolor="#333333", label=str(l)) for l in layouts],
+              fontsize=NOTE_PT, loc="lower right", bbox_to_anchor=(1.0, 1.0), ncols=len(layouts),
+              frameon=False, borderaxespad=0.2)
+    if cut > 0 and title:
+        title = f"{title} (best {max_bars}; {cut} more in the table)"
+    _finish(ax, axis_label("net_power_kW"), "", title)
+    ax.grid(False, axis="y")
+    return ax
+
+
+# --------------------------------------------------------------------------- T-Q diagram
+
+#: exchanger order on the heat-duty axis (cold to hot) and which stream is on which side
+_EXCHANGER_SIDES = {
+    "condenser": ("working fluid", "sink"),
+    "recuperator": ("working fluid", "working fluid"),
+    "evaporator": ("source", "working fluid"),
+}
+
+
+def tq_diagram(detail: Mapping, row: Mapping | None = None, ax: Axes | None = None,
+               title: str | None = None) -> Axes:
+    """Temperature [°C] against heat duty [kW] for the condenser, recuperator and evaporator.
+
+    The exchangers stand side by side on one duty axis (cold to hot: condenser | recuperator |
+    evaporator), each as wide as its duty; within each, hot stream solid and cold stream dashed.
+    The pinch of each exchanger is marked by a bar between the two streams, labelled with its
+    value in K (the ``pinch_K`` of the detail).
+    """
+    exchangers = detail.get("exchangers") or {}
+    present = [name for name in _EXCHANGER_SIDES if exchangers.get(name)]
+    if not present:
+        raise ValueError("T-Q diagram: the detail has no exchanger profiles")
+    ax = _new_axes(ax, 3.9)
+    offset = 0.0
+    trans = blended_transform_factory(ax.transData, ax.transAxes)
+    for name in present:
+        hx = exchangers[name]
+        q = np.asarray(hx["Q_kW"], dtype=float) + offset
+        hot_stream, cold_stream = _EXCHANGER_SIDES[name]
+        ax.plot(q, hx["T_hot_C"], color=STREAM_COLOURS[hot_stream], linewidth=1.8,
+                linestyle="-", gid=f"{name}-hot")
+        ax.plot(q, hx["T_cold_C"], color=STREAM_COLOURS[cold_stream], linewidth=1.8,
+                linestyle="--", gid=f"{name}-cold")
+        duty = _num(hx.get("duty_kW"))
+        if not math.isfinite(duty):
+            duty = float(q[-1] - offset)
+        ax.axvline(offset, color="#BBBBBB", linewidth=0.8)
+        ax.text(offset + duty / 2, 0.985, f"{name}\n{duty:,.0f} kW", transform=trans,
+                ha="center", va="top", fontsize=NOTE_PT)
+        pinch = _num(hx.get("pinch_K"))
+        if math.isfinite(pinch):
+            xq = offset + _num(hx.get("pinch_Q_kW"))
+            t_hot, t_cold = _num(hx.get("pinch_T_hot_C")), _num(hx.get("pinch_T_cold_C"))
+            ax.plot([xq, xq], [t_cold, t_hot], color="black", linewidth=1.2,
+                    marker="_", markersize=8, gid=f"pinch-{name}-bar")
+            right = (xq - offset) < 0.6 * duty
+            ax.annotate(f"pinch {pinch:.1f} K", xy=(xq, (t_hot + t_cold) / 2),
+                        xytext=(5 if right else -5, 0), textcoords="offset points",
+                        ha="left" if right else "right", va="center", fontsize=NOTE_PT,
+                        bbox={"boxstyle": "round,pad=0.15", "fc": "white", "ec": "none",
+                              "alpha": 0.85},
+                        gid=f"pinch-{name}")
+        offset += duty
+    ax.axvline(offset, color="#BBBBBB", linewidth=0.8)
+    ax.set_xlim(0, offset)
+    lo, hi = ax.get_ylim()
+    ax.set_ylim(lo, hi + 0.22 * (hi - lo))      # head room for the exchanger names
+    handles = [Line2D([], [], color=STREAM_COLOURS[s], linewidth=1.8, label=s)
+               for s in ("source", "working fluid", "sink")]
+    handles += [Line2D([], [], color="#444444", linestyle="-", label="hot side"),
+                Line2D([], [], color="#444444", linestyle="--", label="cold side")]
+    ax.legend(handles=handles, fontsize=NOTE_PT, loc="upper left", bbox_to_anchor=(0, 0.86),
+              ncols=1, framealpha=0.9)
+    if title is None and row is not None:
+        title = f"T-Q diagram: {case_label(row)}"
+    return _finish(ax, "heat duty, exchangers side by side [kW]", "temperature [°C]", title)
+
+
+# --------------------------------------------------------------------------- T-s diagram
+
+_STATE_OFFSETS = {"1": (-12, -10), "2": (-12, 6), "2r": (-14, 4), "3": (8, 4), "4": (8, -4),
+                  "4r": (8, -8)}
+
+
+def ts_diagram(detail: Mapping, row: Mapping | None = None, ax: Axes | None = None,
+               title: str | None = None) -> Axes:
+    """Temperature [°C] against specific entropy [kJ/(kg·K)]: saturation dome, cycle path, states.
+
+    States are drawn as numbered points (names 1, 2, 2r, 3, 4, 4r of the detail).
+    """
+    states = detail.get("states") or []
+    if not states:
+        raise ValueError("T-s diagram: the detail has no states")
+    ax = _new_axes(ax, 4.2)
+    dome = detail.get("dome") or {}
+    if dome.get("T_C"):
+        t = np.asarray(dome["T_C"], dtype=float)
+        s_l = np.asarray(dome["s_liquid_kJ_kgK"], dtype=float)
+        s_v = np.asarray(dome["s_vapour_kJ_kgK"], dtype=float)
+        ax.plot(np.concatenate([s_l, s_v[::-1]]), np.concatenate([t, t[::-1]]), color=_GREY,
+                linewidth=1.2, label="saturation dome", gid="dome")
+    path = detail.get("ts_path") or {}
+    if path.get("T_C"):
+        ax.plot(path["s_kJ_kgK"], path["T_C"], color=STREAM_COLOURS["working fluid"],
+                linewidth=1.8, label="cycle", gid="cycle-path")
+    s_states = [_num(st.get("s_kJ_kgK")) for st in states]
+    t_states = [_num(st.get("T_C")) for st in states]
+    ax.plot(s_states, t_states, linestyle="none", marker="o", markersize=5,
+            markerfacecolor="white", markeredgecolor="black", gid="states")
+    for st, s, t in zip(states, s_states, t_states):
+        name = str(st.get("name"))
+        ax.annotate(name, xy=(s, t), xytext=_STATE_OFFSETS.get(name, (6, 6)),
+                    textcoords="offset points", fontsize=LABEL_PT, fontweight="bold",
+                    ha="center", va="center", gid=f"state-{name}")
+    ax.legend(fontsize=NOTE_PT, loc="upper left")
+    if title is None and row is not None:
+        title = f"T-s diagram: {case_label(row)}"
+    return _finish(ax, "specific entropy [kJ/(kg·K)]", "temperature [°C]", title)
+
+
+# --------------------------------------------------------------------------- trade-off
+
+def tradeoff_chart(df: pd.DataFrame, x: str = "size_parameter_m", ax: Axes | None = None,
+                   title: str | None = None, label_front: bool = True) -> Axes:
+    """Net power [kW] against a size measure ``x`` (turbine SP [m] or total UA [kW/K]).
+
+    Every feasible case is a point (marker by layout); the Pareto-optimal cases of
+    :func:`orcscreen.rank.pareto_front` (most power for least size) are filled, joined by a step
+    line and named.
+    """
+    ok = rank.feasible(df)
+    ok = ok[np.isfinite(pd.to_numeric(ok[x], errors="coerce"))] if x in ok else ok.iloc[0:0]
+    if ok.empty:
+        raise ValueError(f"trade-off chart: no feasible case with a value of {x}")
+    front = rank.pareto_front(ok, maximise="net_power_kW", minimise=x)
+    ax = _new_axes(ax, 4.0)
+    for layout, group in ok.groupby("layout", sort=False):
+        style = _layout_style(layout)
+        ax.scatter(group[x], group["net_power_kW"], marker=style["marker"], s=22,
+                   facecolor="none", edgecolor=style["color"], linewidth=0.9,
+                   label=f"{layout}", gid=f"cases-{layout}")
+    pts = ok[front].sort_values(x)
+    ax.plot(pts[x], pts["net_power_kW"], drawstyle="steps-post", color="black", linewidth=0.9,
+            zorder=1)
+    ax.scatter(pts[x], pts["net_power_kW"], marker="D", s=30, color="black", zorder=3,
+               label="Pareto-optimal", gid="pareto")
+    if label_front:
+        _label_points(ax, pts, x)
+    ax.legend(fontsize=NOTE_PT, loc="lower right")
+    return _finish(ax, axis_label(x), axis_label("net_power_kW"), title)
+
+
+def _label_points(ax: Axes, pts: pd.DataFrame, x: str) -> None:
+    """Name the points of ``pts`` (sorted by ``x``): coincident points share one label, and a
+    label close to the previous one goes to the other side of its point."""
+    groups: list[tuple[float, float, list[str]]] = []
+    for _, r in pts.iterrows():
+        px, py = float(r[x]), float(r["net_power_kW"])
+        if groups and math.isclose(px, groups[-1][0], rel_tol=1e-9, abs_tol=1e-12) \
+                and math.isclose(py, groups[-1][1], rel_tol=1e-9, abs_tol=1e-12):
+            groups[-1][2].append(case_label(r))
+        else:
+            groups.append((px, py, [case_label(r)]))
+    xs = pts[x].astype(float)
+    ys = pts["net_power_kW"].astype(float)
+    span_x = float(xs.max() - xs.min()) or 1.0
+    span_y = float(ys.max() - ys.min()) or 1.0
+    below = True
+    previous = None
+    for px, py, names in groups:
+        if previous is not None and abs(px - previous[0]) < 0.08 * span_x \
+                and abs(py - previous[1]) < 0.08 * span_y:
+            below = not below
+        else:
+            below = True
+        ax.annotate(" / ".join(names), xy=(px, py), xytext=(5, -9 if below else 5),
+                    textcoords="offset points", fontsize=NOTE_PT - 0.5, gid="pareto-label")
+        previous = (px, py)
+
+
+# --------------------------------------------------------------------------- landscape
+
+def landscape_chart(cases: Sequence[tuple[Mapping, Mapping]], ax: Axes | None = None,
+                    title: str | None = "Net power against evaporation temperature") -> Axes:
+    """The optimiser's scan for each ``(row, detail)`` case: net power [kW] against evaporation
+    temperature [°C]; the optimum is a star, and the legend names its binding limit.
+    """
+    drawn = [(r, d) for r, d in cases if d and (d.get("landscape") or {}).get("net_power_kW")]
+    if not drawn:
+        raise ValueError("landscape chart: no case has an optimisation scan")
+    ax = _new_axes(ax, 4.4)
+    for i, (row, detail) in enumerate(drawn):
+        colour = SERIES_COLOURS[i % len(SERIES_COLOURS)]
+        scan = detail["landscape"]
+        t = np.asarray(scan["evaporation_temperature_C"], dtype=float)
+        p = np.asarray([_num(v) for v in scan["net_power_kW"]], dtype=float)
+        order = np.argsort(t)
+        opt = detail.get("optimum") or {}
+        limit = opt.get("binding_limit") or "none (interior optimum)"
+        ax.plot(t[order], p[order], color=colour, linewidth=1.4,
+                marker=_layout_style(row.get("layout"))["marker"], markersize=2.5,
+                label=f"{case_label(row)}: optimum {_fmt(opt.get('net_power_kW'))} kW at "
+                      f"{_fmt(opt.get('evaporation_temperature_C'))} °C, limit: {limit}",
+                gid=f"scan-{i}")
+        if opt:
+            ax.plot([_num(opt.get("evaporation_temperature_C"))], [_num(opt.get("net_power_kW"))],
+                    marker="*", markersize=12, color=colour, markeredgecolor="black",
+                    markeredgewidth=0.6, linestyle="none", zorder=4, gid=f"optimum-{i}")
+    ax.legend(fontsize=NOTE_PT - 0.5, loc="upper center", bbox_to_anchor=(0.5, -0.16), ncols=1,
+              frameon=False)
+    return _finish(ax, axis_label("evaporation_temperature_C"), axis_label("net_power_kW"), title)
+
+
+# --------------------------------------------------------------------------- sweeps
+
+def _reference_values(df: pd.DataFrame, columns: Iterable[str]) -> dict:
+    """Middle value (the median of the distinct values, rounded down) of each swept column."""
+    ref = {}
+    for c in columns:
+        values = sorted(pd.unique(df[c].dropna()))
+        ref[c] = values[(len(values) - 1) // 2] if values else None
+    return ref
+
+
+def _slice(df: pd.DataFrame, keep: Sequence[str]) -> tuple[pd.DataFrame, dict]:
+    others = [c for c in rank.sweep_columns(df) if c not in keep]
+    ref = _reference_values(df, others)
+    mask = pd.Series(True, index=df.index)
+    for c, v in ref.items():
+        mask &= df[c] == v
+    return df[mask], ref
+
+
+def _slice_note(ref: Mapping) -> str:
+    parts = []
+    for c, v in ref.items():
+        name, _, unit = axis_label(c).partition(" [")
+        unit = unit.rstrip("]")
+        parts.append(f"{name} = {v:g}" + (f" {unit}" if unit and unit != "-" else ""))
+    return ", ".join(parts)
+
+
+def sweep_chart(df: pd.DataFrame, variable: str, ax: Axes | None = None, top_n: int = 5,
+                title: str | None = None) -> Axes:
+    """Net power [kW] against one swept variable: the best case at each point (black, named) and
+    the ``top_n`` fluid + layout combinations with the highest net power in the slice.
+
+    Other swept variables are held at their middle value (said in the title).
+    """
+    part, ref = _slice(df, [variable])
+    ok = rank.feasible(part)
+    if ok.empty:
+        raise ValueError(f"sweep chart over {variable}: no feasible case")
+    ax = _new_axes(ax, 4.0)
+    ok = ok.assign(_p=pd.to_numeric(ok["net_power_kW"]))
+    combos = (ok.groupby(["fluid", "layout"], sort=False)["_p"].max()
+              .sort_values(ascending=False).head(top_n))
+    for i, (fluid, layout) in enumerate(combos.index):
+        series = ok[(ok["fluid"] == fluid) & (ok["layout"] == layout)].sort_values(variable)
+        style = _layout_style(layout)
+        ax.plot(series[variable], series["_p"], color=SERIES_COLOURS[i % len(SERIES_COLOURS)],
+                marker=style["marker"], markersize=3.5, linewidth=1.1,
+                label=case_label(series.iloc[0]), gid=f"top-{i}")
+    best = rank.best_per_point(part).sort_values(variable)
+    ax.plot(best[variable], pd.to_numeric(best["net_power_kW"]), color="black", linewidth=2.4,
+            alpha=0.35, zorder=1, label="best case at each point", gid="best")
+    previous = None
+    for k, (_, r) in enumerate(best.iterrows()):
+        name = case_label(r)
+        if name != previous:        # name the best case where it changes along the sweep
+            ax.annotate(name, xy=(r[variable], r["net_power_kW"]), xytext=(0, 8),
+                        textcoords="offset points", ha="left" if k == 0 else "center",
+                        fontsize=NOTE_PT - 0.5, gid=f"best-name-{k}")
+        previous = name
+    lo, hi = ax.get_ylim()
+    ax.set_ylim(lo, hi + 0.12 * (hi - lo))
+    ax.legend(fontsize=NOTE_PT, loc="best")
+    if title is None:
+        title = f"Net power over {axis_label(variable).split(' [')[0]}"
+        if ref:
+            title += f" ({_slice_note(ref)})"
+    return _finish(ax, axis_label(variable), axis_label("net_power_kW"), title)
+
+
+def best_fluid_map(df: pd.DataFrame, x: str, y: str, ax: Axes | None = None,
+                   title: str | None = None) -> Axes:
+    """Map over two swept variables: each cell coloured by its best fluid + layout and labelled
+    with its name and net power [kW]; hatched grey where no case is feasible.
+    """
+    part, ref = _slice(df, [x, y])
+    xs = sorted(pd.unique(part[x].dropna()))
+    ys = sorted(pd.unique(part[y].dropna()))
+    if len(xs) < 1 or len(ys) < 1:
+        raise ValueError(f"best-fluid map: no values of {x} and {y}")
+    best = rank.best_per_point(part)
+    names = [case_label(r) for _, r in best.iterrows()]
+    classes = list(dict.fromkeys(names))
+    grid = np.full((len(ys), len(xs)), np.nan)
+    cell_text = {}
+    for (_, r), name in zip(best.iterrows(), names):
+        i, j = ys.index(r[y]), xs.index(r[x])
+        grid[i, j] = classes.index(name)
+        cell_text[(i, j)] = f"{r.get('display_name') or r['fluid']}\n{r['layout']}\n" \
+                            f"{float(r['net_power_kW']):.0f} kW"
+    ax = _new_axes(ax, 1.6 + 0.55 * len(ys))
+    colours = [FILL_COLOURS[k % len(FILL_COLOURS)] for k in range(max(1, len(classes)))]
+    cmap = ListedColormap(colours)
+    cmap.set_bad("#EEEEEE")
+    ax.imshow(np.ma.masked_invalid(grid), cmap=cmap, vmin=-0.5, vmax=len(colours) - 0.5,
+              origin="lower", aspect="auto", interpolation="nearest", gid="map")
+    for i in range(len(ys)):
+        for j in range(len(xs)):
+            text = cell_text.get((i, j))
+            if text is None:
+                ax.add_patch(_hatched_cell(j, i))
+                text = "none\nfeasible"
+            ax.text(j, i, text, ha="center", va="center", fontsize=NOTE_PT - 1.5,
+                    gid=f"cell-{i}-{j}")
+    ax.set_xticks(range(len(xs)), [f"{v:g}" for v in xs])
+    ax.set_yticks(range(len(ys)), [f"{v:g}" for v in ys])
+    ax.legend(handles=[Patch(facecolor=colours[k], edgecolor="#555555", label=c)
+                       for k, c in enumerate(classes)],
+              fontsize=NOTE_PT, loc="upper left", bbox_to_anchor=(1.01, 1.0), frameon=False,
+              title="best case", title_fontsize=NOTE_PT)
+    if title is None:
+        title = "Best fluid and layout"
+        if ref:
+            title += f" ({_slice_note(ref)})"
+    _finish(ax, axis_label(x), axis_label(y), title)
+    ax.grid(False)
+    return ax
+
+
+def _hatched_cell(j: int, i: int) -> Rectangle:
+    return Rectangle((j - 0.5, i - 0.5), 1, 1, facecolor="none", edgecolor="#999999",
+                     hatch="xx", linewidth=0)
+
+
+# --------------------------------------------------------------------------- saving
+
+_SAFE = re.compile(r"[^A-Za-z0-9_.-]+")
+
+
+def file_stem(*parts) -> str:
+    """File-name-safe stem from parts (fluid names may contain spaces, commas, brackets)."""
+    return _SAFE.sub("-", "_".join(str(p) for p in parts if p not in (None, ""))).strip("-")
+
+
+def save_figure(fig: Figure, directory: Path | str, stem: str,
+                formats: Sequence[str] = ("png", "svg"), dpi: int = 200) -> list[Path]:
+    """Write ``fig`` as ``directory/stem.<format>`` for each format; return the paths written.
+
+    File metadata without dates, so the same data gives the same files.
+    """
+    directory = Path(directory)
+    directory.mkdir(parents=True, exist_ok=True)
+    paths = []
+    for fmt in formats:
+        path = directory / f"{stem}.{fmt}"
+        metadata = {"Date": None} if fmt in ("svg", "pdf") else {"Software": None}
+        fig.savefig(path, format=fmt, dpi=dpi, metadata=metadata, facecolor="white")
+        paths.append(path)
+    return paths

@@ -1,0 +1,793 @@
+"""The HTML report of a run: ``DIR/report.html`` and the charts in ``DIR/figures/``.
+
+:func:`build_report` reads the run store (``DIR/run.sqlite``) and recomputes nothing: it ranks the
+stored rows (:func:`orcscreen.outputs.ranking_table`), draws every chart of :mod:`orcscreen.plots`
+(PNG and SVG into ``DIR/figures/``) and writes one self-contained HTML file: figures embedded as
+base64 PNG, inline CSS, a few lines of inline JavaScript that sort the tables, no network access
+(a Content-Security-Policy in the page forbids any). Each chart is drawn in its own ``try``: a
+chart that fails is named in the report with its error, and the rest of the report is written.
+
+Orchestration only: no physics here, every number comes from the stored rows and details.
+"""
+
+from __future__ import annotations
+
+import base64
+import html
+import logging
+import math
+import os
+from dataclasses import dataclass, field
+from datetime import datetime, timezone
+from itertools import combinations
+from pathlib import Path
+from typing import Any, Callable, Iterable, Mapping, Sequence
+
+import pandas as pd
+
+from orcscreen import plots, rank
+from orcscreen.outputs import ranking_table
+from orcscreen.store import RunStore
+
+__all__ = ["REPORT_FILE", "FIGURES_DIR", "FigureRecord", "build_report", "make_figures",
+           "cautions_text", "fluid_cautions"]
+
+log = logging.getLogger(__name__)
+
+REPORT_FILE = "report.html"
+FIGURES_DIR = "figures"
+#: most rows written into the HTML ranking table (the full table is in ranking.csv)
+MAX_TABLE_ROWS = 2000
+
+#: Fallback caution text, used only when neither orcscreen.fluids.CAUTIONS nor the README's
+#: Cautions section can be read.
+_FALLBACK_CAUTIONS = (
+    "This is a preliminary screening, not a design. Working fluids can be flammable, toxic or "
+    "asphyxiating, and the plant runs under pressure. Check the ASHRAE 34 / ISO 817 safety class, "
+    "the flammability, toxicity and global-warming potential of every fluid, and defer to local "
+    "codes and to licensed engineers before any decision."
+)
+
+#: Meaning of the ASHRAE 34 safety-class letters and digits (ANSI/ASHRAE Standard 34,
+#: "Designation and Safety Classification of Refrigerants"; same scheme in ISO 817).
+_TOXICITY = {"A": "lower toxicity", "B": "higher toxicity"}
+_FLAMMABILITY = {"1": "no flame propagation", "2L": "lower flammability",
+                 "2": "flammable", "3": "higher flammability"}
+
+
+# --------------------------------------------------------------------------- data
+
+@dataclass
+class FigureRecord:
+    """One chart of the report: where it went, or why it failed."""
+
+    stem: str
+    title: str
+    caption: str = ""
+    png: Path | None = None
+    svg: Path | None = None
+    error: str | None = None
+    group: str = "overview"          # "overview", "sweep" or a case key (detail card)
+
+
+@dataclass
+class _RunData:
+    out_dir: Path
+    meta: dict
+    counts: dict
+    table: pd.DataFrame              # ranking_table(rows): all current cases, with rank
+    sweep_cols: list[str]
+    point: dict                      # reference operating point (swept values), {} without sweep
+    top: pd.DataFrame                # top N ranked rows at the reference point
+    details: dict[str, dict | None] = field(default_factory=dict)
+
+
+def _load(out_dir: Path, top_n: int) -> _RunData:
+    with RunStore(out_dir, create=False) as store:
+        meta, counts = store.meta(), store.counts()
+        table = ranking_table(store.rows(), meta)
+        sweep_cols = rank.sweep_columns(table)
+        ok = rank.feasible(table)
+        point: dict = {}
+        at_point = ok
+        if sweep_cols and not ok.empty:
+            best = ok.loc[pd.to_numeric(ok["net_power_kW"]).idxmax()]
+            point = {c: best[c] for c in sweep_cols}
+            at_point = _at_point(ok, point)
+        top = at_point.sort_values("rank", kind="stable").head(top_n)
+        details = dict(store.iter_details(list(top["case_key"])))
+    return _RunData(out_dir, meta, counts, table, sweep_cols, point, top, details)
+
+
+def _at_point(df: pd.DataFrame, point: Mapping) -> pd.DataFrame:
+    mask = pd.Series(True, index=df.index)
+    for c, v in point.items():
+        mask &= df[c] == v
+    return df[mask]
+
+
+# --------------------------------------------------------------------------- figures
+
+def _draw(records: list[FigureRecord], fig_dir: Path, stem: str, title: str, caption: str,
+          draw: Callable[[], Any], group: str = "overview") -> None:
+    """Run one chart function in its own try; keep its files or its error."""
+    record = FigureRecord(stem=stem, title=title, caption=caption, group=group)
+    try:
+        ax = draw()
+        png, svg = plots.save_figure(ax.figure, fig_dir, stem)
+        record.png, record.svg = png, svg
+    except Exception as exc:  # noqa: BLE001 - a failing chart must never lose the report
+        log.exception("chart %s failed", stem)
+        record.error = f"{type(exc).__name__}: {exc}"
+    records.append(record)
+
+
+def _point_note(point: Mapping) -> str:
+    if not point:
+        return ""
+    parts = []
+    for c, v in point.items():
+        name, _, unit = plots.axis_label(c).partition(" [")
+        unit = unit.rstrip("]")
+        parts.append(f"{name} = {_fmt(v, 'g')}" + (f" {unit}" if unit not in ("", "-") else ""))
+    return "operating point of the best case: " + ", ".join(parts)
+
+
+def make_figures(data: _RunData, fig_dir: Path) -> list[FigureRecord]:
+    """Draw every chart of the run into ``fig_dir``; one record per chart, failures included."""
+    fig_dir.mkdir(parents=True, exist_ok=True)
+    for old in list(fig_dir.glob("*.png")) + list(fig_dir.glob("*.svg")):
+        old.unlink()                 # charts of an earlier report (other top fluids, say)
+    records: list[FigureRecord] = []
+    ok = rank.feasible(data.table)
+    at_point = _at_point(ok, data.point) if data.point else ok
+    note = _point_note(data.point)
+
+    _draw(records, fig_dir, "ranking", "Ranking by net power",
+          "Net power of every feasible fluid and layout, best first; beside each bar the net "
+          "power, the ASHRAE 34 safety class and the GWP100." + (f" At the {note}." if note else ""),
+          lambda: plots.ranking_chart(at_point))
+    _draw(records, fig_dir, "tradeoff_size_parameter", "Net power against turbine size",
+          "Each point is a feasible case; filled diamonds are Pareto-optimal (no other case has "
+          "more net power with a smaller size parameter)." + (f" At the {note}." if note else ""),
+          lambda: plots.tradeoff_chart(at_point, x="size_parameter_m",
+                                       title="Net power against turbine size parameter"))
+    _draw(records, fig_dir, "tradeoff_ua", "Net power against total UA",
+          "Filled diamonds: Pareto-optimal for net power against total UA of the exchangers, "
+          "a first measure of exchanger size." + (f" At the {note}." if note else ""),
+          lambda: plots.tradeoff_chart(at_point, x="ua_total_kW_K",
+                                       title="Net power against total UA"))
+    cases = [(r, data.details.get(r["case_key"])) for _, r in data.top.iterrows()]
+    _draw(records, fig_dir, "landscape", "Optimisation landscape",
+          "The optimiser's scan of evaporation temperature for the top cases; the star is the "
+          "optimum, the legend names the limit that binds there.",
+          lambda: plots.landscape_chart(cases))
+
+    varied = [c for c in data.sweep_cols if data.table[c].nunique(dropna=True) > 1]
+    for c in varied:
+        _draw(records, fig_dir, plots.file_stem("sweep", c), f"Net power over {c}",
+              "Thick grey: best case at each point (named where it changes); coloured: the "
+              "fluid and layout combinations with the highest net power.",
+              lambda c=c: plots.sweep_chart(data.table, c), group="sweep")
+    for x, y in combinations(varied, 2):
+        _draw(records, fig_dir, plots.file_stem("map", x, y), f"Best fluid over {x} and {y}",
+              "Best fluid and layout at each operating point, with its net power.",
+              lambda x=x, y=y: plots.best_fluid_map(data.table, x, y), group="sweep")
+
+    for n, (_, row) in enumerate(data.top.iterrows(), start=1):
+        key = row["case_key"]
+        detail = data.details.get(key)
+        label = plots.case_label(row)
+        stem = plots.file_stem(f"{n:02d}", row["fluid"], row["layout"])
+
+        def need_detail(detail=detail, key=key):
+            if not detail:
+                raise ValueError(f"no stored detail for case {key}")
+            return detail
+
+        _draw(records, fig_dir, f"tq_{stem}", f"T-Q diagram, {label}",
+              "Temperature against heat duty of each exchanger (hot side solid, cold side "
+              "dashed); the bar marks each exchanger's pinch with its value.",
+              lambda row=row, nd=need_detail: plots.tq_diagram(nd(), row), group=key)
+        _draw(records, fig_dir, f"ts_{stem}", f"T-s diagram, {label}",
+              "Saturation dome, cycle path and numbered states.",
+              lambda row=row, nd=need_detail: plots.ts_diagram(nd(), row), group=key)
+    return records
+
+
+# --------------------------------------------------------------------------- cautions
+
+def cautions_text() -> list[str]:
+    """Paragraphs of the general cautions: ``orcscreen.fluids.CAUTIONS`` if the fluid catalogue
+    provides it, else the README's "Cautions" section, else a short built-in text."""
+    try:
+        from orcscreen import fluids  # the catalogue module may not exist in every checkout
+        text = getattr(fluids, "CAUTIONS", None)
+    except Exception:  # noqa: BLE001 - any import problem: fall back to the README
+        text = None
+    if isinstance(text, (list, tuple)):
+        return [str(t) for t in text if str(t).strip()]
+    if isinstance(text, str) and text.strip():
+        return _line_paragraphs(text)
+    readme = Path(__file__).resolve().parent.parent / "README.md"
+    if readme.is_file():
+        section = _markdown_section(readme.read_text(encoding="utf-8"), "cautions")
+        if section:
+            return _paragraphs(section)
+    return [_FALLBACK_CAUTIONS]
+
+
+def _markdown_section(text: str, title: str) -> str:
+    lines, keep, level = [], False, 0
+    for line in text.splitlines():
+        if line.startswith("#"):
+            hashes = len(line) - len(line.lstrip("#"))
+            if keep and hashes <= level:
+                break
+            if line.lstrip("#").strip().lower().startswith(title):
+                keep, level = True, hashes
+                continue
+        if keep:
+            lines.append(line)
+    return "\n".join(lines).strip()
+
+
+def _line_paragraphs(text: str) -> list[str]:
+    """Hard-wrapped plain text to paragraphs: a line ending with a full stop ends a paragraph."""
+    paras, current = [], []
+    for line in text.splitlines():
+        if line.strip():
+            current.append(line.strip())
+        if current and (not line.strip() or line.rstrip().endswith(".")):
+            paras.append(" ".join(current))
+            current = []
+    if current:
+        paras.append(" ".join(current))
+    return paras
+
+
+def _paragraphs(text: str) -> list[str]:
+    paras, current = [], []
+    for line in text.splitlines():
+        stripped = line.strip()
+        if not stripped or stripped.startswith(("- ", "* ")):
+            if current:
+                paras.append(" ".join(current))
+                current = []
+            if stripped:
+                current = [stripped[2:]]
+            continue
+        current.append(stripped)
+    if current:
+        paras.append(" ".join(current))
+    return paras
+
+
+def fluid_cautions(row: Mapping) -> list[str]:
+    """Cautions for one case from its catalogue data (safety class, GWP, ODP) and its result."""
+    out = []
+    cls = str(row.get("safety_class") or "").strip().upper()
+    if cls and cls[0] in _TOXICITY and cls[1:] in _FLAMMABILITY:
+        out.append(f"ASHRAE 34 class {cls}: {_TOXICITY[cls[0]]}, {_FLAMMABILITY[cls[1:]]}.")
+        if cls[1:] in ("2", "3"):
+            out.append("Flammable: hazardous-area classification, leak detection and ignition "
+                       "control are required.")
+        if cls[0] == "B":
+            out.append("Higher toxicity: exposure limits, detection and ventilation govern the "
+                       "plant room.")
+    else:
+        out.append("No ASHRAE 34 safety class in the catalogue: read the safety data sheet "
+                   "for flammability and toxicity.")
+    gwp = _num(row.get("gwp100"))
+    if math.isfinite(gwp):
+        out.append(f"GWP100 = {gwp:g}: check the fluorinated-gas rules that apply on site.")
+    else:
+        out.append("GWP100 not in the catalogue.")
+    odp = _num(row.get("odp"))
+    if math.isfinite(odp) and odp > 0:
+        out.append(f"ODP = {odp:g}: an ozone-depleting substance, controlled under the "
+                   "Montreal Protocol.")
+    if _truthy(row.get("sub_atmospheric_condenser")):
+        out.append("The condenser runs below atmospheric pressure: air leaks in, and "
+                   "non-condensable gases must be purged.")
+    return out
+
+
+# --------------------------------------------------------------------------- formatting
+
+def _num(value) -> float:
+    try:
+        return float(value)
+    except (TypeError, ValueError):
+        return math.nan
+
+
+def _truthy(value) -> bool:
+    if isinstance(value, str):
+        return value.strip().lower() in ("true", "1", "yes")
+    try:
+        return bool(value) and not (isinstance(value, float) and math.isnan(value))
+    except (TypeError, ValueError):
+        return False
+
+
+def _missing(value) -> bool:
+    if value is None or value is pd.NA:
+        return True
+    return isinstance(value, float) and math.isnan(value)
+
+
+def _fmt(value, spec: str = ".2f") -> str:
+    if _missing(value):
+        return ""
+    if isinstance(value, (bool,)):
+        return "yes" if value else "no"
+    if isinstance(value, (int, float)) or hasattr(value, "__float__"):
+        try:
+            return format(float(value), spec)
+        except (TypeError, ValueError):
+            pass
+    return str(value)
+
+
+def _sort_key(value) -> str:
+    """Value for a cell's data-sort attribute: full-precision number, or the text."""
+    if _missing(value):
+        return ""
+    try:
+        return repr(float(value))
+    except (TypeError, ValueError):
+        return str(value)
+
+
+def _e(value) -> str:
+    return html.escape("" if value is None else str(value), quote=True)
+
+
+#: Ranking-table columns: (column, header, format). Sweep columns come first.
+_RANK_COLUMNS = [
+    ("rank", "rank", "d"),
+    ("display_name", "fluid", ""),
+    ("layout", "layout", ""),
+    ("net_power_kW", "net power [kW]", ".1f"),
+    ("thermal_efficiency", "thermal efficiency [-]", ".4f"),
+    ("exergy_efficiency", "exergy efficiency [-]", ".4f"),
+    ("evaporation_temperature_C", "evaporation T [°C]", ".1f"),
+    ("evaporation_pressure_bar", "evaporation p [bar]", ".2f"),
+    ("condensing_temperature_C", "condensing T [°C]", ".1f"),
+    ("superheat_K", "superheat [K]", ".1f"),
+    ("wf_mass_flow_kg_s", "fluid flow [kg/s]", ".2f"),
+    ("source_outlet_temperature_C", "source outlet T [°C]", ".1f"),
+    ("size_parameter_m", "size parameter [m]", ".4f"),
+    ("volume_ratio", "volume ratio [-]", ".1f"),
+    ("ua_total_kW_K", "total UA [kW/K]", ".1f"),
+    ("binding_limit", "binding limit", ""),
+    ("safety_class", "safety class", ""),
+    ("gwp100", "GWP100 [-]", "g"),
+]
+
+
+def _table(headers: Sequence[tuple[str, bool]], rows: Iterable[Sequence[tuple[str, Any]]],
+           table_id: str, caption: str = "") -> str:
+    """A sortable table. ``headers``: (text, numeric); each row cell: (shown text, sort key)."""
+    head = "".join(
+        f'<th scope="col" data-type="{"num" if numeric else "text"}" tabindex="0" '
+        f'title="click to sort">{_e(text)}</th>' for text, numeric in headers)
+    body = []
+    for cells in rows:
+        tds = []
+        for shown, key in cells:
+            attr = "" if _missing(key) or key == "" else f' data-sort="{_e(key)}"'
+            tds.append(f"<td{attr}>{_e(shown)}</td>")
+        body.append("<tr>" + "".join(tds) + "</tr>")
+    cap = f"<caption>{_e(caption)}</caption>" if caption else ""
+    return (f'<div class="scroll"><table class="sortable" id="{_e(table_id)}">{cap}'
+            f"<thead><tr>{head}</tr></thead><tbody>{''.join(body)}</tbody></table></div>")
+
+
+def _kv_table(pairs: Iterable[tuple[str, Any]], cls: str = "kv") -> str:
+    rows = "".join(f"<tr><th scope=\"row\">{_e(k)}</th><td>{_e(v)}</td></tr>" for k, v in pairs)
+    return f'<table class="{cls}"><tbody>{rows}</tbody></table>'
+
+
+def _figure_html(rec: FigureRecord) -> str:
+    if rec.error or rec.png is None:
+        return (f'<figure class="chart failed"><figcaption><strong>{_e(rec.title)}</strong>: '
+                f"this chart could not be drawn ({_e(rec.error)}). The results are not "
+                "affected.</figcaption></figure>")
+    data = base64.b64encode(rec.png.read_bytes()).decode("ascii")
+    files = f"figures/{rec.png.name}, figures/{rec.svg.name}" if rec.svg else rec.png.name
+    return (f'<figure class="chart" id="fig-{_e(rec.stem)}"><img alt="{_e(rec.title)}" '
+            f'src="data:image/png;base64,{data}"><figcaption><strong>{_e(rec.title)}.</strong> '
+            f"{_e(rec.caption)} <span class=\"files\">({_e(files)})</span></figcaption></figure>")
+
+
+# --------------------------------------------------------------------------- sections
+
+def _summary(data: _RunData) -> str:
+    meta = data.meta
+    counts = {s: int(data.counts.get(s, 0)) for s in ("ok", "infeasible", "failed")}
+    counts.update({s: int(n) for s, n in data.counts.items() if s not in counts})
+    table = data.table
+    pairs = [
+        ("study", meta.get("study_name") or (meta.get("study") or {}).get("study", {}).get("name", "")),
+        ("study hash", meta.get("study_hash", "")),
+        ("run started", meta.get("created_at", "")),
+        ("last updated", meta.get("updated_at", "")),
+        ("orcscreen version", meta.get("orcscreen_version", "")),
+        ("CoolProp version", meta.get("coolprop_version", "")),
+        ("cases", f"{len(table)} (" + ", ".join(f"{n} {s}" for s, n in counts.items()) + ")"),
+        ("fluids", table["fluid"].nunique() if "fluid" in table else 0),
+        ("layouts", ", ".join(map(str, pd.unique(table["layout"]))) if "layout" in table else ""),
+    ]
+    for c in data.sweep_cols:
+        values = sorted(pd.unique(table[c].dropna()))
+        pairs.append((f"swept: {plots.axis_label(c)}", ", ".join(_fmt(v, "g") for v in values)))
+    parts = ['<section id="summary"><h2>Study summary</h2>', _kv_table(pairs)]
+    status_counts = "".join(f'<li><span class="badge {s}">{_e(s)}</span> {n}</li>'
+                            for s, n in counts.items())
+    parts.append(f'<ul class="counts" id="counts">{status_counts}</ul>')
+    parts.append(_inputs(meta))
+    parts.append("</section>")
+    return "".join(parts)
+
+
+def _schema_defaults() -> dict[str, Any]:
+    """Dotted path -> fixed default of every study key, from the study schema."""
+    try:
+        from orcscreen.study import json_schema
+        schema = json_schema()
+    except Exception:  # noqa: BLE001 - the summary must not depend on the study module
+        return {}
+    out: dict[str, Any] = {}
+    defs = schema.get("$defs", {})
+    for section, spec in schema.get("properties", {}).items():
+        ref = spec.get("$ref") or next(
+            (a.get("$ref") for a in spec.get("allOf", []) if "$ref" in a), None)
+        if ref:
+            fields = defs.get(ref.rsplit("/", 1)[-1], {}).get("properties", {})
+            for key, field_spec in fields.items():
+                if "default" in field_spec:
+                    out[f"{section}.{key}"] = field_spec["default"]
+        elif "default" in spec:
+            out[section] = spec["default"]
+    return out
+
+
+def _defaults_used(meta: Mapping) -> set[str] | None:
+    """Dotted paths of the study keys filled by default, if the store records them."""
+    for key in ("defaults_used", "study_defaults"):
+        found = meta.get(key)
+        if isinstance(found, (list, tuple, set)):
+            return {str(p) for p in found}
+    return None
+
+
+def _is_default(path: str, value: Any, recorded: set[str] | None, schema: Mapping) -> bool:
+    if recorded is not None:
+        return path in recorded
+    return schema.get(path) is not None and schema[path] == value
+
+
+def _shown(value: Any) -> str:
+    if value is None:
+        return "none"
+    if isinstance(value, (list, tuple)):
+        return ", ".join(map(str, value)) or "(empty)"
+    if isinstance(value, Mapping):
+        return ", ".join(f"{k} = {_shown(v)}" for k, v in value.items()) or "(none)"
+    return _fmt(value, "g")
+
+
+def _inputs(meta: Mapping) -> str:
+    study = meta.get("study")
+    if not isinstance(study, Mapping) or not study:
+        return "<p>The run store holds no copy of the study inputs.</p>"
+    recorded = _defaults_used(meta)
+    schema = _schema_defaults() if recorded is None else {}
+    blocks, loose = [], []
+    for section, body in study.items():
+        if not isinstance(body, Mapping) or not body or section == "sweep":
+            loose.append((section, body))
+            continue
+        rows = []
+        for key, value in body.items():
+            tag = (' <span class="dflt">default</span>'
+                   if _is_default(f"{section}.{key}", value, recorded, schema) else "")
+            rows.append(f'<tr><th scope="row"><code>{_e(key)}</code></th>'
+                        f"<td>{_e(_shown(value))}{tag}</td></tr>")
+        blocks.append(f'<div class="inputs"><h4>[{_e(section)}]</h4><table class="kv small">'
+                      f"<tbody>{''.join(rows)}</tbody></table></div>")
+    if loose:
+        extra = "".join(f'<tr><th scope="row"><code>{_e(k)}</code></th><td>{_e(_shown(v))}</td></tr>'
+                        for k, v in loose)
+        blocks.append(f'<div class="inputs"><h4>other</h4><table class="kv small"><tbody>{extra}'
+                      "</tbody></table></div>")
+    note = ('Keys marked <span class="dflt">default</span> were not set in the study file.'
+            if recorded is not None else
+            'Keys marked <span class="dflt">default</span> hold the fixed default of the study '
+            "schema; defaults that depend on the source kind are not marked.")
+    return ('<details open><summary>Inputs (every key, defaults filled in)</summary>'
+            f'<div class="input-grid">{"".join(blocks)}</div><p class="note">{note}</p></details>')
+
+
+def _ranking_section(data: _RunData, overview: list[FigureRecord]) -> str:
+    ok = rank.feasible(data.table)
+    ok = ok.sort_values([*data.sweep_cols, "rank"], kind="stable") if data.sweep_cols else \
+        ok.sort_values("rank", kind="stable")
+    shown = ok.head(MAX_TABLE_ROWS)
+    headers = [(plots.axis_label(c), True) for c in data.sweep_cols]
+    headers += [(h, fmt not in ("",)) for _, h, fmt in _RANK_COLUMNS]
+    rows = []
+    for _, r in shown.iterrows():
+        cells = [(_fmt(r[c], "g"), _sort_key(r[c]))
+                 for c in data.sweep_cols]
+        for col, _, fmt in _RANK_COLUMNS:
+            value = r.get(col)
+            if col == "display_name":
+                value = value or r.get("fluid")
+            if fmt == "":
+                cells.append((_fmt(value), _fmt(value)))
+            else:
+                cells.append((_fmt(value, fmt if fmt != "d" else ".0f"), _sort_key(value)))
+        rows.append(cells)
+    cut = len(ok) - len(shown)
+    caption = ("Feasible cases, ranked by net power within each operating point. Click a "
+               "header to sort.") + (f" The first {len(shown)} of {len(ok)} rows; all are in "
+                                     "ranking.csv." if cut > 0 else "")
+    figs = "".join(_figure_html(r) for r in overview)
+    empty = "<p>No case is feasible.</p>" if ok.empty else ""
+    return ('<section id="ranking"><h2>Ranking</h2>' + empty +
+            (_table(headers, rows, "ranking-table", caption) if not ok.empty else "") +
+            f'<div class="charts">{figs}</div></section>')
+
+
+def _card(n: int, row: Mapping, detail: Mapping | None, figs: list[FigureRecord]) -> str:
+    label = plots.case_label(row)
+    parts = [f'<article class="card" id="card-{n}"><h3>{n}. {_e(label)} '
+             f'<span class="power">{_fmt(row.get("net_power_kW"), ".1f")} kW net</span></h3>']
+    facts = [
+        ("CoolProp name", row.get("fluid")), ("family", row.get("family")),
+        ("curve type", row.get("curve_type")),
+        ("safety class (ASHRAE 34)", row.get("safety_class") or "not catalogued"),
+        ("GWP100", _fmt(row.get("gwp100"), "g") or "not catalogued"),
+        ("ODP", _fmt(row.get("odp"), "g") or "not catalogued"),
+        ("thermal efficiency", _fmt(row.get("thermal_efficiency"), ".4f")),
+        ("exergy efficiency", _fmt(row.get("exergy_efficiency"), ".4f")),
+        ("heat input [kW]", _fmt(row.get("heat_input_kW"), ".1f")),
+        ("source outlet T [°C]", _fmt(row.get("source_outlet_temperature_C"), ".1f")),
+        ("working-fluid flow [kg/s]", _fmt(row.get("wf_mass_flow_kg_s"), ".3f")),
+        ("binding limit", row.get("binding_limit") or "none"),
+    ]
+    turbine = [
+        ("turbine power [kW]", _fmt(row.get("turbine_power_kW"), ".1f")),
+        ("pump power [kW]", _fmt(row.get("pump_power_kW"), ".1f")),
+        ("auxiliary power [kW]", _fmt(row.get("aux_power_kW"), ".1f")),
+        ("turbine efficiency [-]", _fmt(row.get("turbine_efficiency"), ".3f")),
+        ("size parameter SP [m]", _fmt(row.get("size_parameter_m"), ".4f")),
+        ("volume ratio [-]", _fmt(row.get("volume_ratio"), ".2f")),
+        ("inlet / outlet T [°C]", f"{_fmt(row.get('turbine_inlet_temperature_C'), '.1f')} / "
+                                  f"{_fmt(row.get('turbine_outlet_temperature_C'), '.1f')}"),
+        ("outlet quality [-]", _fmt(row.get("turbine_outlet_quality"), ".3f") or "superheated"),
+        ("evaporation p / T", f"{_fmt(row.get('evaporation_pressure_bar'), '.2f')} bar / "
+                              f"{_fmt(row.get('evaporation_temperature_C'), '.1f')} °C"),
+        ("condensing p / T", f"{_fmt(row.get('condensing_pressure_bar'), '.3f')} bar / "
+                             f"{_fmt(row.get('condensing_temperature_C'), '.1f')} °C"),
+    ]
+    parts.append('<div class="cols"><div><h4>Fluid and cycle</h4>' + _kv_table(facts) +
+                 '</div><div><h4>Turbine and pump</h4>' + _kv_table(turbine) + "</div></div>")
+    if detail:
+        states = detail.get("states") or []
+        srows = "".join(
+            f"<tr><td>{_e(s.get('name'))}</td><td>{_e(s.get('label'))}</td>"
+            f"<td>{_fmt(s.get('T_C'), '.2f')}</td><td>{_fmt(s.get('p_bar'), '.3f')}</td>"
+            f"<td>{_fmt(s.get('h_kJ_kg'), '.2f')}</td><td>{_fmt(s.get('s_kJ_kgK'), '.4f')}</td>"
+            f"<td>{_fmt(s.get('q'), '.3f') or '–'}</td></tr>" for s in states)
+        parts.append('<h4>States</h4><table class="grid"><thead><tr><th>state</th><th>where</th>'
+                     "<th>T [°C]</th><th>p [bar]</th><th>h [kJ/kg]</th><th>s [kJ/(kg·K)]</th>"
+                     f"<th>quality [-]</th></tr></thead><tbody>{srows}</tbody></table>")
+        xrows = "".join(
+            f"<tr><td>{_e(name)}</td><td>{_fmt(hx.get('duty_kW'), '.1f')}</td>"
+            f"<td>{_fmt(hx.get('pinch_K'), '.2f')}</td>"
+            f"<td>{_fmt(hx.get('pinch_T_hot_C'), '.1f')} / {_fmt(hx.get('pinch_T_cold_C'), '.1f')}</td>"
+            f"<td>{_fmt(hx.get('ua_kW_K'), '.2f')}</td></tr>"
+            for name, hx in (detail.get("exchangers") or {}).items() if hx)
+        parts.append('<h4>Exchangers</h4><table class="grid"><thead><tr><th>exchanger</th>'
+                     "<th>duty [kW]</th><th>pinch [K]</th><th>T at pinch, hot / cold [°C]</th>"
+                     f"<th>UA [kW/K]</th></tr></thead><tbody>{xrows}</tbody></table>")
+        loc = row.get("pinch_location")
+        if loc:
+            parts.append(f'<p class="note">Evaporator pinch location: {_e(loc)}.</p>')
+    else:
+        parts.append("<p>No detail is stored for this case.</p>")
+    parts.append("<h4>Cautions for this fluid</h4><ul>" +
+                 "".join(f"<li>{_e(c)}</li>" for c in fluid_cautions(row)) + "</ul>")
+    parts.append('<div class="charts">' + "".join(_figure_html(f) for f in figs) + "</div>")
+    parts.append("</article>")
+    return "".join(parts)
+
+
+def _problems_section(data: _RunData) -> str:
+    bad = data.table[data.table["status"] != "ok"] if "status" in data.table else data.table
+    if bad.empty:
+        return ('<section id="problems"><h2>Infeasible and failed cases</h2>'
+                "<p>None: every case gave a feasible cycle.</p></section>")
+    headers = [(plots.axis_label(c), True) for c in data.sweep_cols]
+    headers += [("fluid", False), ("layout", False), ("status", False), ("reason", False)]
+    rows = []
+    for _, r in bad.iterrows():
+        cells = [(_fmt(r[c], "g"), _sort_key(r[c])) for c in data.sweep_cols]
+        name = r.get("display_name") or r.get("fluid")
+        cells += [(name, name), (r.get("layout"), r.get("layout")),
+                  (r.get("status"), r.get("status")), (r.get("reason") or "", r.get("reason") or "")]
+        rows.append(cells)
+    return ('<section id="problems"><h2>Infeasible and failed cases</h2>' +
+            _table(headers, rows, "problems-table",
+                   f"{len(bad)} cases without a feasible result, with the reason recorded.") +
+            "</section>")
+
+
+def _chart_problems(records: list[FigureRecord]) -> str:
+    failed = [r for r in records if r.error]
+    if not failed:
+        return ""
+    items = "".join(f"<li><strong>{_e(r.title)}</strong> ({_e(r.stem)}): {_e(r.error)}</li>"
+                    for r in failed)
+    return ('<section id="chart-problems"><h2>Charts that could not be drawn</h2>'
+            "<p>These failures touch only the charts; every computed result above and in "
+            f"ranking.csv is complete.</p><ul>{items}</ul></section>")
+
+
+def _cautions_section() -> str:
+    paras = "".join(f"<p>{_e(p)}</p>" for p in cautions_text())
+    return f'<section id="cautions"><h2>Cautions</h2>{paras}</section>'
+
+
+# --------------------------------------------------------------------------- page
+
+_CSS = """
+:root{--ink:#1a1a1a;--muted:#555;--line:#d0d0d0;--band:#f4f6f8;--accent:#0072B2}
+*{box-sizing:border-box}
+body{font:15px/1.45 system-ui,-apple-system,"Segoe UI",Roboto,"DejaVu Sans",sans-serif;
+ color:var(--ink);margin:0 auto;max-width:1180px;padding:0 1.2rem 3rem}
+header{border-bottom:3px solid var(--accent);padding:1.2rem 0 .6rem;margin-bottom:1rem}
+h1{font-size:1.6rem;margin:0}h2{font-size:1.3rem;margin:2rem 0 .6rem;border-bottom:1px solid var(--line)}
+h3{font-size:1.1rem;margin:.2rem 0 .6rem}h4{font-size:.95rem;margin:1rem 0 .3rem}
+.sub{color:var(--muted)}.note{color:var(--muted);font-size:.9rem}
+.banner{background:#fff4e0;border-left:4px solid #E69F00;padding:.5rem .8rem;margin:.8rem 0}
+table{border-collapse:collapse;font-size:.85rem}
+th,td{padding:.25rem .5rem;border-bottom:1px solid var(--line);text-align:left;vertical-align:top}
+table.sortable td[data-sort],table.grid td{font-variant-numeric:tabular-nums}
+table.sortable thead th{position:sticky;top:0;background:var(--band);cursor:pointer;white-space:nowrap;user-select:none}
+table.sortable thead th:hover{background:#e4e9ee}
+table.sortable th[aria-sort=ascending]::after{content:" \\25B2"}
+table.sortable th[aria-sort=descending]::after{content:" \\25BC"}
+table.sortable caption,table caption{caption-side:top;text-align:left;color:var(--muted);padding:.3rem 0}
+table.kv th{font-weight:600;color:var(--muted);width:15rem}
+.scroll{overflow:auto;max-height:38rem;border:1px solid var(--line)}
+.counts{list-style:none;padding:0;display:flex;gap:1rem}
+.badge{display:inline-block;padding:.05rem .5rem;border-radius:.8rem;color:#fff;font-size:.8rem}
+.badge.ok{background:#009E73}.badge.infeasible{background:#E69F00;color:#000}.badge.failed{background:#D55E00}
+.card{border:1px solid var(--line);border-radius:6px;padding:.8rem 1rem;margin:1rem 0;break-inside:avoid}
+.card .power{color:var(--accent);font-weight:600;margin-left:.6rem}
+.cols{display:flex;flex-wrap:wrap;gap:2rem}
+.charts{display:flex;flex-wrap:wrap;gap:1rem}
+figure.chart{margin:0;flex:1 1 520px;max-width:100%}
+figure.chart img{width:100%;height:auto;border:1px solid var(--line)}
+figure.failed{border:1px dashed #D55E00;padding:.5rem}
+figcaption{font-size:.85rem;color:var(--muted)}.files{font-family:monospace;font-size:.75rem}
+code{font-size:.85em}
+table.sortable td{white-space:nowrap}table.sortable td.wrap{white-space:normal;min-width:22rem}
+.input-grid{display:flex;flex-wrap:wrap;gap:.4rem 1.6rem;align-items:flex-start}
+.inputs h4{margin:.6rem 0 .1rem}table.small{font-size:.8rem}table.small th{width:auto;padding-right:1rem}
+.dflt{font-size:.7rem;color:var(--muted);border:1px solid var(--line);border-radius:.6rem;padding:0 .35rem}
+footer{margin-top:3rem;color:var(--muted);font-size:.8rem;border-top:1px solid var(--line)}
+@media print{.scroll{max-height:none;overflow:visible;border:0}table.sortable thead th{position:static}
+ body{max-width:none;font-size:10pt}figure.chart{flex-basis:100%}}
+"""
+
+# Sorting: a click (or Enter) on a header sorts the body rows by that column; numbers by value,
+# text by locale order; empty cells always last. No libraries, no network.
+_JS = """
+(function(){
+  function key(cell, numeric){
+    if(!cell){return null;}
+    var raw = cell.hasAttribute('data-sort') ? cell.getAttribute('data-sort') : cell.textContent.trim();
+    if(raw === ''){return null;}
+    if(numeric){var v = parseFloat(raw); return isNaN(v) ? null : v;}
+    return raw.toLowerCase();
+  }
+  function sortTable(table, col, th){
+    var numeric = th.getAttribute('data-type') === 'num';
+    var dir = th.getAttribute('aria-sort') === 'ascending' ? 'descending' : 'ascending';
+    var heads = table.tHead.rows[0].cells;
+    for(var i = 0; i < heads.length; i++){heads[i].removeAttribute('aria-sort');}
+    th.setAttribute('aria-sort', dir);
+    var body = table.tBodies[0];
+    var rows = Array.prototype.slice.call(body.rows);
+    var sign = dir === 'ascending' ? 1 : -1;
+    rows.forEach(function(r, i){r._pos = i;});
+    rows.sort(function(a, b){
+      var x = key(a.cells[col], numeric), y = key(b.cells[col], numeric);
+      if(x === null && y === null){return a._pos - b._pos;}
+      if(x === null){return 1;}
+      if(y === null){return -1;}
+      var c = numeric ? x - y : x.localeCompare(y);
+      return c !== 0 ? sign * c : a._pos - b._pos;
+    });
+    rows.forEach(function(r){body.appendChild(r);});
+  }
+  var tables = document.querySelectorAll('table.sortable');
+  Array.prototype.forEach.call(tables, function(table){
+    Array.prototype.forEach.call(table.tHead.rows[0].cells, function(th, col){
+      th.addEventListener('click', function(){sortTable(table, col, th);});
+      th.addEventListener('keydown', function(ev){
+        if(ev.key === 'Enter' || ev.key === ' '){ev.preventDefault(); sortTable(table, col, th);}
+      });
+    });
+  });
+  document.body.setAttribute('data-sortable-ready', String(tables.length));
+})();
+"""
+
+_CSP = ("default-src 'none'; img-src data:; style-src 'unsafe-inline'; "
+        "script-src 'unsafe-inline'; base-uri 'none'; form-action 'none'")
+
+
+def render_report(data: _RunData, records: list[FigureRecord]) -> str:
+    """The whole HTML page as a string."""
+    name = data.meta.get("study_name") or "orcscreen study"
+    overview = [r for r in records if r.group == "overview"]
+    sweeps = [r for r in records if r.group == "sweep"]
+    cards = []
+    for n, (_, row) in enumerate(data.top.iterrows(), start=1):
+        key = row["case_key"]
+        cards.append(_card(n, row, data.details.get(key), [r for r in records if r.group == key]))
+    point = _point_note(data.point)
+    top_section = ('<section id="top"><h2>Top cases in detail</h2>' +
+                   (f'<p class="note">At the {_e(point)}.</p>' if point else "") +
+                   ("".join(cards) or "<p>No feasible case.</p>") + "</section>")
+    sweep_section = ('<section id="sweeps"><h2>Sweeps</h2><div class="charts">' +
+                     "".join(_figure_html(r) for r in sweeps) + "</div></section>"
+                     if sweeps else "")
+    made = datetime.now(timezone.utc).strftime("%Y-%m-%d %H:%M UTC")
+    return (
+        "<!DOCTYPE html>\n"
+        '<html lang="en"><head><meta charset="utf-8">'
+        f'<meta http-equiv="Content-Security-Policy" content="{_CSP}">'
+        '<meta name="viewport" content="width=device-width, initial-scale=1">'
+        '<link rel="icon" href="data:,">'
+        f"<title>{_e(name)} – orcscreen report</title><style>{_CSS}</style></head><body>"
+        f"<header><h1>{_e(name)}</h1><div class=\"sub\">orcscreen screening report · study hash "
+        f"<code>{_e(data.meta.get('study_hash', ''))}</code> · built {made}</div>"
+        '<div class="banner">Preliminary screening, not a design: see the '
+        '<a href="#cautions">cautions</a> before acting on any result.</div></header>'
+        '<nav class="note"><a href="#summary">summary</a> · <a href="#ranking">ranking</a> · '
+        '<a href="#top">top cases</a> · ' + ('<a href="#sweeps">sweeps</a> · ' if sweeps else "") +
+        '<a href="#problems">infeasible and failed</a> · <a href="#cautions">cautions</a></nav>'
+        + _summary(data) + _ranking_section(data, overview) + sweep_section + top_section
+        + _problems_section(data) + _chart_problems(records) + _cautions_section()
+        + f"<footer>Written by orcscreen {_e(data.meta.get('orcscreen_version', ''))} with "
+        f"CoolProp {_e(data.meta.get('coolprop_version', ''))}; charts also in "
+        f"{_e(FIGURES_DIR)}/ as PNG and SVG; every result in ranking.csv.</footer>"
+        f"<script>{_JS}</script></body></html>\n"
+    )
+
+
+def build_report(out_dir: str | os.PathLike[str], top_n: int = 5) -> Path:
+    """Draw the charts and write ``out_dir/report.html`` from the run store; return its path.
+
+    Recomputes nothing. Raises :class:`orcscreen.store.StoreNotFoundError` when ``out_dir`` has
+    no run store. A chart that fails is logged and named in the report; the report is still
+    written. ``top_n``: number of best cases (at the operating point of the best case) that get a
+    detail card with T-Q and T-s diagrams and appear in the landscape chart.
+    """
+    out_dir = Path(out_dir)
+    data = _load(out_dir, max(0, int(top_n)))
+    records = make_figures(data, out_dir / FIGURES_DIR)
+    page = render_report(data, records)
+    path = out_dir / REPORT_FILE
+    tmp = path.with_name(f".{path.name}.tmp")
+    tmp.write_text(page, encoding="utf-8")
+    os.replace(tmp, path)
+    return path
