@@ -94,10 +94,11 @@ class CycleSettings:
 class CycleInfeasible(Exception):
     """Raised inside the evaluation when a limit is broken; carries the limit name and reason."""
 
-    def __init__(self, limit: str, reason: str):
+    def __init__(self, limit: str, reason: str, margin: float = math.nan):
         super().__init__(reason)
         self.limit = limit
         self.reason = reason
+        self.margin = margin  # signed distance to the limit where it has one (negative: broken)
 
 
 @dataclass(frozen=True)
@@ -129,14 +130,15 @@ class CycleResult:
     volume_ratio: float = math.nan
     cond_limit: str = ""
     profiles: dict = field(default_factory=dict)
+    margin: float = math.nan  # infeasible: signed distance to the broken limit, if it has one
 
     @property
     def ok(self) -> bool:
         return self.status == "ok"
 
 
-def _infeasible(limit: str, reason: str, **known) -> CycleResult:
-    return CycleResult(status="infeasible", reason=reason, limit=limit, **known)
+def _infeasible(limit: str, reason: str, margin: float = math.nan, **known) -> CycleResult:
+    return CycleResult(status="infeasible", reason=reason, limit=limit, margin=margin, **known)
 
 
 def _C(T_K: float) -> str:
@@ -176,11 +178,50 @@ def _two_phase_state(sat, T_K: float, q: float) -> State:
     )
 
 
-def _state_from_ph(fluid: Fluid, sat, h: float) -> State:
-    """State at the saturation pressure of sat and enthalpy h; two-phase states without a flash."""
+def _state_from_ph(fluid: Fluid, sat, h: float, near: State | None = None) -> State:
+    """State at the saturation pressure of sat and enthalpy h; two-phase states without a flash.
+
+    Single-phase states use the phase-imposed Newton flash, started next to the state near
+    (same pressure) or at the saturation point of the same phase.
+    """
     if sat.hL <= h <= sat.hV:
         return _two_phase_state(sat, sat.T_K, (h - sat.hL) / (sat.hV - sat.hL))
-    return fluid.state_ph(sat.p_Pa, h)
+    gas = h > sat.hV
+    if near is None:
+        near = State(sat.T_K, sat.p_Pa, sat.hV if gas else sat.hL, sat.sV if gas else sat.sL, sat.vV if gas else sat.vL, math.nan)
+    return _flash_ph(fluid, sat.p_Pa, h, "gas" if gas else "liquid", near)
+
+
+#: Last vapour cp [J/(kg K)] seen per fluid: the first guess of the expansion-outlet flash.
+_CP_VAPOUR_HINT: dict[str, float] = {}
+
+
+def _superheated_ps(fluid: Fluid, sat, s: float) -> State:
+    """Superheated vapour at the pressure of sat and entropy s (s > sV), phase-imposed Newton."""
+    cp = _CP_VAPOUR_HINT.get(fluid.name, 1000.0)
+    T0 = sat.T_K * math.exp((s - sat.sV) / cp)
+    st = fluid.state_ps(sat.p_Pa, s, "gas", T0, sat.vV * T0 / sat.T_K)
+    if not math.isnan(st.cp):
+        _CP_VAPOUR_HINT[fluid.name] = st.cp
+    return st
+
+
+def _flash_ph(fluid: Fluid, p_Pa: float, h: float, phase: str, near: State) -> State:
+    """Single-phase state at (p, h), Newton started from near (a state of the same phase)."""
+    T, v = _next_guess(near, h - near.h, phase)
+    return fluid.state_ph(p_Pa, h, phase, T, v)
+
+
+def _next_guess(st: State, dh: float, phase: str) -> tuple[float, float]:
+    """Temperature [K] and specific volume [m3/kg] guesses dh [J/kg] away from st on its isobar.
+
+    T from dh/cp; v unchanged for a liquid, scaled with T for a vapour (ideal-gas trend).
+    """
+    T = st.T_K + dh / st.cp if st.cp > 0.0 else st.T_K
+    if T <= 0.5 * st.T_K:
+        T = st.T_K
+    v = st.v * T / st.T_K if phase == "gas" else st.v
+    return T, v
 
 
 def _recuperate(fluid, s, sat_c, sat_e, st2: State, st4: State, exact: bool):
@@ -202,8 +243,8 @@ def _recuperate(fluid, s, sat_c, sat_e, st2: State, st4: State, exact: bool):
     q = min(q, min(h2r_max, sat_e.hL) - st2.h)
     if q <= 0.0:
         return 0.0, st2, st4, False
-    st2r = fluid.state_ph(p_e, st2.h + q)
-    st4r = _state_from_ph(fluid, sat_c, st4.h - q)
+    st2r = _flash_ph(fluid, p_e, st2.h + q, "liquid", st2)
+    st4r = _state_from_ph(fluid, sat_c, st4.h - q, st4)
     if exact:
         prof = _recuperator_profile(fluid, sat_c, p_e, st2, st4, q, s.n_zone_segments * 2)
         if prof.min_approach_K < dT - 1e-9:
@@ -218,8 +259,8 @@ def _recuperate(fluid, s, sat_c, sat_e, st2: State, st4: State, exact: bool):
             q *= lo
             if q <= 0.0:
                 return 0.0, st2, st4, False
-            st2r = fluid.state_ph(p_e, st2.h + q)
-            st4r = _state_from_ph(fluid, sat_c, st4.h - q)
+            st2r = _flash_ph(fluid, p_e, st2.h + q, "liquid", st2)
+            st4r = _state_from_ph(fluid, sat_c, st4.h - q, st4)
     return q, st2r, st4r, True
 
 
@@ -227,9 +268,22 @@ def _recuperator_profile(fluid, sat_c, p_e_Pa, st2, st4, q, n) -> Profile:
     frac = np.linspace(0.0, 1.0, n + 1)
     h_cold = st2.h + frac * q
     h_hot = st4.h - q + frac * q
-    T_cold = np.array([fluid.state_ph(p_e_Pa, h).T_K for h in h_cold])
-    T_hot = np.array([_state_from_ph(fluid, sat_c, h).T_K for h in h_hot])
+    T_cold = _isobar_temperatures(fluid, p_e_Pa, h_cold, st2, "liquid")
+    T_hot = _isobar_temperatures(fluid, sat_c.p_Pa, h_hot[::-1], st4, "gas")[::-1]
     return Profile(frac * q, T_hot, T_cold)
+
+
+def _isobar_temperatures(fluid: Fluid, p_Pa: float, h: np.ndarray, start: State, phase: str) -> np.ndarray:
+    """Temperatures [K] at enthalpies h along one single-phase isobar, starting next to state start.
+
+    Each point's flash starts from the previous point's temperature plus dh/cp.
+    """
+    T = np.empty(len(h))
+    prev = start
+    for i, hi in enumerate(h):
+        prev = _flash_ph(fluid, p_Pa, float(hi), phase, prev)
+        T[i] = prev.T_K
+    return T
 
 
 def _cold_side(fluid: Fluid, s: CycleSettings, recuperated: bool, sat_e, st3: State, T_cond_K: float, exact: bool) -> _ColdSide:
@@ -239,18 +293,19 @@ def _cold_side(fluid: Fluid, s: CycleSettings, recuperated: bool, sat_e, st3: St
         st1 = fluid.state_pT(p_c, T_cond_K - s.subcooling_K)
     else:
         st1 = State(T_cond_K, p_c, sat_c.hL, sat_c.sL, sat_c.vL, 0.0)
-    st2s = fluid.state_ps(p_e, st1.s)
+    st2s = fluid.state_ps(p_e, st1.s, "liquid", st1.T_K, st1.v)
     h2 = st1.h + (st2s.h - st1.h) / s.pump_efficiency
-    st2 = fluid.state_ph(p_e, h2)
+    st2 = _flash_ph(fluid, p_e, h2, "liquid", st2s)
     # isentropic expansion to the condensing pressure
     if st3.s <= sat_c.sV:
         q4s = (st3.s - sat_c.sL) / (sat_c.sV - sat_c.sL)
         st4s = _two_phase_state(sat_c, T_cond_K, q4s)
     else:
-        st4s = fluid.state_ps(p_c, st3.s)
+        st4s = _superheated_ps(fluid, sat_c, st3.s)
     dh_s = st3.h - st4s.h
     eta_t = s.turbine.efficiency(math.nan, st4s.v / st3.v)
-    st4 = _state_from_ph(fluid, sat_c, st3.h - eta_t * dh_s)
+    h4 = st3.h - eta_t * dh_s
+    st4 = _state_from_ph(fluid, sat_c, h4, st4s if h4 > sat_c.hV and math.isnan(st4s.q) else None)
     if recuperated:
         q_rec, st2r, st4r, active = _recuperate(fluid, s, sat_c, sat_e, st2, st4, exact)
     else:
@@ -267,10 +322,10 @@ def _condenser_wf_path(fluid: Fluid, cs: _ColdSide, n: int, exact: bool) -> tupl
     labels = ["cold end"]
     if cs.s1.h < sat.hL - 1e-9:  # subcooled liquid zone
         if exact:
-            for h in np.linspace(h1, sat.hL, n + 1)[1:-1]:
-                pts_h.append(h)
-                pts_T.append(fluid.state_ph(sat.p_Pa, h).T_K)
-                labels.append("subcooling zone")
+            hz = np.linspace(h1, sat.hL, n + 1)[1:-1]
+            pts_h.extend(hz)
+            pts_T.extend(_isobar_temperatures(fluid, sat.p_Pa, hz, cs.s1, "liquid"))
+            labels.extend(["subcooling zone"] * len(hz))
         pts_h.append(sat.hL)
         pts_T.append(sat.T_K)
         labels.append("bubble point")
@@ -280,10 +335,10 @@ def _condenser_wf_path(fluid: Fluid, cs: _ColdSide, n: int, exact: bool) -> tupl
     labels.append("dew point")
     if h_in > sat.hV + 1e-9:
         if exact:
-            for h in np.linspace(sat.hV, h_in, n + 1)[1:-1]:
-                pts_h.append(h)
-                pts_T.append(fluid.state_ph(sat.p_Pa, h).T_K)
-                labels.append("desuperheating zone")
+            hz = np.linspace(h_in, sat.hV, n + 1)[1:-1]
+            pts_h.extend(hz[::-1])
+            pts_T.extend(_isobar_temperatures(fluid, sat.p_Pa, hz, cs.s4r, "gas")[::-1])
+            labels.extend(["desuperheating zone"] * len(hz))
         pts_h.append(h_in)
         pts_T.append(cs.s4r.T_K)
         labels.append("hot end")
@@ -315,7 +370,16 @@ def _solve_condenser(fluid, sink, s, recuperated, sat_e, st3, exact, T_guess_K=N
         )
     T = T_guess_K if T_guess_K is not None else sink.T_out_K + dT_pinch
     T = max(T, T_floor)
-    tol = 1e-9 if exact else 1e-5
+    if exact:
+        # converge on the closed-form candidates first, then on the discretised profile
+        T = _condenser_iterations(fluid, sink, s, recuperated, sat_e, st3, T, T_floor, False, 1e-9).T_cond_K
+        return _condenser_iterations(fluid, sink, s, recuperated, sat_e, st3, T, T_floor, True, 1e-9)
+    return _condenser_iterations(fluid, sink, s, recuperated, sat_e, st3, T, T_floor, False, 1e-5)
+
+
+def _condenser_iterations(fluid, sink, s, recuperated, sat_e, st3, T, T_floor, exact, tol) -> _ColdSide:
+    """Secant iterations on r(T_cond) = min approach - pinch, which increases with T_cond."""
+    dT_pinch = s.pinch_condenser_K
     n = s.n_zone_segments
     prev = None
     for _ in range(60):
@@ -346,10 +410,10 @@ def _evaporator_path(fluid, sat_e, st_in: State, st3: State, n: int, exact: bool
     T = [st_in.T_K]
     labels = ["economiser inlet"]
     if exact:
-        for hj in np.linspace(st_in.h, sat_e.hL, n + 1)[1:-1]:
-            h.append(hj)
-            T.append(fluid.state_ph(sat_e.p_Pa, hj).T_K)
-            labels.append("economiser")
+        hz = np.linspace(st_in.h, sat_e.hL, n + 1)[1:-1]
+        h.extend(hz)
+        T.extend(_isobar_temperatures(fluid, sat_e.p_Pa, hz, st_in, "liquid"))
+        labels.extend(["economiser"] * len(hz))
     h.append(sat_e.hL)
     T.append(sat_e.T_K)
     labels.append("bubble point")
@@ -358,10 +422,10 @@ def _evaporator_path(fluid, sat_e, st_in: State, st3: State, n: int, exact: bool
     labels.append("dew point")
     if st3.h > sat_e.hV + 1e-9:
         if exact:
-            for hj in np.linspace(sat_e.hV, st3.h, n + 1)[1:-1]:
-                h.append(hj)
-                T.append(fluid.state_ph(sat_e.p_Pa, hj).T_K)
-                labels.append("superheater")
+            hz = np.linspace(st3.h, sat_e.hV, n + 1)[1:-1]
+            h.extend(hz[::-1])
+            T.extend(_isobar_temperatures(fluid, sat_e.p_Pa, hz, st3, "gas")[::-1])
+            labels.extend(["superheater"] * len(hz))
         h.append(st3.h)
         T.append(st3.T_K)
         labels.append("hot end")
@@ -397,7 +461,7 @@ def evaluate(
     try:
         return _evaluate(fluid, source, sink, s, layout, T_evap_K, superheat_K, exact, T_cond_guess_K, known, T_cond_K, m_wf_kg_s)
     except CycleInfeasible as exc:
-        return _infeasible(exc.limit, exc.reason, **known)
+        return _infeasible(exc.limit, exc.reason, exc.margin, **known)
 
 
 def _evaluate(fluid, source, sink, s, layout, T_evap_K, superheat_K, exact, T_cond_guess_K, known, T_cond_fixed_K=None, m_wf_fixed=None) -> CycleResult:
@@ -429,6 +493,7 @@ def _evaluate(fluid, source, sink, s, layout, T_evap_K, superheat_K, exact, T_co
         raise CycleInfeasible(
             "turbine outlet quality",
             f"turbine outlet quality {st4.q:.3f} is below the limit {s.min_turbine_outlet_quality:.3f} (a wet expansion; superheat may help)",
+            st4.q - s.min_turbine_outlet_quality,
         )
 
     # evaporator: the largest flow that keeps the pinch and the source outlet limit
@@ -491,7 +556,7 @@ def _evaluate(fluid, source, sink, s, layout, T_evap_K, superheat_K, exact, T_co
         profiles=_profiles(fluid, source, sink, cs, h_path, T_path, m_wf, st3, hs_in, n) if exact else {},
     )
     if W_net <= 0.0:
-        return _infeasible("net power", f"net power {W_net / 1e3:.3g} kW is not positive", **known)
+        return _infeasible("net power", f"net power {W_net / 1e3:.3g} kW is not positive", W_net, **known)
     return result
 
 

@@ -74,15 +74,28 @@ class _Objective:
         self.n = 0
         self.T_cond_guess = None
         self.cache: dict[float, CycleResult] = {}
+        self._solved: list[tuple[float, float]] = []  # (T_evap, T_cond) of feasible points
+
+    def _predict_T_cond(self, T_evap_K: float) -> float | None:
+        """Condensing temperature predicted from the two nearest solved points (linear)."""
+        pts = self._solved
+        if len(pts) < 2:
+            return self.T_cond_guess
+        (x1, y1), (x2, y2) = sorted(pts, key=lambda p: abs(p[0] - T_evap_K))[:2]
+        if x1 == x2:
+            return y1
+        return y1 + (y2 - y1) * (T_evap_K - x1) / (x2 - x1)
 
     def __call__(self, T_evap_K: float) -> CycleResult:
         hit = self.cache.get(T_evap_K)
         if hit is not None:
             return hit
         self.n += 1
-        r = evaluate(*self.args, T_evap_K, self.superheat_K, exact=self.exact, T_cond_guess_K=self.T_cond_guess)
+        guess = self._predict_T_cond(T_evap_K)
+        r = evaluate(*self.args, T_evap_K, self.superheat_K, exact=self.exact, T_cond_guess_K=guess)
         if r.ok:
             self.T_cond_guess = r.T_cond_K
+            self._solved.append((T_evap_K, r.T_cond_K))
         self.cache[T_evap_K] = r
         return r
 
@@ -91,24 +104,56 @@ class _Objective:
         return r.W_net_W if r.ok else -math.inf
 
 
+def _quality_margin(r: CycleResult, x_min: float) -> float:
+    if r.ok:
+        q = r.states["4"].q
+        return math.inf if math.isnan(q) else q - x_min
+    return r.margin if r.limit == "turbine outlet quality" else math.nan
+
+
 def _feasible_edge(obj: _Objective, T_ok: float, T_bad: float, tol_K: float = 1e-4) -> tuple[float, str]:
-    """Bisection for the edge of the feasible region between a feasible and an infeasible point."""
+    """Edge of the feasible region between a feasible and an infeasible point.
+
+    Where the broken limit has a continuous margin (the turbine outlet quality), false position
+    with the Illinois modification (Dowell and Jarratt, BIT 11 (1971) 168-174) on that margin;
+    otherwise bisection. Always returns a feasible point within tol_K of the edge.
+    """
     limit = obj(T_bad).limit
+    x_min = obj.args[3].min_turbine_outlet_quality
+    m_ok, m_bad = _quality_margin(obj(T_ok), x_min), _quality_margin(obj(T_bad), x_min)
+    side = 0
     while abs(T_bad - T_ok) > tol_K:
-        mid = 0.5 * (T_ok + T_bad)
+        use_secant = limit == "turbine outlet quality" and math.isfinite(m_ok) and math.isfinite(m_bad) and m_ok > 0 > m_bad
+        mid = T_ok + (T_bad - T_ok) * m_ok / (m_ok - m_bad) if use_secant else 0.5 * (T_ok + T_bad)
+        # keep the trial point strictly inside, and not glued to one end
+        lo, hi = sorted((T_ok, T_bad))
+        span = hi - lo
+        mid = min(max(mid, lo + 0.02 * span if span > 4 * tol_K else lo + 0.5 * tol_K), hi - (0.02 * span if span > 4 * tol_K else 0.5 * tol_K))
         r = obj(mid)
+        m = _quality_margin(r, x_min)
         if r.ok:
-            T_ok = mid
+            T_ok, m_ok = mid, m
+            if side == 1:
+                m_bad *= 0.5
+            side = 1
         else:
-            T_bad, limit = mid, r.limit
+            T_bad, m_bad, limit = mid, m, r.limit
+            if side == -1:
+                m_ok *= 0.5
+            side = -1
     return T_ok, limit
+
+
+def _penalised(W: float) -> float:
+    """Objective for the minimiser: -W, with infeasible points as a large finite value."""
+    return -W if math.isfinite(W) else 1e30
 
 
 def _refine(obj: _Objective, a: float, b: float) -> float:
     """Bounded Brent search for the largest net power in [a, b]; returns the best point seen."""
     if b - a <= XATOL_K:
         return a if obj.power(a) >= obj.power(b) else b
-    res = minimize_scalar(lambda T: -obj.power(T), bounds=(a, b), method="bounded", options={"xatol": XATOL_K})
+    res = minimize_scalar(lambda T: _penalised(obj.power(T)), bounds=(a, b), method="bounded", options={"xatol": XATOL_K})
     best = max([a, b, float(res.x)], key=obj.power)
     return best
 
@@ -222,7 +267,7 @@ def optimise(
         return None, inner(0.0)[1], total
     i = int(np.argmax(W))
     a, b = float(grid[max(i - 1, 0)]), float(grid[min(i + 1, len(grid) - 1)])
-    res = minimize_scalar(lambda sh: -power(sh), bounds=(a, b), method="bounded", options={"xatol": 0.05})
+    res = minimize_scalar(lambda sh: _penalised(power(sh)), bounds=(a, b), method="bounded", options={"xatol": 0.05})
     best = max([float(grid[i]), float(res.x)], key=power)
     # polish at the best superheat with the full scan
     r, limit, n, scan = _optimise_fixed_superheat(fluid, source, sink, settings, layout, best, n_scan)
