@@ -31,6 +31,7 @@ from matplotlib.colors import ListedColormap
 from matplotlib.figure import Figure
 from matplotlib.lines import Line2D
 from matplotlib.patches import Patch, Rectangle
+from matplotlib.ticker import FuncFormatter
 from matplotlib.transforms import blended_transform_factory
 
 from orcscreen import rank
@@ -197,11 +198,7 @@ def ranking_chart(df: pd.DataFrame, ax: Axes | None = None, max_bars: int = 40,
     ax.set_yticks(y, [case_label(r) for _, r in ok.iterrows()], fontsize=TICK_PT)
     ax.set_ylim(len(ok) - 0.5, -0.5)        # best (index 0) on top
     ax.set_xlim(min(0.0, float(np.nanmin(power)) * 1.05), top * 1.38)
-    layouts = list(dict.fromkeys(ok["layout"]))
-    ax.legend(handles=[Patch(facecolor=_layout_style(l)["color"], hatch=_layout_style(l)["hatch"],
-                             edgecolor="#333333", label=str(l)) for l in layouts],
-              fontsize=NOTE_PT, loc="lower right", bbox_to_anchor=(1.0, 1.0), ncols=len(layouts),
-              frameon=False, borderaxespad=0.2)
+    # no legend: every bar's label names its layout; colour and hatch only repeat it
     if cut > 0 and title:
         title = f"{title} (best {max_bars}; {cut} more in the table)"
     _finish(ax, axis_label("net_power_kW"), "", title)
@@ -328,7 +325,7 @@ def tradeoff_chart(df: pd.DataFrame, x: str = "size_parameter_m", ax: Axes | Non
 
     Every feasible case is a point (marker by layout); the Pareto-optimal cases of
     :func:`orcscreen.rank.pareto_front` (most power for least size) are filled, joined by a step
-    line and named.
+    line and named. The x axis turns logarithmic when the sizes span more than a factor of 30.
     """
     ok = rank.feasible(df)
     ok = ok[np.isfinite(pd.to_numeric(ok[x], errors="coerce"))] if x in ok else ok.iloc[0:0]
@@ -346,6 +343,10 @@ def tradeoff_chart(df: pd.DataFrame, x: str = "size_parameter_m", ax: Axes | Non
             zorder=1)
     ax.scatter(pts[x], pts["net_power_kW"], marker="D", s=30, color="black", zorder=3,
                label="Pareto-optimal", gid="pareto")
+    values = pd.to_numeric(ok[x]).to_numpy(dtype=float)
+    if values.min() > 0 and values.max() / values.min() > 30:
+        ax.set_xscale("log")         # sizes spanning orders of magnitude (SP of siloxanes...)
+        ax.xaxis.set_major_formatter(FuncFormatter(lambda v, _pos: f"{v:g}"))
     if label_front:
         _label_points(ax, pts, x)
     ax.legend(fontsize=NOTE_PT, loc="lower right")
@@ -360,24 +361,40 @@ def _label_points(ax: Axes, pts: pd.DataFrame, x: str) -> None:
         px, py = float(r[x]), float(r["net_power_kW"])
         if groups and math.isclose(px, groups[-1][0], rel_tol=1e-9, abs_tol=1e-12) \
                 and math.isclose(py, groups[-1][1], rel_tol=1e-9, abs_tol=1e-12):
-            groups[-1][2].append(case_label(r))
+            groups[-1][2].append(r)
         else:
-            groups.append((px, py, [case_label(r)]))
-    xs = pts[x].astype(float)
-    ys = pts["net_power_kW"].astype(float)
-    span_x = float(xs.max() - xs.min()) or 1.0
-    span_y = float(ys.max() - ys.min()) or 1.0
+            groups.append((px, py, [r]))
+    log_x = ax.get_xscale() == "log"
+
+    def xpos(v: float) -> float:
+        return math.log10(v) if log_x else v
+
+    xlo, xhi = ax.get_xlim()
+    ylo, yhi = ax.get_ylim()
+    span_x = abs(xpos(xhi) - xpos(xlo)) or 1.0
+    span_y = abs(yhi - ylo) or 1.0
     below = True
     previous = None
     for px, py, names in groups:
-        if previous is not None and abs(px - previous[0]) < 0.08 * span_x \
-                and abs(py - previous[1]) < 0.08 * span_y:
+        if previous is not None and abs(xpos(px) - xpos(previous[0])) < 0.25 * span_x \
+                and abs(py - previous[1]) < 0.05 * span_y:
             below = not below
         else:
             below = True
-        ax.annotate(" / ".join(names), xy=(px, py), xytext=(5, -9 if below else 5),
-                    textcoords="offset points", fontsize=NOTE_PT - 0.5, gid="pareto-label")
+        ax.annotate(_joint_label(names), xy=(px, py), xytext=(5, -9 if below else 5),
+                    textcoords="offset points", fontsize=NOTE_PT - 0.5, gid="pareto-label",
+                    bbox={"boxstyle": "round,pad=0.1", "fc": "white", "ec": "none", "alpha": 0.7})
         previous = (px, py)
+
+
+def _joint_label(rows: Sequence[Mapping]) -> str:
+    """One label for cases at the same point: "R1234yf · basic, recuperated"."""
+    by_fluid: dict[str, list[str]] = {}
+    for r in rows:
+        name = str(r.get("display_name") or r.get("fluid") or "?")
+        by_fluid.setdefault(name, []).append(str(r.get("layout") or ""))
+    return " / ".join(f"{name} · {', '.join(l for l in layouts if l)}" if any(layouts) else name
+                      for name, layouts in by_fluid.items())
 
 
 # --------------------------------------------------------------------------- landscape
@@ -444,8 +461,9 @@ def _slice_note(ref: Mapping) -> str:
 
 def sweep_chart(df: pd.DataFrame, variable: str, ax: Axes | None = None, top_n: int = 5,
                 title: str | None = None) -> Axes:
-    """Net power [kW] against one swept variable: the best case at each point (black, named) and
-    the ``top_n`` fluid + layout combinations with the highest net power in the slice.
+    """Net power [kW] against one swept variable: the best case at each point (black dashed,
+    white diamonds, named where it changes) and the ``top_n`` fluid + layout combinations with
+    the highest net power in the slice.
 
     Other swept variables are held at their middle value (said in the title).
     """
@@ -464,8 +482,9 @@ def sweep_chart(df: pd.DataFrame, variable: str, ax: Axes | None = None, top_n: 
                 marker=style["marker"], markersize=3.5, linewidth=1.1,
                 label=case_label(series.iloc[0]), gid=f"top-{i}")
     best = rank.best_per_point(part).sort_values(variable)
-    ax.plot(best[variable], pd.to_numeric(best["net_power_kW"]), color="black", linewidth=2.4,
-            alpha=0.35, zorder=1, label="best case at each point", gid="best")
+    ax.plot(best[variable], pd.to_numeric(best["net_power_kW"]), color="black", linewidth=1.0,
+            linestyle=(0, (4, 2)), marker="D", markersize=4.5, markerfacecolor="white",
+            markeredgecolor="black", zorder=4, label="best case at each point", gid="best")
     previous = None
     for k, (_, r) in enumerate(best.iterrows()):
         name = case_label(r)
@@ -487,27 +506,31 @@ def sweep_chart(df: pd.DataFrame, variable: str, ax: Axes | None = None, top_n: 
 def best_fluid_map(df: pd.DataFrame, x: str, y: str, ax: Axes | None = None,
                    title: str | None = None) -> Axes:
     """Map over two swept variables: each cell coloured by its best fluid + layout and labelled
-    with its name and net power [kW]; hatched grey where no case is feasible.
+    with it (name, layout and net power [kW]; on wide grids a number keyed to the legend and the
+    net power); hatched grey where no case is feasible.
     """
     part, ref = _slice(df, [x, y])
     xs = sorted(pd.unique(part[x].dropna()))
     ys = sorted(pd.unique(part[y].dropna()))
-    if len(xs) < 1 or len(ys) < 1:
+    if not xs or not ys:
         raise ValueError(f"best-fluid map: no values of {x} and {y}")
     best = rank.best_per_point(part)
     names = [case_label(r) for _, r in best.iterrows()]
     classes = list(dict.fromkeys(names))
+    numbered = len(xs) > 6          # full names do not fit in narrow cells at A4 width
     grid = np.full((len(ys), len(xs)), np.nan)
     cell_text = {}
     for (_, r), name in zip(best.iterrows(), names):
         i, j = ys.index(r[y]), xs.index(r[x])
-        grid[i, j] = classes.index(name)
-        cell_text[(i, j)] = f"{r.get('display_name') or r['fluid']}\n{r['layout']}\n" \
-                            f"{float(r['net_power_kW']):.0f} kW"
-    ax = _new_axes(ax, 1.6 + 0.55 * len(ys))
+        k = classes.index(name)
+        grid[i, j] = k
+        power = f"{float(r['net_power_kW']):.0f} kW"
+        cell_text[(i, j)] = (f"{k + 1}\n{float(r['net_power_kW']):.0f}" if numbered else
+                             f"{r.get('display_name') or r['fluid']}\n{r['layout']}\n{power}")
+    ax = _new_axes(ax, 1.6 + (0.42 if numbered else 0.6) * len(ys))
     colours = [FILL_COLOURS[k % len(FILL_COLOURS)] for k in range(max(1, len(classes)))]
     cmap = ListedColormap(colours)
-    cmap.set_bad("#EEEEEE")
+    cmap.set_bad("#F2F2F2")
     ax.imshow(np.ma.masked_invalid(grid), cmap=cmap, vmin=-0.5, vmax=len(colours) - 0.5,
               origin="lower", aspect="auto", interpolation="nearest", gid="map")
     for i in range(len(ys)):
@@ -520,16 +543,22 @@ def best_fluid_map(df: pd.DataFrame, x: str, y: str, ax: Axes | None = None,
                     gid=f"cell-{i}-{j}")
     ax.set_xticks(range(len(xs)), [f"{v:g}" for v in xs])
     ax.set_yticks(range(len(ys)), [f"{v:g}" for v in ys])
-    ax.legend(handles=[Patch(facecolor=colours[k], edgecolor="#555555", label=c)
+    ax.set_xticks(np.arange(len(xs) + 1) - 0.5, minor=True)
+    ax.set_yticks(np.arange(len(ys) + 1) - 0.5, minor=True)
+    ax.legend(handles=[Patch(facecolor=colours[k], edgecolor="#555555",
+                             label=f"{k + 1}: {c}" if numbered else c)
                        for k, c in enumerate(classes)],
               fontsize=NOTE_PT, loc="upper left", bbox_to_anchor=(1.01, 1.0), frameon=False,
-              title="best case", title_fontsize=NOTE_PT)
+              title="best case\n(cell: number, net power [kW])" if numbered else "best case",
+              title_fontsize=NOTE_PT)
     if title is None:
         title = "Best fluid and layout"
         if ref:
             title += f" ({_slice_note(ref)})"
     _finish(ax, axis_label(x), axis_label(y), title)
     ax.grid(False)
+    ax.grid(True, which="minor", color="white", linewidth=1.5)
+    ax.tick_params(which="minor", length=0)
     return ax
 
 

@@ -166,7 +166,7 @@ def make_figures(data: _RunData, fig_dir: Path) -> list[FigureRecord]:
     varied = [c for c in data.sweep_cols if data.table[c].nunique(dropna=True) > 1]
     for c in varied:
         _draw(records, fig_dir, plots.file_stem("sweep", c), f"Net power over {c}",
-              "Thick grey: best case at each point (named where it changes); coloured: the "
+              "Black dashed with diamonds: best case at each point (named where it changes); coloured: the "
               "fluid and layout combinations with the highest net power.",
               lambda c=c: plots.sweep_chart(data.table, c), group="sweep")
     for x, y in combinations(varied, 2):
