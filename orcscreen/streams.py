@@ -93,6 +93,9 @@ _STEP_K = 4.0  # initial node spacing of a tabulated isobar [K]
 _MIN_STEP_K = 2.0e-3  # no refinement below this spacing [K]
 _SAT_GAP_K = 0.01  # a temperature this close to T_sat counts as saturated [K]
 _MARGIN_K = 5.0  # tables reach this far above the inlet temperature [K]
+# Newton on a segment cubic stops after a step below this (in units of the segment): the error left
+# is of order the step squared, far below 1e-9 K.
+_NEWTON_STOP = 1e-6
 
 
 class StreamError(ValueError):
@@ -114,12 +117,14 @@ class _HermiteCurve:
     """Piecewise-cubic Hermite h(T) and s(T) through nodes with slopes cp and cp/T.
 
     Monotone by construction check (Fritsch and Carlson, SIAM J. Numer. Anal. 17 (1980) 238:
-    alpha^2 + beta^2 <= 9 on every segment), so T(h) is single-valued and Newton on the segment
-    cubic converges from the chord. Constant-cp continuation outside [T_lo, T_hi].
+    alpha^2 + beta^2 <= 9 on every segment), so T(h) is single-valued; it is found by Newton on
+    the segment cubic from the inverse Hermite guess (slopes 1/cp). Constant-cp continuation
+    outside [T_lo, T_hi]. The array path pads the segment tables with one linear row at each
+    end, so a single searchsorted and one Horner step serve inside and outside the range.
     """
 
-    __slots__ = ("T_lo", "T_hi", "_T", "_d", "_inv_d", "_hn", "_hC", "_sC", "_Tl", "_hl",
-                 "_inv_dl", "_hseg", "_sseg", "_h_end", "_s_end", "_cp_end")
+    __slots__ = ("T_lo", "T_hi", "_Tn", "_hn", "_Tb", "_hb", "_inv_d", "_inv_dh", "_hC", "_sC", "_TC",
+                 "_Tl", "_hl", "_inv_dl", "_inv_dhl", "_hseg", "_sseg", "_Tseg", "_h_end", "_s_end", "_cp_end")
 
     def __init__(self, T, h, cp, s):
         T = np.asarray(T, float)
@@ -134,16 +139,28 @@ class _HermiteCurve:
         if np.any(alpha**2 + beta**2 > 9.0):
             raise StreamError("internal table is not monotone: cp varies too fast between nodes")
         self.T_lo, self.T_hi = float(T[0]), float(T[-1])
-        self._T, self._d, self._inv_d, self._hn = T, d, 1.0 / d, h
-        self._hC = _cubic_coefficients(h, cp, d)
-        self._sC = _cubic_coefficients(s, cp / T, d)
-        # Python lists for the scalar path (a bisect and a Horner step: about a microsecond).
-        self._Tl, self._hl, self._inv_dl = T.tolist(), h.tolist(), (1.0 / d).tolist()
-        self._hseg = [tuple(r) for r in self._hC.tolist()]
-        self._sseg = [tuple(r) for r in self._sC.tolist()]
         self._h_end = (float(h[0]), float(h[-1]))
         self._s_end = (float(s[0]), float(s[-1]))
         self._cp_end = (float(cp[0]), float(cp[-1]))
+        hC = _cubic_coefficients(h, cp, d)
+        sC = _cubic_coefficients(s, cp / T, d)
+        TC = _cubic_coefficients(T, 1.0 / cp, dh)  # inverse Hermite T(h): Newton's first guess
+        # Python lists for the scalar path (a bisect and a Horner step: about a microsecond).
+        self._Tl, self._hl = T.tolist(), h.tolist()
+        self._inv_dl, self._inv_dhl = (1.0 / d).tolist(), (1.0 / dh).tolist()
+        self._hseg = [tuple(r) for r in hC.tolist()]
+        self._sseg = [tuple(r) for r in sC.tolist()]
+        self._Tseg = [tuple(r) for r in TC.tolist()]
+        # Padded tables for the array path: row 0 is T < T_lo, row n is T >= T_hi (u = T - T_end).
+        (h0, h1), (c0, c1), (s0, s1) = self._h_end, self._cp_end, self._s_end
+        self._Tn, self._hn = T, h
+        self._Tb = np.concatenate(([T[0]], T[:-1], [T[-1]]))
+        self._hb = np.concatenate(([h[0]], h[:-1], [h[-1]]))
+        self._inv_d = np.concatenate(([1.0], 1.0 / d, [1.0]))
+        self._inv_dh = np.concatenate(([1.0], 1.0 / dh, [1.0]))
+        self._hC = np.vstack(([h0, c0, 0.0, 0.0], hC, [h1, c1, 0.0, 0.0]))
+        self._sC = np.vstack(([s0, 0.0, 0.0, 0.0], sC, [s1, 0.0, 0.0, 0.0]))
+        self._TC = np.vstack(([T[0], 1.0 / c0, 0.0, 0.0], TC, [T[-1], 1.0 / c1, 0.0, 0.0]))
 
     def __getstate__(self):
         return {k: getattr(self, k) for k in self.__slots__}
@@ -193,92 +210,69 @@ class _HermiteCurve:
         if h >= hl[-1]:
             return Tl[-1] + (h - hl[-1]) / self._cp_end[1]
         i = bisect_right(hl, h) - 1
+        _, t1, t2, t3 = self._Tseg[i]
+        v = (h - hl[i]) * self._inv_dhl[i]
+        u = (t1 + v * (t2 + v * t3)) * v * self._inv_dl[i]
         c0, c1, c2, c3 = self._hseg[i]
-        u = (h - c0) / (hl[i + 1] - c0)
         for _ in range(12):
             du = (c0 + u * (c1 + u * (c2 + u * c3)) - h) / (c1 + u * (2.0 * c2 + 3.0 * u * c3))
             u -= du
-            if abs(du) < 1e-13:
+            if abs(du) < _NEWTON_STOP:
                 break
         return Tl[i] + u / self._inv_dl[i]
 
     # -- array path -------------------------------------------------------------------------
-    def _locate(self, x: np.ndarray):
-        i = np.searchsorted(self._T, x, side="right") - 1
-        np.clip(i, 0, self._d.size - 1, out=i)
-        return i, (x - self._T[i]) * self._inv_d[i]
-
-    def _ends(self, out, x, lo_value, hi_value):
-        lo, hi = x < self.T_lo, x > self.T_hi
-        if lo.any():
-            out[lo] = lo_value(x[lo])
-        if hi.any():
-            out[hi] = hi_value(x[hi])
-        return out
+    def _rows(self, x: np.ndarray):
+        i = np.searchsorted(self._Tn, x, side="right")
+        return i, (x - self._Tb[i]) * self._inv_d[i]
 
     def h(self, T):
         if isinstance(T, _SCALARS):
             return self._h1(float(T))
         Ta = np.asarray(T, float)
-        x = Ta.ravel()
-        i, u = self._locate(x)
+        i, u = self._rows(Ta)
         C = self._hC[i]
-        out = C[:, 0] + u * (C[:, 1] + u * (C[:, 2] + u * C[:, 3]))
-        (h0, h1), (c0, c1) = self._h_end, self._cp_end
-        out = self._ends(out, x, lambda t: h0 + c0 * (t - self.T_lo), lambda t: h1 + c1 * (t - self.T_hi))
-        return out.reshape(Ta.shape)
-
-    def s(self, T):
-        if isinstance(T, _SCALARS):
-            return self._s1(float(T))
-        Ta = np.asarray(T, float)
-        x = Ta.ravel()
-        i, u = self._locate(x)
-        C = self._sC[i]
-        out = C[:, 0] + u * (C[:, 1] + u * (C[:, 2] + u * C[:, 3]))
-        (s0, s1), (c0, c1) = self._s_end, self._cp_end
-        out = self._ends(out, x, lambda t: s0 + c0 * np.log(t / self.T_lo), lambda t: s1 + c1 * np.log(t / self.T_hi))
-        return out.reshape(Ta.shape)
+        return C[..., 0] + u * (C[..., 1] + u * (C[..., 2] + u * C[..., 3]))
 
     def cp(self, T):
         if isinstance(T, _SCALARS):
             return self._cp1(float(T))
         Ta = np.asarray(T, float)
-        x = Ta.ravel()
-        i, u = self._locate(x)
+        i, u = self._rows(Ta)
         C = self._hC[i]
-        out = (C[:, 1] + u * (2.0 * C[:, 2] + 3.0 * u * C[:, 3])) * self._inv_d[i]
-        c0, c1 = self._cp_end
-        out = self._ends(out, x, lambda t: np.full(t.shape, c0), lambda t: np.full(t.shape, c1))
-        return out.reshape(Ta.shape)
+        return (C[..., 1] + u * (2.0 * C[..., 2] + 3.0 * u * C[..., 3])) * self._inv_d[i]
+
+    def s(self, T):
+        if isinstance(T, _SCALARS):
+            return self._s1(float(T))
+        Ta = np.asarray(T, float)
+        i, u = self._rows(Ta)
+        C = self._sC[i]
+        out = C[..., 0] + u * (C[..., 1] + u * (C[..., 2] + u * C[..., 3]))
+        lo, hi = i == 0, i == self._Tn.size
+        if lo.any():
+            out[lo] = self._s_end[0] + self._cp_end[0] * np.log(Ta[lo] / self.T_lo)
+        if hi.any():
+            out[hi] = self._s_end[1] + self._cp_end[1] * np.log(Ta[hi] / self.T_hi)
+        return out
 
     def T(self, h):
         if isinstance(h, _SCALARS):
             return self._T1(float(h))
-        ha = np.asarray(h, float)
-        y = ha.ravel()
-        hn = self._hn
-        yc = np.clip(y, hn[0], hn[-1])
-        i = np.searchsorted(hn, yc, side="right") - 1
-        np.clip(i, 0, self._d.size - 1, out=i)
+        y = np.asarray(h, float)
+        i = np.searchsorted(self._hn, y, side="right")
+        inv_d = self._inv_d[i]
+        v = (y - self._hb[i]) * self._inv_dh[i]
+        G = self._TC[i]
+        u = (G[..., 1] + v * (G[..., 2] + v * G[..., 3])) * v * inv_d
         C = self._hC[i]
-        c0, c1, c2, c3 = C[:, 0], C[:, 1], C[:, 2], C[:, 3]
-        u = (yc - c0) / (hn[i + 1] - c0)
+        c0, c1, c2, c3 = C[..., 0], C[..., 1], C[..., 2], C[..., 3]
         for _ in range(12):
-            if u.size == 0:
-                break
-            du = (c0 + u * (c1 + u * (c2 + u * c3)) - yc) / (c1 + u * (2.0 * c2 + 3.0 * u * c3))
+            du = (c0 + u * (c1 + u * (c2 + u * c3)) - y) / (c1 + u * (2.0 * c2 + 3.0 * u * c3))
             u -= du
-            if np.max(np.abs(du)) < 1e-13:
+            if du.size == 0 or np.abs(du).max() < _NEWTON_STOP:
                 break
-        out = self._T[i] + u * self._d[i]
-        (h0, h1), (cp0, cp1) = self._h_end, self._cp_end
-        lo, hi = y < hn[0], y > hn[-1]
-        if lo.any():
-            out[lo] = self.T_lo + (y[lo] - h0) / cp0
-        if hi.any():
-            out[hi] = self.T_hi + (y[hi] - h1) / cp1
-        return out.reshape(ha.shape)
+        return self._Tb[i] + u / inv_d
 
 
 class _IsobarCurve:
@@ -866,8 +860,9 @@ class FluidSource(_CurveStream):
 
     fluid: CoolProp name; inlet_quality: None for a single-phase inlet at (p_Pa, T_in_K), or the
     vapour quality 0..1 of a saturated inlet (e.g. 1 for condensing steam); then T_in_K must be
-    the saturation temperature at p_Pa (within 0.05 K), and p_Pa may be None to take it from
-    T_in_K. The curve includes the latent plateau: see the module notes on h_J_kg(T_sat).
+    the saturation temperature at p_Pa (within 0.05 K; T_in_K is then reset to the exact T_sat),
+    and p_Pa may be None to take it from T_in_K. The curve includes the latent plateau: see the
+    module notes on h_J_kg(T_sat); use h_in_J_kg for the inlet enthalpy.
     """
 
     fluid: str
@@ -924,6 +919,8 @@ class FluidSource(_CurveStream):
         if x is None:
             self._set_curve(curve)
         else:
+            # A saturated inlet sits exactly on the plateau: T_in_K becomes the T_sat of the table.
+            object.__setattr__(self, "T_in_K", curve.T_sat)
             self._set_curve(curve, curve.hL + x * (curve.hV - curve.hL), curve.sL + x * (curve.sV - curve.sL))
 
     @property

@@ -344,6 +344,7 @@ def test_condensing_steam_latent_plateau():
     steam = S.FluidSource("Water", liq.T, 3.0, 101325.0, inlet_quality=1.0)
     T_sat = steam.T_sat_K
     assert T_sat == pytest.approx(liq.T, abs=0.01)
+    assert steam.T_in_K == T_sat  # a saturated inlet sits exactly on the plateau
     h_fg = steam.h_in_J_kg - steam.h_J_kg(T_sat)  # h(T_sat) is the saturated liquid (conservative)
     assert h_fg == pytest.approx((vap.h - liq.h) * 1e3, rel=5e-4)
     plateau = np.linspace(steam.h_J_kg(T_sat), steam.h_in_J_kg, 11)
