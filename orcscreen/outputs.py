@@ -20,6 +20,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
+from orcscreen.api import ROW_COLUMNS  # the engine's row columns, contract section 2
 from orcscreen.store import RunStore
 
 __all__ = [
@@ -36,22 +37,6 @@ __all__ = [
 RANKING_FILE = "ranking.csv"
 RUN_INFO_FILE = "run-info.json"
 FLOAT_FORMAT = "%.6g"
-
-#: Result row columns in contract order (section 2).
-ROW_COLUMNS: tuple[str, ...] = (
-    "fluid", "display_name", "layout", "status", "reason",
-    "net_power_kW", "turbine_power_kW", "pump_power_kW", "aux_power_kW", "heat_input_kW",
-    "heat_rejected_kW", "recuperator_duty_kW", "thermal_efficiency", "exergy_efficiency",
-    "carnot_efficiency", "heat_recovery_factor", "total_efficiency", "source_exergy_kW",
-    "evaporation_pressure_bar", "evaporation_temperature_C", "reduced_pressure",
-    "condensing_pressure_bar", "condensing_temperature_C", "superheat_K",
-    "turbine_inlet_temperature_C", "turbine_outlet_temperature_C", "turbine_outlet_quality",
-    "wf_mass_flow_kg_s", "sink_mass_flow_kg_s", "source_outlet_temperature_C", "pinch_location",
-    "pinch_evaporator_K", "pinch_condenser_K", "pinch_recuperator_K", "ua_evaporator_kW_K",
-    "ua_condenser_kW_K", "ua_recuperator_kW_K", "ua_total_kW_K", "size_parameter_m",
-    "volume_ratio", "turbine_efficiency", "binding_limit", "sub_atmospheric_condenser",
-    "family", "safety_class", "gwp100", "odp", "curve_type", "evaluations", "elapsed_s",
-)
 
 #: Row columns left out of ranking.csv: run timings, which differ from run to run.
 TIMING_COLUMNS = ("elapsed_s",)

@@ -32,7 +32,7 @@ from collections.abc import Iterable, Iterator, Mapping
 from datetime import datetime, timezone
 from importlib import metadata
 from pathlib import Path
-from typing import Any
+from typing import Any, NamedTuple
 
 import pandas as pd
 
@@ -44,6 +44,8 @@ __all__ = [
     "StoreLockedError",
     "StoreNotFoundError",
     "RunStore",
+    "EncodedCase",
+    "encode_case",
     "orcscreen_version",
     "to_json",
 ]
@@ -119,6 +121,42 @@ def to_json(value: Any) -> str:
 def _status_of(row: Mapping[str, Any]) -> str:
     status = row.get("status")
     return str(status) if status else "failed"
+
+
+class EncodedCase(NamedTuple):
+    """One finished case as it is written to table ``cases`` (JSON already encoded)."""
+
+    case_key: str
+    case_index: int | None
+    fluid: str | None
+    layout: str | None
+    sweep: str
+    status: str
+    reason: str
+    row: str
+    detail: str
+    elapsed_s: float | None
+    finished_at: str
+
+
+def encode_case(key: str, index: int | None, result: Mapping[str, Any],
+                sweep: Mapping[str, Any] | None = None,
+                elapsed_s: float | None = None) -> EncodedCase:
+    """Encode one finished case for the store (arguments as in :meth:`RunStore.put`).
+
+    Raises TypeError for a value that has no JSON form.
+    """
+    row = dict(result["row"])
+    if sweep is None:
+        sweep = result.get("sweep") or {}
+    if elapsed_s is None:
+        elapsed_s = result.get("elapsed_s", row.get("elapsed_s"))
+    if elapsed_s is not None and not math.isfinite(float(elapsed_s)):
+        elapsed_s = None
+    return EncodedCase(key, index, row.get("fluid"), row.get("layout"), to_json(dict(sweep)),
+                       _status_of(row), str(row.get("reason") or ""), to_json(row),
+                       to_json(result.get("detail")),
+                       None if elapsed_s is None else float(elapsed_s), _now())
 
 
 class RunStore:
@@ -241,22 +279,6 @@ class RunStore:
                                   [(k, to_json(v)) for k, v in entries.items()])
 
     # -- writing ------------------------------------------------------------------------------
-    @staticmethod
-    def _record(key: str, index: int | None, result: Mapping[str, Any],
-                sweep: Mapping[str, Any] | None = None, elapsed_s: float | None = None) -> tuple:
-        row = dict(result["row"])
-        if sweep is None:
-            sweep = result.get("sweep") or {}
-        if elapsed_s is None:
-            elapsed_s = result.get("elapsed_s", row.get("elapsed_s"))
-        if elapsed_s is not None and not math.isfinite(float(elapsed_s)):
-            elapsed_s = None
-        return (key, index, row.get("fluid"), row.get("layout"),
-                to_json(dict(sweep)),
-                _status_of(row), str(row.get("reason") or ""), to_json(row),
-                to_json(result.get("detail")), None if elapsed_s is None else float(elapsed_s),
-                _now())
-
     def put(self, key: str, index: int | None, result: Mapping[str, Any], *,
             sweep: Mapping[str, Any] | None = None, elapsed_s: float | None = None) -> None:
         """Store one finished case and commit at once.
@@ -274,7 +296,12 @@ class RunStore:
         Each record is ``(key, index, result)`` optionally followed by ``sweep`` and
         ``elapsed_s`` as in :meth:`put`.
         """
-        rows = [self._record(*rec) for rec in records]
+        return self.put_encoded([encode_case(*rec) for rec in records])
+
+    def put_encoded(self, cases: Iterable[EncodedCase]) -> int:
+        """Store cases already encoded with :func:`encode_case` (e.g. by a worker process, which
+        spares the driver the JSON work) in one transaction; returns how many."""
+        rows = [tuple(c) for c in cases]
         if rows:
             with self._transaction() as conn:
                 conn.executemany(

@@ -13,13 +13,11 @@ from __future__ import annotations
 
 import json
 import math
-import os
 import signal
 import sqlite3
 import subprocess
 import sys
 import textwrap
-import time
 
 import numpy as np
 import pandas as pd
@@ -29,7 +27,6 @@ from orcscreen.outputs import (
     RANKING_FILE,
     ROW_COLUMNS,
     RUN_INFO_FILE,
-    ranking_table,
     top_table,
     write_outputs,
 )

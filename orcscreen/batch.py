@@ -1,0 +1,465 @@
+"""Run the cases of a study in parallel and write each finished case to the run store.
+
+Orchestration only: the physics is ``orcscreen.api.run_case``. The cases are sent to joblib
+worker processes (or, with ``cluster=ADDRESS``, to a Dask distributed cluster through joblib's
+Dask backend) in *chunks* of consecutive cases, and the chunks come back as they finish
+(``return_as="generator_unordered"``); each returned chunk is committed to the store at once, so
+memory does not grow with the number of cases and a killed run loses only the chunks in flight.
+
+Chunk size: joblib's loky backend costs about 0.2-0.3 ms per task on this machine (measured with
+empty tasks, ``batch_size=1``, 2 workers), small against a case of a few ms to a few hundred
+ms, but a per-task store commit and the result transfer add to it. Chunks are sized so that one
+takes about :data:`TARGET_CHUNK_S` of work (from the mean case time measured so far), between 1
+and :data:`MAX_CHUNK` cases, and never more than a quarter of the pending cases per worker, so
+that every worker stays busy to the end.
+
+Resume: a case whose key is in the store is not computed again; a changed study computes only
+its new keys. Failure isolation: any exception raised while a case runs, and a case that exceeds
+its time limit (``study.case_time_limit_s``, default 60 s), become status "failed" with the
+message; the batch goes on.
+"""
+
+from __future__ import annotations
+
+import contextlib
+import ctypes
+import math
+import os
+import signal
+import sys
+import threading
+import time
+from collections.abc import Iterable, Iterator, Mapping
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+from orcscreen.outputs import ROW_COLUMNS, write_outputs
+from orcscreen.store import EncodedCase, RunStore, encode_case, orcscreen_version
+
+__all__ = [
+    "TARGET_CHUNK_S",
+    "MAX_CHUNK",
+    "DEFAULT_TIME_LIMIT_S",
+    "BatchError",
+    "ClusterError",
+    "CaseTimeLimitExceeded",
+    "RunSummary",
+    "run_study",
+    "run_cases",
+    "failed_row",
+]
+
+TARGET_CHUNK_S = 0.5
+MAX_CHUNK = 50
+DEFAULT_TIME_LIMIT_S = 60.0
+PLAIN_PROGRESS_EVERY_S = 5.0
+STATUSES = ("ok", "infeasible", "failed")
+
+
+class BatchError(RuntimeError):
+    """A batch cannot start or go on; the message says why."""
+
+
+class ClusterError(BatchError):
+    """The Dask cluster is not available (extra not installed, scheduler unreachable...)."""
+
+
+class CaseTimeLimitExceeded(BaseException):
+    """Raised inside a case that runs past its time limit.
+
+    A BaseException, so that the engine's own ``except Exception`` handlers do not swallow it.
+    """
+
+
+@dataclass(frozen=True)
+class RunSummary:
+    """What one call of :func:`run_study` did.
+
+    ok / infeasible / failed count the cases computed by this call, skipped the cases found in
+    the store already; ``store_counts`` is the status count of all current cases in the store;
+    wall_time_s [s] the wall time of the call.
+    """
+
+    out_dir: Path
+    total: int
+    ok: int
+    infeasible: int
+    failed: int
+    skipped: int
+    wall_time_s: float
+    jobs: int
+    tasks: int
+    max_chunk: int
+    store_counts: dict[str, int] = field(default_factory=dict)
+
+    @property
+    def computed(self) -> int:
+        """Cases computed by this call."""
+        return self.ok + self.infeasible + self.failed
+
+    def __str__(self) -> str:
+        done = ", ".join(f"{s} {self.store_counts.get(s, 0)}" for s in STATUSES)
+        return (f"{self.total} cases ({done}); computed {self.computed} now "
+                f"(ok {self.ok}, infeasible {self.infeasible}, failed {self.failed}), "
+                f"{self.skipped} already in the store; {self.wall_time_s:.1f} s")
+
+
+# -- inside the worker ------------------------------------------------------------------------
+
+_ENGINE_LOCK = threading.Lock()  # one case at a time per process when workers are threads
+
+
+def failed_row(case: Mapping[str, Any], reason: str, elapsed_s: float | None = None) -> dict:
+    """A contract row (section 2) for a case that could not be computed."""
+    row = dict.fromkeys(ROW_COLUMNS)
+    row.update(fluid=case.get("fluid"), layout=case.get("layout"), status="failed",
+               reason=reason, elapsed_s=elapsed_s)
+    return row
+
+
+@contextlib.contextmanager
+def _time_limit(seconds: float | None) -> Iterator[None]:
+    """Raise :class:`CaseTimeLimitExceeded` in the running code after ``seconds`` [s].
+
+    Main thread (joblib processes, serial runs): SIGALRM from ``setitimer``. Other threads (Dask
+    workers run tasks in threads): an asynchronous exception set on the thread by a timer, which
+    Python delivers between bytecodes (not inside one long call into compiled code).
+    """
+    if seconds is None or not math.isfinite(seconds) or seconds <= 0:
+        yield
+        return
+    if threading.current_thread() is threading.main_thread() and hasattr(signal, "setitimer"):
+        def on_alarm(signum, frame):
+            raise CaseTimeLimitExceeded
+
+        previous = signal.signal(signal.SIGALRM, on_alarm)
+        signal.setitimer(signal.ITIMER_REAL, seconds)
+        try:
+            yield
+        finally:
+            signal.setitimer(signal.ITIMER_REAL, 0)
+            signal.signal(signal.SIGALRM, previous)
+        return
+    thread_id = ctypes.c_ulong(threading.get_ident())
+    guard = threading.Lock()
+    state = {"active": True, "fired": False}
+
+    def expire() -> None:
+        with guard:
+            if state["active"]:
+                state["fired"] = True
+                ctypes.pythonapi.PyThreadState_SetAsyncExc(
+                    thread_id, ctypes.py_object(CaseTimeLimitExceeded))
+
+    timer = threading.Timer(seconds, expire)
+    timer.daemon = True
+    timer.start()
+    try:
+        yield
+    finally:
+        with guard:
+            state["active"] = False
+            timer.cancel()
+            if state["fired"]:  # withdraw an exception not yet delivered
+                ctypes.pythonapi.PyThreadState_SetAsyncExc(thread_id, None)
+
+
+def _run_one(case: Mapping[str, Any], time_limit_s: float | None) -> tuple[dict, float]:
+    """Run one case, never raising for the case's own failure; returns (result, wall time [s])."""
+    from orcscreen import api  # imported here: the worker process imports it once
+
+    start = time.perf_counter()
+    try:
+        try:
+            with _time_limit(time_limit_s):
+                result = api.run_case(case)
+        except CaseTimeLimitExceeded:
+            elapsed = time.perf_counter() - start
+            return {"row": failed_row(case, f"time limit of {time_limit_s:g} s exceeded",
+                                      elapsed), "detail": None}, elapsed
+    except CaseTimeLimitExceeded:  # the alarm went off while the first handler ran
+        elapsed = time.perf_counter() - start
+        return {"row": failed_row(case, f"time limit of {time_limit_s:g} s exceeded", elapsed),
+                "detail": None}, elapsed
+    except Exception as exc:  # noqa: BLE001 - failure isolation: record and go on
+        elapsed = time.perf_counter() - start
+        return {"row": failed_row(case, f"{type(exc).__name__}: {exc}", elapsed),
+                "detail": None}, elapsed
+    elapsed = time.perf_counter() - start
+    if not isinstance(result, Mapping) or not isinstance(result.get("row"), Mapping):
+        return {"row": failed_row(case, f"engine returned {type(result).__name__}, not a "
+                                  "result with a row", elapsed), "detail": None}, elapsed
+    return {"row": dict(result["row"]), "detail": result.get("detail")}, elapsed
+
+
+def _run_chunk(tasks: list[tuple[int, str, dict]], time_limit_s: float | None) -> list[EncodedCase]:
+    """Worker task: run the cases of one chunk; returns them encoded for the store (the JSON
+    work is done here, in parallel, not in the driver)."""
+    threaded = threading.current_thread() is not threading.main_thread()
+    records = []
+    for index, key, case in tasks:
+        limit = time_limit_s
+        if limit is None:
+            limit = float(case.get("study", {}).get("case_time_limit_s", DEFAULT_TIME_LIMIT_S))
+        # The property layer caches one CoolProp state per process: not for concurrent threads.
+        with _ENGINE_LOCK if threaded else contextlib.nullcontext():
+            result, elapsed = _run_one(case, limit)
+        try:
+            records.append(encode_case(key, index, result, case.get("sweep") or {}, elapsed))
+        except TypeError as exc:  # a value without a JSON form: record it, do not lose the chunk
+            result = {"row": failed_row(case, f"result cannot be stored: {exc}", elapsed),
+                      "detail": None}
+            records.append(encode_case(key, index, result, case.get("sweep") or {}, elapsed))
+    return records
+
+
+def _worker_versions() -> tuple[str, str]:
+    from orcscreen.properties import coolprop_version
+
+    return orcscreen_version(), coolprop_version()
+
+
+# -- in the driver ----------------------------------------------------------------------------
+
+class _ChunkSizer:
+    """Chunk size from the mean case time measured so far (see module docstring)."""
+
+    def __init__(self, pending: int, workers: int) -> None:
+        self.cap = max(1, min(MAX_CHUNK, math.ceil(pending / (4 * workers))))
+        self.case_s = 0.0
+        self.cases = 0
+        self.largest = 0
+
+    def observe(self, elapsed: Iterable[float]) -> None:
+        for e in elapsed:
+            self.case_s += e
+            self.cases += 1
+
+    def size(self) -> int:
+        if self.cases == 0:
+            n = min(self.cap, 4)
+        else:
+            mean = max(self.case_s / self.cases, 1e-6)
+            n = max(1, min(self.cap, round(TARGET_CHUNK_S / mean)))
+        self.largest = max(self.largest, n)
+        return n
+
+
+class _Progress:
+    """tqdm bar on a terminal, else a plain line at most every PLAIN_PROGRESS_EVERY_S."""
+
+    def __init__(self, total: int, skipped: int, enabled: bool, stream=None) -> None:
+        self.stream = stream or sys.stderr
+        self.total, self.skipped = total, skipped
+        self.counts = dict.fromkeys(STATUSES, 0)
+        self.done = 0
+        self.start = time.monotonic()
+        self.last_line = -math.inf
+        self.bar = None
+        self.enabled = enabled and total > 0
+        if self.enabled and getattr(self.stream, "isatty", lambda: False)():
+            from tqdm import tqdm
+
+            self.bar = tqdm(total=total, unit="case", desc="cases", file=self.stream,
+                            dynamic_ncols=True, smoothing=0.1)
+
+    def update(self, statuses: list[str]) -> None:
+        for s in statuses:
+            self.counts[s] = self.counts.get(s, 0) + 1
+        self.done += len(statuses)
+        if not self.enabled:
+            return
+        if self.bar is not None:
+            self.bar.set_postfix({s: self.counts[s] for s in STATUSES}, refresh=False)
+            self.bar.update(len(statuses))
+        elif time.monotonic() - self.last_line >= PLAIN_PROGRESS_EVERY_S:
+            self._line()
+
+    def _line(self) -> None:
+        self.last_line = now = time.monotonic()
+        rate = self.done / max(now - self.start, 1e-9)
+        left = (self.total - self.done) / rate if rate > 0 else math.inf
+        eta = "" if not math.isfinite(left) or self.done == self.total else \
+            f", about {_duration(left)} left"
+        tally = ", ".join(f"{s} {self.counts[s]}" for s in STATUSES)
+        print(f"[orcscreen] {self.done}/{self.total} cases computed ({tally}), "
+              f"{rate:.1f} cases/s{eta}", file=self.stream, flush=True)
+
+    def close(self) -> None:
+        if self.bar is not None:
+            self.bar.close()
+        elif self.enabled and self.done:
+            self._line()
+
+
+def _duration(seconds: float) -> str:
+    seconds = int(round(seconds))
+    if seconds < 60:
+        return f"{seconds} s"
+    minutes, seconds = divmod(seconds, 60)
+    if minutes < 60:
+        return f"{minutes} min {seconds:02d} s"
+    hours, minutes = divmod(minutes, 60)
+    return f"{hours} h {minutes:02d} min"
+
+
+@contextlib.contextmanager
+def _backend(cluster: str | None) -> Iterator[None]:
+    """joblib's default backend, or the Dask backend on a client of ``cluster``."""
+    if cluster is None:
+        yield
+        return
+    try:
+        import joblib
+        from distributed import Client
+    except ImportError:
+        raise ClusterError("--cluster needs the optional Dask extra, which is not installed: "
+                           "pip install 'orcscreen[cluster]'") from None
+    try:
+        client = Client(cluster, timeout="20s")
+    except (OSError, TimeoutError, ValueError) as exc:
+        raise ClusterError(f"cannot connect to the Dask scheduler at {cluster!r}: {exc}") from None
+    with client:
+        mine = _worker_versions()
+        theirs = client.run(_worker_versions)
+        if not theirs:
+            raise ClusterError(f"the Dask cluster at {cluster!r} has no workers")
+        wrong = {w: v for w, v in theirs.items() if tuple(v) != mine}
+        if wrong:
+            listed = "; ".join(f"{w}: orcscreen {v[0]}, CoolProp {v[1]}" for w, v in wrong.items())
+            raise ClusterError(f"Dask workers run other versions than this machine (orcscreen "
+                               f"{mine[0]}, CoolProp {mine[1]}): {listed}")
+        with joblib.parallel_config(backend="dask"):
+            yield
+
+
+def run_cases(tasks: Iterable[tuple[int, str, dict]], store: RunStore, *, pending: int,
+              jobs: int, cluster: str | None = None, time_limit_s: float | None = None,
+              progress: _Progress | None = None) -> tuple[dict[str, int], int, int]:
+    """Run ``(index, key, case)`` tasks (``pending`` of them) and store every finished case.
+
+    Returns (status counts of the computed cases, number of worker tasks, largest chunk).
+    """
+    from joblib import Parallel, delayed
+
+    counts = dict.fromkeys(STATUSES, 0)
+    if pending == 0:
+        return counts, 0, 0
+    workers = jobs if cluster is None else max(jobs, 1)
+    sizer = _ChunkSizer(pending, workers)
+
+    def chunks() -> Iterator[list]:
+        chunk: list = []
+        want = sizer.size()
+        for task in tasks:
+            chunk.append(task)
+            if len(chunk) >= want:
+                yield chunk
+                chunk, want = [], sizer.size()
+        if chunk:
+            yield chunk
+
+    n_tasks = 0
+    with _backend(cluster):
+        n_jobs = -1 if cluster is not None else min(jobs, pending)
+        parallel = Parallel(n_jobs=n_jobs, return_as="generator_unordered", batch_size=1,
+                            pre_dispatch="2*n_jobs")
+        for records in parallel(delayed(_run_chunk)(c, time_limit_s) for c in chunks()):
+            store.put_encoded(records)
+            n_tasks += 1
+            statuses = [rec.status for rec in records]
+            for s in statuses:
+                counts[s] = counts.get(s, 0) + 1
+            sizer.observe(rec.elapsed_s or 0.0 for rec in records)
+            if progress is not None:
+                progress.update(statuses)
+    return counts, n_tasks, sizer.largest
+
+
+def _study_dict(study: Any) -> Any:
+    """The study as a JSON-able dict for the store's meta (sections, sweep, resolved fluids)."""
+    if not hasattr(study, "model_dump"):
+        return None
+    body = study.model_dump(mode="json", by_alias=True)
+    body["sweep"] = dict(getattr(study, "sweep_spec", {}) or {})
+    body["resolved_fluids"] = list(getattr(study, "fluids", ()) or ())
+    return body
+
+
+def run_study(study: Any, out_dir: str | os.PathLike[str], jobs: int | None = None,
+              cluster: str | None = None, progress: bool = True,
+              time_limit_s: float | None = None, *, retry_failed: bool = False,
+              write_tables: bool = True) -> RunSummary:
+    """Compute every case of ``study`` not yet in ``out_dir/run.sqlite``, then (by default)
+    regenerate ``ranking.csv`` and ``run-info.json``.
+
+    jobs: worker processes (default all cores, ``os.cpu_count()``; ignored with a cluster).
+    cluster: address of a Dask scheduler (``tcp://host:8786``), needs ``orcscreen[cluster]``.
+    progress: show a progress bar (terminal) or plain progress lines on stderr.
+    time_limit_s [s]: per-case limit overriding the study's ``case_time_limit_s``.
+    retry_failed: compute stored cases with status "failed" again.
+
+    Raises StoreLockedError when another run holds ``out_dir``, ClusterError for an unusable
+    cluster, ValueError for jobs < 1.
+    """
+    from orcscreen.properties import coolprop_version
+    from orcscreen.study import case_key, study_hash
+
+    start = time.perf_counter()
+    if jobs is None:
+        jobs = os.cpu_count() or 1
+    if int(jobs) < 1:
+        raise ValueError(f"jobs must be a whole number >= 1, got {jobs!r}")
+    jobs = int(jobs)
+    out_dir = Path(out_dir)
+    with RunStore(out_dir, lock=True) as store:
+        keys: list[str] = []
+        layouts: list[tuple[str, str]] = []  # (fluid, layout) per case: a cheap order check
+        name = None
+        for case in study.cases():
+            if name is None:
+                name = case.get("study", {}).get("name")
+            keys.append(case_key(case))
+            layouts.append((case.get("fluid"), case.get("layout")))
+        store.set_plan(keys)
+        store.set_meta(orcscreen_version=orcscreen_version(), coolprop_version=coolprop_version(),
+                       study_hash=study_hash(study), study_name=name or getattr(study, "name", None),
+                       study=_study_dict(study), cases=len(set(keys)))
+        done = store.done_keys()
+        if retry_failed:
+            done -= store.failed_keys()
+        todo = {k for k in keys if k not in done}
+        skipped = len(set(keys)) - len(todo)
+
+        def tasks() -> Iterator[tuple[int, str, dict]]:
+            # Second pass over the (deterministic) expansion; the keys of the first pass are
+            # reused, as computing a key costs far more than expanding a case.
+            seen: set[str] = set()
+            n = -1
+            for n, case in enumerate(study.cases()):
+                key = keys[n] if n < len(keys) else None
+                if key is None or (case.get("fluid"), case.get("layout")) != layouts[n]:
+                    raise BatchError("the study yielded other cases the second time; case "
+                                     "expansion must be deterministic")
+                if key in todo and key not in seen:
+                    seen.add(key)
+                    yield n, key, case
+            if n + 1 != len(keys):
+                raise BatchError("the study yielded fewer cases the second time; case "
+                                 "expansion must be deterministic")
+
+        bar = _Progress(len(todo), skipped, progress)
+        try:
+            counts, n_tasks, largest = run_cases(
+                tasks(), store, pending=len(todo), jobs=jobs, cluster=cluster,
+                time_limit_s=time_limit_s, progress=bar)
+        finally:
+            bar.close()
+        store.set_meta(last_run_s=round(time.perf_counter() - start, 3))
+        if write_tables:
+            write_outputs(out_dir, store)
+        return RunSummary(out_dir=out_dir, total=len(set(keys)), ok=counts.get("ok", 0),
+                          infeasible=counts.get("infeasible", 0), failed=counts.get("failed", 0),
+                          skipped=skipped, wall_time_s=time.perf_counter() - start, jobs=jobs,
+                          tasks=n_tasks, max_chunk=largest, store_counts=store.counts())
