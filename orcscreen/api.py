@@ -248,7 +248,10 @@ def run_case(case: dict) -> dict:
         if isinstance(opt, tuple):
             _, reason, n = opt
             return {"row": _nan_row(case, info, "infeasible", reason, time.perf_counter() - t0, n), "detail": None}
-        detail = _detail(fluid, source, sink, opt.cycle, opt)
+        try:
+            detail = _detail(fluid, source, sink, opt.cycle, opt)
+        except PropertyError as exc:  # chart data only: the result itself stands
+            detail = {"error": f"detail not available: {exc}"}
         row = _row(case, info, fluid, source, sink, opt.cycle, opt.binding_limit, opt.evaluations, time.perf_counter() - t0)
         return {"row": row, "detail": detail}
     except (PropertyError, ValueError, ArithmeticError) as exc:

@@ -231,15 +231,15 @@ def _recuperate(fluid, s, sat_c, sat_e, st2: State, st4: State, exact: bool):
         return 0.0, st2, st4, False
     p_c, p_e = sat_c.p_Pa, sat_e.p_Pa
     # hot side cooled to the cold inlet temperature: the ideal duty (vapour side is C_min)
-    h4_at_T2 = fluid.state_pT(p_c, st2.T_K).h if st2.T_K > sat_c.T_K + 1e-6 else sat_c.hV
+    h4_at_T2 = fluid.state_pT(p_c, st2.T_K, "gas").h if st2.T_K > sat_c.T_K + 1e-6 else sat_c.hV
     q = s.recuperator_effectiveness * (st4.h - max(h4_at_T2, sat_c.hV))
     # cold end: hot outlet at least T2 + pinch, and not below the dew point (no condensing here)
     T4r_min = st2.T_K + dT
-    h4r_min = fluid.state_pT(p_c, T4r_min).h if T4r_min > sat_c.T_K else sat_c.hV
+    h4r_min = fluid.state_pT(p_c, T4r_min, "gas").h if T4r_min > sat_c.T_K else sat_c.hV
     q = min(q, st4.h - max(h4r_min, sat_c.hV))
     # hot end: cold outlet at most T4 - pinch, and still liquid (no boiling in the recuperator)
     T2r_max = st4.T_K - dT
-    h2r_max = fluid.state_pT(p_e, T2r_max).h if T2r_max < sat_e.T_K else sat_e.hL
+    h2r_max = fluid.state_pT(p_e, T2r_max, "liquid").h if T2r_max < sat_e.T_K else sat_e.hL
     q = min(q, min(h2r_max, sat_e.hL) - st2.h)
     if q <= 0.0:
         return 0.0, st2, st4, False
@@ -290,7 +290,7 @@ def _cold_side(fluid: Fluid, s: CycleSettings, recuperated: bool, sat_e, st3: St
     sat_c = fluid.sat_T(T_cond_K)
     p_c, p_e = sat_c.p_Pa, sat_e.p_Pa
     if s.subcooling_K > 0.0:
-        st1 = fluid.state_pT(p_c, T_cond_K - s.subcooling_K)
+        st1 = fluid.state_pT(p_c, T_cond_K - s.subcooling_K, "liquid")
     else:
         st1 = State(T_cond_K, p_c, sat_c.hL, sat_c.sL, sat_c.vL, 0.0)
     st2s = fluid.state_ps(p_e, st1.s, "liquid", st1.T_K, st1.v)
@@ -477,7 +477,7 @@ def _evaluate(fluid, source, sink, s, layout, T_evap_K, superheat_K, exact, T_co
     if s.max_turbine_inlet_temperature_K is not None and T3 > s.max_turbine_inlet_temperature_K + 1e-9:
         raise CycleInfeasible("thermal stability", f"turbine inlet {_C(T3)} is above the thermal-stability limit of {fluid.name} ({_C(s.max_turbine_inlet_temperature_K)})")
     if superheat_K > 1e-12:
-        st3 = fluid.state_pT(sat_e.p_Pa, T3)
+        st3 = fluid.state_pT(sat_e.p_Pa, T3, "gas")
     else:
         st3 = State(T_evap_K, sat_e.p_Pa, sat_e.hV, sat_e.sV, sat_e.vV, 1.0)
 
@@ -501,7 +501,7 @@ def _evaluate(fluid, source, sink, s, layout, T_evap_K, superheat_K, exact, T_co
     h_path, T_path, labels = _evaporator_path(fluid, sat_e, st2r, st3, n, exact)
     if m_wf_fixed is not None:
         return _fixed_flow_result(fluid, s, layout, sat_e, cs, st3, m_wf_fixed, known)
-    hs_in = float(source.h_J_kg(source.T_in_K))
+    hs_in = float(source.h_in_J_kg)
     hs_at = source.h_J_kg(T_path + s.pinch_evaporator_K)
     m_wf, j = max_flow_for_pinch(h_path, T_path, st3.h, hs_in, hs_at, source.m_kg_s)
     location = labels[j]
@@ -653,5 +653,13 @@ def saturation_dome(fluid: Fluid, T_low_K: float, n: int = 60) -> tuple[list[flo
     T_top = fluid.T_crit_K * (1.0 - 1e-5)
     u = np.linspace(0.0, 1.0, n)
     T = T_lo + (T_top - T_lo) * (1.0 - (1.0 - u) ** 2)
-    sats = [fluid.sat_T(float(t)) for t in T]
-    return [float(t) for t in T], [x.sL for x in sats], [x.sV for x in sats]
+    T_ok, sL, sV = [], [], []
+    for t in T:
+        try:
+            sat = fluid.sat_T(float(t))
+        except PropertyError:  # some equations of state fail very close to the critical point
+            continue
+        T_ok.append(float(t))
+        sL.append(sat.sL)
+        sV.append(sat.sV)
+    return T_ok, sL, sV

@@ -219,9 +219,20 @@ class Fluid:
                 return st
         return self._state(CP.HmassP_INPUTS, h, p_Pa, f"p = {p_Pa / 1e5:.6g} bar, h = {h:.6g} J/kg")
 
-    def state_pT(self, p_Pa: float, T_K: float) -> State:
-        """Single-phase state at pressure p_Pa [Pa] and temperature T_K [K]."""
-        return self._state(CP.PT_INPUTS, p_Pa, T_K, f"p = {p_Pa / 1e5:.6g} bar, T = {T_K - 273.15:.6g} °C")
+    def state_pT(self, p_Pa: float, T_K: float, phase: str | None = None) -> State:
+        """Single-phase state at pressure p_Pa [Pa] and temperature T_K [K].
+
+        phase ("liquid" or "gas"), when the caller knows it, is imposed: this skips the phase
+        search and stays reliable right next to the saturation curve.
+        """
+        what = f"p = {p_Pa / 1e5:.6g} bar, T = {T_K - 273.15:.6g} °C"
+        if phase is None:
+            return self._state(CP.PT_INPUTS, p_Pa, T_K, what)
+        self._AS.specify_phase(_PHASES[phase])
+        try:
+            return self._state(CP.PT_INPUTS, p_Pa, T_K, what)
+        finally:
+            self._AS.unspecify_phase()
 
     def state_Tq(self, T_K: float, q: float) -> State:
         """Two-phase state at temperature T_K [K] and quality q [-]."""
