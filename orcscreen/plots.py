@@ -529,8 +529,7 @@ def best_fluid_map(df: pd.DataFrame, x: str, y: str, ax: Axes | None = None,
                              f"{r.get('display_name') or r['fluid']}\n{r['layout']}\n{power}")
     ax = _new_axes(ax, 1.6 + (0.42 if numbered else 0.6) * len(ys))
     colours = [FILL_COLOURS[k % len(FILL_COLOURS)] for k in range(max(1, len(classes)))]
-    cmap = ListedColormap(colours)
-    cmap.set_bad("#F2F2F2")
+    cmap = ListedColormap(colours).with_extremes(bad="#F2F2F2")
     ax.imshow(np.ma.masked_invalid(grid), cmap=cmap, vmin=-0.5, vmax=len(colours) - 0.5,
               origin="lower", aspect="auto", interpolation="nearest", gid="map")
     for i in range(len(ys)):

@@ -1,0 +1,350 @@
+"""Tests of the charts (orcscreen/plots.py) and of the Pareto and best-per-point helpers
+(orcscreen/rank.py).
+
+The charts are checked against the data they draw, taken from a small real run of the engine
+(``orcscreen.api.run_case`` on a study of a few catalogue fluids): each chart must show exactly
+the numbers of the rows and details, in the stated units. Where the engine's numbers themselves
+have an outside reference, the test says so: the pinch marked on a T-Q diagram is compared with
+the pinch set in the study (DESIGN.md section 3: the working-fluid flow is the largest that keeps
+the evaporator pinch, and the condensing temperature the lowest that keeps the condenser pinch,
+so without a minimum source outlet temperature both settings are met exactly; common practice
+for pinch-limited screening).
+The Pareto tests use hand-made tables whose front was worked out by hand.
+"""
+
+from __future__ import annotations
+
+import math
+import re
+
+import matplotlib.image as mpimg
+import numpy as np
+import pandas as pd
+import pytest
+
+from orcscreen import plots, rank
+from orcscreen.api import run_case
+from orcscreen.study import study_from_dict
+
+UNIT = re.compile(r"\[[^\]]+\]$")
+
+# An invented scenario: 10 kg/s of hot water at 130 °C, cooling water at 20 °C (the study
+# defaults: 10 K evaporator pinch, 5 K condenser pinch).
+STUDY = {
+    "study": {"name": "plot test"},
+    "source": {"kind": "water", "inlet_temperature_C": 130, "mass_flow_kg_s": 10},
+    "fluids": {"include": ["R245fa", "Isobutane", "n-Pentane", "CarbonDioxide"]},
+    "cycle": {"layouts": ["basic", "recuperated"]},
+}
+PINCH_EVAPORATOR_K = 10.0
+PINCH_CONDENSER_K = 5.0
+
+
+def _run(study: dict) -> tuple[pd.DataFrame, dict]:
+    rows, details = [], {}
+    for n, case in enumerate(study_from_dict(study).cases()):
+        result = run_case(case)
+        row = {"case_key": f"case-{n}", **case["sweep"], **result["row"]}
+        rows.append(row)
+        details[row["case_key"]] = result["detail"]
+    return pd.DataFrame(rows), details
+
+
+@pytest.fixture(scope="module")
+def run():
+    df, details = _run(STUDY)
+    assert (df["status"] == "ok").sum() >= 4, df[["fluid", "layout", "status", "reason"]]
+    return df, details
+
+
+@pytest.fixture(scope="module")
+def sweep_run():
+    study = {**STUDY, "fluids": {"include": ["R245fa", "Isobutane"]},
+             "cycle": {"layouts": ["basic"]},
+             "sweep": {"source.inlet_temperature_C": [120, 140],
+                       "sink.inlet_temperature_C": [15, 25]}}
+    return _run(study)[0]
+
+
+def _best_ok(df: pd.DataFrame, layout: str | None = None) -> pd.Series:
+    ok = df[df["status"] == "ok"]
+    if layout:
+        ok = ok[ok["layout"] == layout]
+    return ok.loc[ok["net_power_kW"].idxmax()]
+
+
+def _assert_units(ax):
+    for label in (ax.get_xlabel(), ax.get_ylabel()):
+        if label:
+            assert UNIT.search(label), f"axis label without a unit: {label!r}"
+
+
+def _by_gid(artists, gid):
+    found = [a for a in artists if a.get_gid() == gid]
+    assert found, f"no artist with gid {gid!r}"
+    return found[0]
+
+
+# --------------------------------------------------------------------------- labels
+
+@pytest.mark.parametrize("column, expected", [
+    ("net_power_kW", "net power [kW]"),
+    ("ua_total_kW_K", "total UA (all exchangers) [kW/K]"),
+    ("size_parameter_m", "turbine size parameter SP [m]"),
+    ("source.inlet_temperature_C", "source inlet temperature [°C]"),
+    ("source.mass_flow_kg_s", "source mass flow [kg/s]"),
+    ("exchangers.pinch_evaporator_K", "exchangers pinch evaporator [K]"),
+    ("source.cp_kJ_kgK", "source cp [kJ/(kg·K)]"),
+    ("machines.turbine_efficiency", "machines turbine efficiency [-]"),
+])
+def test_axis_label_carries_the_unit_of_the_column_name(column, expected):
+    assert plots.axis_label(column) == expected
+
+
+# --------------------------------------------------------------------------- ranking
+
+def test_ranking_bars_best_first_with_class_and_gwp(run):
+    df, _ = run
+    ax = plots.ranking_chart(df)
+    ok = df[df["status"] == "ok"].sort_values("net_power_kW", ascending=False)
+    bars = sorted((p for p in ax.patches if (p.get_gid() or "").startswith("bar-")),
+                  key=lambda p: p.get_y())
+    # the y axis is inverted: the bar nearest y = 0 is drawn on top
+    assert ax.yaxis_inverted()
+    assert len(bars) == len(ok)
+    np.testing.assert_allclose([b.get_width() for b in bars], ok["net_power_kW"], rtol=1e-12)
+    labels = [t.get_text() for t in ax.get_yticklabels()]
+    assert labels == [plots.case_label(r) for _, r in ok.iterrows()]
+    for i, (_, r) in enumerate(ok.iterrows()):
+        note = _by_gid(ax.texts, f"bar-note-{i}").get_text()
+        assert f"{r['net_power_kW']:.1f} kW" in note
+        assert (r["safety_class"] or "class n/a") in note
+        gwp = r["gwp100"]
+        assert (f"GWP {gwp:.0f}" if gwp is not None and math.isfinite(gwp) else "GWP n/a") in note
+    # the infeasible carbon dioxide cases (critical point below the useful evaporation
+    # temperature: 31 °C, NIST Chemistry WebBook, from memory) have no bar
+    assert not any("CarbonDioxide" in l or "carbon dioxide" in l.lower() for l in labels)
+    _assert_units(ax)
+
+
+def test_ranking_chart_cuts_to_max_bars_and_says_so(run):
+    df, _ = run
+    ax = plots.ranking_chart(df, max_bars=3)
+    assert len([p for p in ax.patches if (p.get_gid() or "").startswith("bar-")]) == 3
+    assert "more in the table" in ax.get_title(loc="left")
+
+
+def test_ranking_chart_without_feasible_case_raises_clearly(run):
+    df, _ = run
+    with pytest.raises(ValueError, match="no feasible case"):
+        plots.ranking_chart(df[df["status"] != "ok"])
+
+
+# --------------------------------------------------------------------------- T-Q
+
+@pytest.mark.parametrize("layout", ["basic", "recuperated"])
+def test_tq_pinch_marks_equal_the_detail_and_the_study_setting(run, layout):
+    df, details = run
+    row = _best_ok(df, layout)
+    detail = details[row["case_key"]]
+    ax = plots.tq_diagram(detail, row)
+    exchangers = {k: v for k, v in detail["exchangers"].items() if v}
+    assert {"evaporator", "condenser"} <= set(exchangers)
+    offset = 0.0
+    for name in ("condenser", "recuperator", "evaporator"):
+        hx = exchangers.get(name)
+        if hx is None:
+            continue
+        text = _by_gid(ax.texts, f"pinch-{name}").get_text()
+        shown = float(re.search(r"pinch ([0-9.]+) K", text).group(1))
+        assert shown == pytest.approx(hx["pinch_K"], abs=0.05)
+        # the marked bar spans the two streams at the pinch
+        bar = _by_gid(ax.lines, f"pinch-{name}-bar")
+        np.testing.assert_allclose(bar.get_ydata(), [hx["pinch_T_cold_C"], hx["pinch_T_hot_C"]])
+        np.testing.assert_allclose(bar.get_xdata(), [offset + hx["pinch_Q_kW"]] * 2)
+        # the curves drawn are the detail's profiles, and the pinch is their closest approach
+        hot = _by_gid(ax.lines, f"{name}-hot")
+        cold = _by_gid(ax.lines, f"{name}-cold")
+        np.testing.assert_allclose(hot.get_xdata(), np.asarray(hx["Q_kW"]) + offset)
+        gap = np.asarray(hot.get_ydata()) - np.asarray(cold.get_ydata())
+        assert gap.min() == pytest.approx(hx["pinch_K"], abs=1e-9)
+        offset += hx["duty_kW"]
+    # outside reference: the pinch settings of the study (see module docstring; the study sets
+    # no minimum source outlet temperature, so the evaporator pinch alone limits the flow)
+    assert exchangers["evaporator"]["pinch_K"] == pytest.approx(PINCH_EVAPORATOR_K, abs=0.05)
+    assert exchangers["condenser"]["pinch_K"] == pytest.approx(PINCH_CONDENSER_K, abs=0.05)
+    assert ax.get_xlim() == pytest.approx((0.0, offset))
+    assert "[kW]" in ax.get_xlabel() and "[°C]" in ax.get_ylabel()
+
+
+def test_tq_duties_balance_heat_input_and_rejection(run):
+    """Energy balance (first law) on what the chart shows: evaporator duty = heat input and
+    condenser duty = heat rejected of the row."""
+    df, details = run
+    for _, row in df[df["status"] == "ok"].iterrows():
+        hx = details[row["case_key"]]["exchangers"]
+        assert hx["evaporator"]["duty_kW"] == pytest.approx(row["heat_input_kW"], rel=1e-6)
+        assert hx["condenser"]["duty_kW"] == pytest.approx(row["heat_rejected_kW"], rel=1e-6)
+
+
+# --------------------------------------------------------------------------- T-s
+
+def test_ts_diagram_draws_the_states_dome_and_path(run):
+    df, details = run
+    row = _best_ok(df, "recuperated")
+    detail = details[row["case_key"]]
+    ax = plots.ts_diagram(detail, row)
+    states = _by_gid(ax.lines, "states")
+    np.testing.assert_allclose(states.get_xdata(), [s["s_kJ_kgK"] for s in detail["states"]])
+    np.testing.assert_allclose(states.get_ydata(), [s["T_C"] for s in detail["states"]])
+    numbered = {t.get_text() for t in ax.texts if (t.get_gid() or "").startswith("state-")}
+    assert numbered == {s["name"] for s in detail["states"]}
+    assert {"1", "2", "3", "4"} <= numbered
+    dome = _by_gid(ax.lines, "dome")
+    # the dome reaches above the evaporation temperature of the cycle
+    assert max(dome.get_ydata()) > row["evaporation_temperature_C"]
+    path = _by_gid(ax.lines, "cycle-path")
+    np.testing.assert_allclose(path.get_ydata(), detail["ts_path"]["T_C"])
+    assert ax.get_xlabel() == "specific entropy [kJ/(kg·K)]"
+    assert ax.get_ylabel() == "temperature [°C]"
+
+
+# --------------------------------------------------------------------------- Pareto
+
+def test_pareto_front_hand_made_table():
+    """Hand-made table, front worked out by hand (maximise power, minimise size):
+    A (100 kW, 0.10 m) and D (80 kW, 0.05 m) and F (60 kW, 0.02 m) are on the front;
+    B (90 kW, 0.12 m) is dominated by A; C (100 kW, 0.15 m) by A (same power, larger);
+    E (70 kW, 0.05 m) by D; G (NaN size) is never on the front; H repeats A exactly, and
+    identical points do not dominate each other, so H is on the front too."""
+    df = pd.DataFrame({
+        "case": list("ABCDEFGH"),
+        "net_power_kW": [100, 90, 100, 80, 70, 60, 120, 100],
+        "size_parameter_m": [0.10, 0.12, 0.15, 0.05, 0.05, 0.02, np.nan, 0.10],
+    }, index=[10, 11, 12, 13, 14, 15, 16, 17])
+    front = rank.pareto_front(df)
+    assert list(front.index) == list(df.index)
+    assert set(df.loc[front, "case"]) == {"A", "D", "F", "H"}
+
+
+def test_pareto_front_other_columns_and_single_row():
+    """Hand-made: with UA as the size, the single cheapest point and the single strongest point
+    are on the front, the middle one too (it is not beaten on both)."""
+    df = pd.DataFrame({"net_power_kW": [10.0, 20.0, 15.0, 14.0],
+                       "ua_total_kW_K": [1.0, 3.0, 2.0, 2.5]})
+    assert rank.pareto_front(df, minimise="ua_total_kW_K").tolist() == [True, True, True, False]
+    assert rank.pareto_front(df.iloc[:1], minimise="ua_total_kW_K").tolist() == [True]
+
+
+def test_best_per_point_hand_made_table():
+    """Hand-made: two operating points; the best ok row of each, an infeasible row with a
+    larger (meaningless) power ignored; a point with no ok row left out."""
+    df = pd.DataFrame({
+        "source.inlet_temperature_C": [120, 120, 120, 140, 140, 160],
+        "fluid": ["a", "b", "c", "a", "b", "a"],
+        "status": ["ok", "ok", "infeasible", "ok", "ok", "failed"],
+        "net_power_kW": [5.0, 7.0, 99.0, 9.0, 8.0, np.nan],
+    })
+    best = rank.best_per_point(df)
+    assert best["fluid"].tolist() == ["b", "a"]
+    assert best["source.inlet_temperature_C"].tolist() == [120, 140]
+
+
+def test_tradeoff_marks_exactly_the_pareto_cases(run):
+    df, _ = run
+    ok = df[df["status"] == "ok"]
+    for x in ("size_parameter_m", "ua_total_kW_K"):
+        ax = plots.tradeoff_chart(df, x=x)
+        marked = _by_gid(ax.collections, "pareto").get_offsets()
+        front = ok[rank.pareto_front(ok, minimise=x)]
+        got = sorted(map(tuple, np.asarray(marked)))
+        want = sorted(zip(front[x], front["net_power_kW"]))
+        np.testing.assert_allclose(got, want)
+        # brute-force check of the definition on the real rows
+        for _, r in ok.iterrows():
+            dominated = ((ok["net_power_kW"] >= r["net_power_kW"]) & (ok[x] <= r[x])
+                         & ((ok["net_power_kW"] > r["net_power_kW"]) | (ok[x] < r[x]))).any()
+            on_front = any(np.allclose(p, (r[x], r["net_power_kW"])) for p in want)
+            assert on_front != dominated
+        _assert_units(ax)
+        assert ax.get_xlabel() == plots.axis_label(x)
+
+
+# --------------------------------------------------------------------------- landscape
+
+def test_landscape_marks_the_optimum_and_its_binding_limit(run):
+    df, details = run
+    ok = df[df["status"] == "ok"].sort_values("net_power_kW", ascending=False).head(3)
+    cases = [(r, details[r["case_key"]]) for _, r in ok.iterrows()]
+    ax = plots.landscape_chart(cases)
+    legend = [t.get_text() for t in ax.get_legend().get_texts()]
+    for i, (row, detail) in enumerate(cases):
+        opt = detail["optimum"]
+        star = _by_gid(ax.lines, f"optimum-{i}")
+        assert star.get_xdata()[0] == pytest.approx(opt["evaporation_temperature_C"])
+        assert star.get_ydata()[0] == pytest.approx(opt["net_power_kW"])
+        assert opt["net_power_kW"] == pytest.approx(row["net_power_kW"])
+        limit = opt["binding_limit"] or "none (interior optimum)"
+        assert f"limit: {limit}" in legend[i]
+        scan = _by_gid(ax.lines, f"scan-{i}")
+        t = np.asarray(detail["landscape"]["evaporation_temperature_C"], dtype=float)
+        assert sorted(scan.get_xdata()) == pytest.approx(sorted(t))
+    _assert_units(ax)
+
+
+# --------------------------------------------------------------------------- sweeps
+
+def test_sweep_chart_best_line_is_the_best_case_of_each_point(sweep_run):
+    df = sweep_run
+    variable, other = "source.inlet_temperature_C", "sink.inlet_temperature_C"
+    ax = plots.sweep_chart(df, variable)
+    # the other swept variable is held at its middle value: of [15, 25] the lower one
+    assert "sink inlet temperature = 15 °C" in ax.get_title(loc="left")
+    part = df[(df[other] == 15) & (df["status"] == "ok")]
+    want = part.groupby(variable)["net_power_kW"].max()
+    best = _by_gid(ax.lines, "best")
+    np.testing.assert_allclose(best.get_xdata(), want.index)
+    np.testing.assert_allclose(best.get_ydata(), want.values)
+    _assert_units(ax)
+    assert ax.get_xlabel() == "source inlet temperature [°C]"
+
+
+def test_best_fluid_map_names_the_best_case_in_each_cell(sweep_run):
+    df = sweep_run.copy()
+    x, y = "source.inlet_temperature_C", "sink.inlet_temperature_C"
+    # make one operating point infeasible throughout: its cell must say so
+    dead = (df[x] == 120) & (df[y] == 25)
+    df.loc[dead, "status"] = "infeasible"
+    ax = plots.best_fluid_map(df, x, y)
+    xs, ys = sorted(df[x].unique()), sorted(df[y].unique())
+    for i, yv in enumerate(ys):
+        for j, xv in enumerate(xs):
+            text = _by_gid(ax.texts, f"cell-{i}-{j}").get_text()
+            point = df[(df[x] == xv) & (df[y] == yv) & (df["status"] == "ok")]
+            if point.empty:
+                assert text == "none\nfeasible"
+                continue
+            best = point.loc[point["net_power_kW"].idxmax()]
+            assert text.splitlines()[0] == best["display_name"]
+            assert text.splitlines()[-1] == f"{best['net_power_kW']:.0f} kW"
+    _assert_units(ax)
+
+
+# --------------------------------------------------------------------------- files
+
+def test_save_figure_writes_png_and_svg_that_are_not_blank(run, tmp_path):
+    df, details = run
+    row = _best_ok(df)
+    ax = plots.tq_diagram(details[row["case_key"]], row)
+    paths = plots.save_figure(ax.figure, tmp_path / "figures", "tq")
+    assert [p.name for p in paths] == ["tq.png", "tq.svg"]
+    assert paths[0].read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+    assert paths[1].read_text(encoding="utf-8").lstrip().startswith("<?xml")
+    pixels = mpimg.imread(paths[0])
+    assert pixels.shape[1] == pytest.approx(plots.WIDTH_IN * 200, abs=2)   # A4 width at 200 dpi
+    assert pixels[..., :3].std() > 0.05
+
+
+def test_file_stem_is_safe_for_odd_fluid_names():
+    assert plots.file_stem("tq", "01", "R1233zd(E)", "basic") == "tq_01_R1233zd-E-_basic"
+    assert "/" not in plots.file_stem("a/b", "c d")
