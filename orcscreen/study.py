@@ -454,7 +454,8 @@ def _field_adapter(path: str) -> TypeAdapter:
     annotation = fi.annotation
     if path == "cycle.superheat_K":
         annotation = Union[Annotated[float, Field(ge=0)], Literal["optimise"]]
-    return TypeAdapter(Annotated[annotation, *fi.metadata], config=ConfigDict(strict=True, allow_inf_nan=False))
+    typ = Annotated[annotation, *fi.metadata] if fi.metadata else annotation
+    return TypeAdapter(typ, config=ConfigDict(strict=True, allow_inf_nan=False))
 
 
 def _allowed(path: str) -> str:
@@ -478,6 +479,8 @@ def _nearest(word: str, choices: list[str] | tuple[str, ...]) -> str | None:
 
 def _show(value: Any) -> str:
     """A value as it would be written in TOML (strings quoted, lists and tables as JSON)."""
+    if isinstance(value, float) and not math.isfinite(value):
+        return "nan" if math.isnan(value) else ("inf" if value > 0 else "-inf")
     try:
         return json.dumps(value, ensure_ascii=False, default=str)
     except (TypeError, ValueError):
@@ -537,8 +540,19 @@ def _format_validation_errors(exc: ValidationError, origin: str, prefix: str = "
         path = prefix + path if prefix else path
         grouped.setdefault(path, []).append(err)
         fields[path] = prefix + field_path if field_path and prefix else field_path
+    # A misspelt key also makes its correct name "missing": say it once, as the misspelling.
+    suggested = set()
+    for path, errs in grouped.items():
+        if errs[0]["type"] == "extra_forbidden":
+            section, _, key = path.rpartition(".")
+            model = _SECTION_MODELS.get(section)
+            guess = _nearest(key, list(model.model_fields)) if model is not None else None
+            if guess:
+                suggested.add(f"{section}.{guess}")
     lines = []
     for path, errs in grouped.items():
+        if errs[0]["type"] == "missing" and path in suggested:
+            continue
         lines.append(_error_line(origin, path, fields[path], errs))
     return lines
 
@@ -639,7 +653,7 @@ def _flatten_sweep(raw: Any, origin: str, errors: list[str]) -> dict[str, tuple[
                 walk(path, value, file_path)
                 continue
             if path in out:
-                errors.append(f"{origin}: {file_path}: {path} is swept twice (quoted and nested form)")
+                errors.append(f"{origin}: {file_path}: {path} is swept twice (quoted and nested form); allowed: one entry per setting")
                 continue
             out[path] = (file_path, value)
 
@@ -680,7 +694,7 @@ def _check_sweep(flat: dict[str, tuple[str, Any]], origin: str, errors: list[str
                 continue
             dup = [v for i, v in enumerate(values) if v in values[:i]]
             if dup:
-                errors.append(f"{origin}: {file_path} = {_show(spec)}: value {_show(dup[0])} is listed twice; each value once")
+                errors.append(f"{origin}: {file_path} = {_show(spec)}: value {_show(dup[0])} is listed twice; allowed: each value once")
                 continue
             specs[path] = values
         elif isinstance(spec, Mapping):
@@ -701,8 +715,10 @@ def _check_range(path: str, file_path: str, spec: Mapping[str, Any], origin: str
         if key not in _RANGE_KEYS:
             guess = _nearest(key, _RANGE_KEYS)
             hint = f"; did you mean {guess}?" if guess else ""
-            errors.append(f"{origin}: {file_path}.{key}: unknown key in a sweep range{hint} allowed: start, stop, step")
+            errors.append(f"{origin}: {file_path}.{key}: unknown key in a sweep range{hint}; allowed: start, stop, step")
             ok = False
+    if not ok:
+        return None
     for key in _RANGE_KEYS:
         if key not in spec:
             errors.append(f"{origin}: {file_path}.{key}: required key of a sweep range is missing; allowed: a number")
@@ -769,7 +785,8 @@ def _water_saturation_pressure_bar(T_C: float) -> float:
     return water.sat_T(T_K).p_Pa / 1e5
 
 
-def _point_problems(study: Study, base: Mapping[str, Any], v: Mapping[str, Any]) -> list[tuple[str, str, str]]:
+def _point_problems(study: Study, base: Mapping[str, Any], v: Mapping[str, Any],
+                    with_streams: bool = True) -> list[tuple[str, str, str]]:
     """(check id, key path, message) for every cross-key rule the point v breaks."""
     out = []
     T_src = v["source.inlet_temperature_C"]
@@ -783,7 +800,8 @@ def _point_problems(study: Study, base: Mapping[str, Any], v: Mapping[str, Any])
         out.append((
             "too-cold", "source.inlet_temperature_C",
             f"source.inlet_temperature_C = {_show(T_src)}: the source is too cold for the sink; allowed: above "
-            f"sink.inlet_temperature_C + sink.temperature_rise_K + pinch_evaporator_K + pinch_condenser_K "
+            f"sink.inlet_temperature_C + sink.temperature_rise_K + exchangers.pinch_evaporator_K + "
+            f"exchangers.pinch_condenser_K "
             f"= {T_sink:g} + {rise:g} + {pe:g} + {pc:g} = {need:g} °C",
         ))
     T_min = v["source.min_outlet_temperature_C"]
@@ -834,7 +852,7 @@ def _point_problems(study: Study, base: Mapping[str, Any], v: Mapping[str, Any])
             f"cycle.superheat_K = {_show(sh)}: above cycle.max_superheat_K = {sh_max:g}; allowed: a number "
             f"from 0 to cycle.max_superheat_K",
         ))
-    if not out:
+    if with_streams and not out:
         for name in ("source", "sink"):
             section = dict(base[name])
             section.update({p.split(".", 1)[1]: x for p, x in v.items() if p.startswith(name + ".")})
@@ -859,18 +877,19 @@ def _stream_problem(name: str, section_json: str) -> str | None:
     return None
 
 
-def _check_points(study: Study, specs: dict[str, Any], origin: str, errors: list[str]) -> None:
+def _check_points(study: Study, specs: dict[str, Any], origin: str, errors: list[str], *,
+                  with_streams: bool = True) -> None:
     """Apply the cross-key rules to the base values and to every sweep point that can matter."""
     base = study.base_case()
     fixed = {p: base[p.split(".")[0]][p.split(".")[1]] for p in _POINT_PATHS}
     swept = [p for p in specs if p in _POINT_PATHS]
-    axes = [_axis_values(specs[p]) for p in swept]
-    n_total = math.prod(len(a) for a in axes)
+    n_total = math.prod(_axis_length(specs[p]) for p in swept)
     if n_total > 100_000:
         # The rules are monotone in each value, so the corners of the sweep box find any breach.
-        axes = [sorted({min(a, key=_order), max(a, key=_order)}, key=_order) for a in axes]
+        axes = [_axis_bounds(specs[p]) for p in swept]
         exact = False
     else:
+        axes = [_axis_values(specs[p]) for p in swept]
         exact = True
     seen: dict[str, tuple[str, dict[str, Any], int]] = {}
     n_points = 0
@@ -878,7 +897,7 @@ def _check_points(study: Study, specs: dict[str, Any], origin: str, errors: list
         n_points += 1
         values = dict(fixed)
         values.update(zip(swept, combo))
-        for check, path, message in _point_problems(study, base, values):
+        for check, path, message in _point_problems(study, base, values, with_streams):
             if check in seen:
                 first = seen[check]
                 seen[check] = (first[0], first[1], first[2] + 1)
@@ -892,8 +911,14 @@ def _check_points(study: Study, specs: dict[str, Any], origin: str, errors: list
         errors.append(f"{origin}: {message}{where}")
 
 
-def _order(x: Any) -> float:
-    return x if isinstance(x, float) else math.inf
+def _axis_bounds(spec: Any) -> list[Any]:
+    """Smallest and largest value of an axis ("optimise" counts as the largest), without expanding it."""
+    if isinstance(spec, dict):
+        n = _axis_length(spec)
+        last = float(f"{spec['start'] + (n - 1) * spec['step']:.12g}")
+        return sorted({spec["start"], last})
+    key = lambda x: x if isinstance(x, float) else math.inf  # noqa: E731
+    return sorted({min(spec, key=key), max(spec, key=key)}, key=key)
 
 
 def _check_source_keys(study: Study, origin: str, errors: list[str]) -> Study:
@@ -1038,7 +1063,7 @@ def study_from_dict(d: Mapping[str, Any], origin: str = "<dict>", *, allow_huge:
         raise StudyError(errors)
     study = _check_source_keys(study, origin, errors)
     fluids = _resolve_fluids(study.fluid_filter, origin, errors)
-    _check_points(study, specs, origin, errors)
+    _check_points(study, specs, origin, errors, with_streams=not errors)
     study._origin = origin
     study._fluids = fluids
     study._sweep = specs
