@@ -115,6 +115,15 @@ def failed_row(case: Mapping[str, Any], reason: str, elapsed_s: float | None = N
     row = dict.fromkeys(ROW_COLUMNS)
     row.update(fluid=case.get("fluid"), layout=case.get("layout"), status="failed",
                reason=reason, elapsed_s=elapsed_s)
+    try:  # the catalogue facts of the fluid, so that a failed row still shows them
+        from orcscreen.fluids import get_info
+
+        info = get_info(str(case.get("fluid")))
+        row.update(display_name=info.display_name, family=info.family,
+                   safety_class=info.safety_class, gwp100=info.gwp100, odp=info.odp,
+                   curve_type=info.curve_type)
+    except Exception:  # noqa: BLE001 - an unknown fluid keeps the bare row
+        pass
     return row
 
 
@@ -254,7 +263,7 @@ class _Progress:
         self.total, self.skipped = total, skipped
         self.counts = dict.fromkeys(STATUSES, 0)
         self.done = 0
-        self.start = time.monotonic()
+        self.first: tuple[float, int] | None = None
         self.last_line = -math.inf
         self.bar = None
         self.enabled = enabled and total > 0
@@ -267,6 +276,8 @@ class _Progress:
     def update(self, statuses: list[str]) -> None:
         for s in statuses:
             self.counts[s] = self.counts.get(s, 0) + 1
+        if self.first is None:  # rates count from the first result: worker start-up left out
+            self.first = (time.monotonic(), self.done + len(statuses))
         self.done += len(statuses)
         if not self.enabled:
             return
@@ -278,13 +289,16 @@ class _Progress:
 
     def _line(self) -> None:
         self.last_line = now = time.monotonic()
-        rate = self.done / max(now - self.start, 1e-9)
-        left = (self.total - self.done) / rate if rate > 0 else math.inf
-        eta = "" if not math.isfinite(left) or self.done == self.total else \
-            f", about {_duration(left)} left"
+        t_first, n_first = self.first if self.first is not None else (now, 0)
+        rate = (self.done - n_first) / (now - t_first) if now > t_first else 0.0
+        speed = eta = ""
+        if rate > 0:
+            speed = f", {rate:.1f} cases/s"
+            if self.done < self.total:
+                eta = f", about {_duration((self.total - self.done) / rate)} left"
         tally = ", ".join(f"{s} {self.counts[s]}" for s in STATUSES)
-        print(f"[orcscreen] {self.done}/{self.total} cases computed ({tally}), "
-              f"{rate:.1f} cases/s{eta}", file=self.stream, flush=True)
+        print(f"[orcscreen] {self.done}/{self.total} cases computed ({tally}){speed}{eta}",
+              file=self.stream, flush=True)
 
     def close(self) -> None:
         if self.bar is not None:

@@ -181,6 +181,7 @@ def test_raising_and_hanging_cases_are_recorded_and_the_batch_goes_on(reference,
         rows = store.rows().set_index("fluid")
     iso, pentane = rows.loc["IsoButane"], rows.loc["n-Pentane"]
     assert (iso["status"] == "failed").all()
+    assert (iso["safety_class"] == "A3").all()  # catalogue facts kept (ASHRAE 34: R600a is A3)
     assert (iso["reason"] == "RuntimeError: deliberate failure for the test").all()
     assert (pentane["status"] == "failed").all()
     assert (pentane["reason"] == "time limit of 0.3 s exceeded").all()
