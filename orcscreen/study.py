@@ -1079,14 +1079,18 @@ def study_from_dict(d: Mapping[str, Any], origin: str = "<dict>", *, allow_huge:
     return study
 
 
-def _versions() -> dict[str, str]:
-    from orcscreen.properties import coolprop_version
-
+@functools.lru_cache(maxsize=1)
+def _own_version() -> str:
     try:
-        own = metadata.version("orcscreen")
+        return metadata.version("orcscreen")
     except metadata.PackageNotFoundError:
-        own = "0+unknown"
-    return {"orcscreen": own, "coolprop": coolprop_version()}
+        return "0+unknown"
+
+
+def _versions() -> dict[str, str]:
+    from orcscreen import properties
+
+    return {"orcscreen": _own_version(), "coolprop": properties.coolprop_version()}
 
 
 def _canonical(obj: Any) -> str:
