@@ -30,7 +30,7 @@ __all__ = ["screen", "run_case", "evaluate_cycle", "settings_from_case", "ROW_CO
 
 #: Columns of a result row, in order (DESIGN section 5; contract section 2).
 ROW_COLUMNS = (
-    "fluid", "display_name", "layout", "status", "reason",
+    "fluid", "display_name", "layout", "status", "reason", "warnings",
     "net_power_kW", "turbine_power_kW", "pump_power_kW", "aux_power_kW", "heat_input_kW",
     "heat_rejected_kW", "recuperator_duty_kW", "thermal_efficiency", "exergy_efficiency",
     "carnot_efficiency", "heat_recovery_factor", "total_efficiency", "source_exergy_kW",
@@ -89,6 +89,7 @@ def _nan_row(case: dict, info, status: str, reason: str, elapsed: float, evaluat
         layout=case["layout"],
         status=status,
         reason=reason,
+        warnings="",
         pinch_location="",
         binding_limit="",
         sub_atmospheric_condenser=None,
@@ -167,8 +168,27 @@ def _row(case, info, fluid, source, sink, r: CycleResult, binding: str, n: int, 
         "evaluations": n,
         "elapsed_s": elapsed,
     }
+    row["warnings"] = "; ".join(_warnings(case, source, r))
     _add_fluid_columns(row, info)
     return {k: row[k] for k in ROW_COLUMNS}
+
+
+def _warnings(case: dict, source, r: CycleResult) -> list[str]:
+    """Plain-words notes on a feasible result that the engineer should see."""
+    out = []
+    dew = getattr(source, "water_dew_point_K", None)
+    if callable(dew):
+        T_dew = dew()
+        if T_dew is not None and r.T_source_out_K < T_dew:
+            out.append(
+                f"flue gas leaves at {r.T_source_out_K - 273.15:.1f} °C, below its water dew point "
+                f"{T_dew - 273.15:.1f} °C: condensation is not modelled and corrodes (raise min_outlet_temperature_C)"
+            )
+    if r.p_cond_Pa < P_ATM_PA:
+        out.append(f"condenser below atmospheric pressure ({r.p_cond_Pa / 1e5:.3g} bar): air ingress, larger equipment")
+    if case["layout"] == "recuperated" and r.Q_rec_W <= 0.0:
+        out.append("recuperator inactive: the turbine outlet is not hotter than the pump outlet plus the pinch")
+    return out
 
 
 def _f(x: float) -> float | None:

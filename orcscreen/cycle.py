@@ -165,6 +165,7 @@ class _ColdSide:
     s4r: State
     q_rec: float
     recuperator_active: bool
+    rec_profile: Profile | None = None  # per unit mass flow (Q in J/kg), exact mode only
 
 
 def _two_phase_state(sat, T_K: float, q: float) -> State:
@@ -228,7 +229,7 @@ def _recuperate(fluid, s, sat_c, sat_e, st2: State, st4: State, exact: bool):
     """Recuperator duty per unit mass [J/kg] and outlet states (2r, 4r) under eps and pinch."""
     dT = s.pinch_recuperator_K
     if st4.T_K <= st2.T_K + dT:
-        return 0.0, st2, st4, False
+        return 0.0, st2, st4, False, None
     p_c, p_e = sat_c.p_Pa, sat_e.p_Pa
     # hot side cooled to the cold inlet temperature: the ideal duty (vapour side is C_min)
     h4_at_T2 = fluid.state_pT(p_c, st2.T_K, "gas").h if st2.T_K > sat_c.T_K + 1e-6 else sat_c.hV
@@ -242,26 +243,29 @@ def _recuperate(fluid, s, sat_c, sat_e, st2: State, st4: State, exact: bool):
     h2r_max = fluid.state_pT(p_e, T2r_max, "liquid").h if T2r_max < sat_e.T_K else sat_e.hL
     q = min(q, min(h2r_max, sat_e.hL) - st2.h)
     if q <= 0.0:
-        return 0.0, st2, st4, False
+        return 0.0, st2, st4, False, None
     st2r = _flash_ph(fluid, p_e, st2.h + q, "liquid", st2)
     st4r = _state_from_ph(fluid, sat_c, st4.h - q, st4)
     if exact:
-        prof = _recuperator_profile(fluid, sat_c, p_e, st2, st4, q, s.n_zone_segments * 2)
+        n = s.n_zone_segments
+        prof = _recuperator_profile(fluid, sat_c, p_e, st2, st4, q, n)
         if prof.min_approach_K < dT - 1e-9:
             # an interior pinch: shrink the duty until the discretised profile respects it
             lo, hi = 0.0, 1.0
             for _ in range(50):
                 mid = 0.5 * (lo + hi)
-                if _recuperator_profile(fluid, sat_c, p_e, st2, st4, q * mid, s.n_zone_segments * 2).min_approach_K >= dT:
+                if _recuperator_profile(fluid, sat_c, p_e, st2, st4, q * mid, n).min_approach_K >= dT:
                     lo = mid
                 else:
                     hi = mid
             q *= lo
             if q <= 0.0:
-                return 0.0, st2, st4, False
+                return 0.0, st2, st4, False, None
             st2r = _flash_ph(fluid, p_e, st2.h + q, "liquid", st2)
             st4r = _state_from_ph(fluid, sat_c, st4.h - q, st4)
-    return q, st2r, st4r, True
+            prof = _recuperator_profile(fluid, sat_c, p_e, st2, st4, q, n)
+        return q, st2r, st4r, True, prof
+    return q, st2r, st4r, True, None
 
 
 def _recuperator_profile(fluid, sat_c, p_e_Pa, st2, st4, q, n) -> Profile:
@@ -307,10 +311,10 @@ def _cold_side(fluid: Fluid, s: CycleSettings, recuperated: bool, sat_e, st3: St
     h4 = st3.h - eta_t * dh_s
     st4 = _state_from_ph(fluid, sat_c, h4, st4s if h4 > sat_c.hV and math.isnan(st4s.q) else None)
     if recuperated:
-        q_rec, st2r, st4r, active = _recuperate(fluid, s, sat_c, sat_e, st2, st4, exact)
+        q_rec, st2r, st4r, active, rec_prof = _recuperate(fluid, s, sat_c, sat_e, st2, st4, exact)
     else:
-        q_rec, st2r, st4r, active = 0.0, st2, st4, False
-    return _ColdSide(T_cond_K, p_c, sat_c, st1, st2, st4s.h, st4s.v, st4s.T_K, st4s.q, st4, eta_t, st2r, st4r, q_rec, active)
+        q_rec, st2r, st4r, active, rec_prof = 0.0, st2, st4, False, None
+    return _ColdSide(T_cond_K, p_c, sat_c, st1, st2, st4s.h, st4s.v, st4s.T_K, st4s.q, st4, eta_t, st2r, st4r, q_rec, active, rec_prof)
 
 
 def _condenser_wf_path(fluid: Fluid, cs: _ColdSide, n: int, exact: bool) -> tuple[np.ndarray, np.ndarray, list[str]]:
@@ -374,7 +378,7 @@ def _solve_condenser(fluid, sink, s, recuperated, sat_e, st3, exact, T_guess_K=N
         # converge on the closed-form candidates first, then on the discretised profile
         T = _condenser_iterations(fluid, sink, s, recuperated, sat_e, st3, T, T_floor, False, 1e-9).T_cond_K
         return _condenser_iterations(fluid, sink, s, recuperated, sat_e, st3, T, T_floor, True, 1e-9)
-    return _condenser_iterations(fluid, sink, s, recuperated, sat_e, st3, T, T_floor, False, 1e-5)
+    return _condenser_iterations(fluid, sink, s, recuperated, sat_e, st3, T, T_floor, False, 2e-4)
 
 
 def _condenser_iterations(fluid, sink, s, recuperated, sat_e, st3, T, T_floor, exact, tol) -> _ColdSide:
@@ -569,7 +573,7 @@ def _profiles(fluid, source, sink, cs: _ColdSide, h_path, T_path, m_wf, st3, hs_
     h, T, T_sink = _condenser_approach(fluid, sink, cs, n, True)[2]
     out["condenser"] = Profile(m_wf * (h - h[0]), T, np.asarray(T_sink, dtype=float))
     if cs.recuperator_active:
-        prof = _recuperator_profile(fluid, cs.sat, cs.s2.p_Pa, cs.s2, cs.s4, cs.q_rec, 2 * n)
+        prof = cs.rec_profile
         out["recuperator"] = Profile(m_wf * prof.Q_W, prof.T_hot_K, prof.T_cold_K)
     return out
 
