@@ -235,7 +235,7 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--jobs", type=_positive_int, metavar="N", help="worker processes (default: all cores)")
     p.add_argument("--cluster", metavar="ADDRESS", help="Dask scheduler address, e.g. tcp://10.0.0.5:8786 "
                    "(needs orcscreen[cluster])")
-    p.add_argument("--yes", action="store_true", help=f"allow a study of more than 1,000,000 cases")
+    p.add_argument("--yes", action="store_true", help="allow a study of more than 1,000,000 cases")
     p.add_argument("--no-report", action="store_true", help="skip the charts and report.html")
     p.add_argument("--top", type=_positive_int, default=10, metavar="N", help="rows of the ranking to print (default 10)")
     p.set_defaults(func=_cmd_run)

@@ -93,6 +93,10 @@ class StudyError(ValueError):
 # Models of schema version 1
 # ---------------------------------------------------------------------------------------------
 
+def _choices(values: tuple[str, ...]) -> str:
+    return ", ".join(f'"{v}"' for v in values)
+
+
 _CONFIG = ConfigDict(extra="forbid", strict=True, frozen=True, allow_inf_nan=False, populate_by_name=True)
 
 
@@ -128,8 +132,8 @@ class StudySection(_Section):
 class SourceSection(_Section):
     """[source]: the heat source (required)."""
 
-    kind: Literal["water", "brine", "thermal-oil", "flue-gas", "fluid"] = _f(
-        ..., "Kind of heat source.", '"water", "brine", "thermal-oil", "flue-gas", "fluid"'
+    kind: Literal[SOURCE_KINDS] = _f(
+        ..., "Kind of heat source.", _choices(SOURCE_KINDS)
     )
     inlet_temperature_C: float = _f(..., "Source inlet temperature [°C].", "a number from -50 to 1000", ge=-50, le=1000)
     mass_flow_kg_s: float = _f(..., "Source mass flow [kg/s].", "a number > 0", gt=0)
@@ -158,7 +162,7 @@ class SourceSection(_Section):
         "Slope of cp with temperature [kJ/(kg K^2)]: cp = cp_kJ_kgK + cp_slope_kJ_kgK2 * T_C.",
         "a number (kind brine or thermal-oil only)",
     )
-    composition: Optional[dict[Literal["N2", "O2", "CO2", "H2O", "Ar"], Annotated[float, Field(ge=0)]]] = _f(
+    composition: Optional[dict[Literal[FLUE_GAS_SPECIES], Annotated[float, Field(ge=0)]]] = _f(
         None,
         "Flue gas composition as fractions (normalised to sum 1). Default: exhaust of natural gas "
         "burnt with 15 % excess air.",
@@ -198,7 +202,7 @@ class SourceSection(_Section):
 class SinkSection(_Section):
     """[sink]: the heat sink (cooling water or ambient air)."""
 
-    kind: Literal["water", "air"] = _f("water", "Kind of heat sink.", '"water", "air"')
+    kind: Literal[SINK_KINDS] = _f("water", "Kind of heat sink.", _choices(SINK_KINDS))
     inlet_temperature_C: float = _f(20.0, "Sink inlet temperature [°C].", "a number from -50 to 80", ge=-50, le=80)
     temperature_rise_K: float = _f(10.0, "Temperature rise of the sink across the condenser [K].", "a number > 0", gt=0)
     pressure_bar: Optional[float] = _f(
@@ -258,8 +262,8 @@ class LimitsSection(_Section):
 class CycleSection(_Section):
     """[cycle]: layouts and the superheat and subcooling settings."""
 
-    layouts: list[Literal["basic", "recuperated"]] = _f(
-        ["basic", "recuperated"], "Cycle layouts to screen.", 'a non-empty list of "basic", "recuperated"', min_length=1
+    layouts: list[Literal[LAYOUTS]] = _f(
+        list(LAYOUTS), "Cycle layouts to screen.", f"a non-empty list of {_choices(LAYOUTS)}", min_length=1
     )
     superheat_K: Union[float, Literal["optimise"]] = _f(
         0.0, "Superheat at the turbine inlet [K], or \"optimise\".", 'a number >= 0 or "optimise"'
@@ -299,9 +303,9 @@ class FluidsSection(_Section):
     )
     exclude: list[str] = _f([], "Fluids or families to leave out.", "a list of fluid or family names")
     max_gwp: Optional[float] = _f(None, "Highest 100-year global warming potential [-].", "a number >= 0", ge=0)
-    safety_classes: Optional[list[Literal["A1", "A2L", "A2", "A3", "B1", "B2L", "B2", "B3"]]] = _f(
+    safety_classes: Optional[list[Literal[SAFETY_CLASSES]]] = _f(
         None, "ASHRAE 34 safety classes allowed; all by default.",
-        'a list of "A1", "A2L", "A2", "A3", "B1", "B2L", "B2", "B3"',
+        f"a list of {_choices(SAFETY_CLASSES)}",
     )
     zero_odp: bool = _f(False, "Keep only fluids with zero ozone depletion potential.", "true or false")
 
@@ -974,6 +978,25 @@ def _check_source_keys(study: Study, origin: str, errors: list[str]) -> Study:
     return study
 
 
+def _check_swept_source_keys(study: Study, flat: dict[str, tuple[str, Any]], specs: dict[str, Any],
+                             origin: str, errors: list[str]) -> None:
+    """A swept source setting must apply to the kind of source, as a written one must."""
+    kind = study.source.kind
+    applies = {
+        "source.cp_kJ_kgK": (kind in _DEFAULT_CP_kJ_kgK, "only for kind brine or thermal-oil"),
+        "source.cp_slope_kJ_kgK2": (kind in _DEFAULT_CP_kJ_kgK, "only for kind brine or thermal-oil"),
+        "source.inlet_quality": (kind == "fluid", 'only for kind = "fluid"'),
+        "source.pressure_bar": (
+            not (kind == "fluid" and study.source.inlet_quality is not None),
+            "a saturated source (inlet_quality given) takes its pressure from the temperature",
+        ),
+    }
+    for path, (ok, why) in applies.items():
+        if path in specs and not ok:
+            errors.append(f"{origin}: {flat[path][0]}: {why} (this source is {kind!r}); allowed: "
+                          f"leave this sweep out")
+
+
 def _coolprop_name(name: str) -> str | None:
     from orcscreen.properties import coolprop_fluid_names
 
@@ -1062,6 +1085,7 @@ def study_from_dict(d: Mapping[str, Any], origin: str = "<dict>", *, allow_huge:
     if study is None:
         raise StudyError(errors)
     study = _check_source_keys(study, origin, errors)
+    _check_swept_source_keys(study, flat, specs, origin, errors)
     fluids = _resolve_fluids(study.fluid_filter, origin, errors)
     _check_points(study, specs, origin, errors, with_streams=not errors)
     study._origin = origin

@@ -320,3 +320,10 @@ def test_report_command_calls_the_report_builder(capsys, tmp_path, monkeypatch):
     assert code == 0, err
     assert calls == [tmp_path]
     assert "report.html" in out and "not a design" in out
+
+
+def test_version(capsys):
+    from importlib import metadata
+
+    code, out, _ = run(capsys, "--version")
+    assert code == 0 and out.strip() == f"orcscreen {metadata.version('orcscreen')}"

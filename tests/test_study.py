@@ -128,6 +128,10 @@ def test_layouts_of_the_schema_are_the_engines_layouts():
     assert set(st.LAYOUTS) == set(LAYOUTS)
 
 
+def test_safety_classes_of_the_schema_are_the_catalogues():
+    assert st.SAFETY_CLASSES == fluid_catalogue.SAFETY_CLASSES
+
+
 # -- sweeps -----------------------------------------------------------------------------------
 
 def axis(spec):
@@ -535,3 +539,11 @@ def test_shipped_studies_load(path):
     s = load_study(path)
     assert s.n_cases == sum(1 for _ in s.cases())
     assert s.origin == str(path)
+
+
+def test_swept_source_keys_must_apply_to_the_kind():
+    msg = one_error({"source": SOURCE, "fluids": TWO, "sweep": {"source.cp_kJ_kgK": [3.5, 4.0]}})
+    assert 'sweep."source.cp_kJ_kgK"' in msg and "only for kind brine or thermal-oil" in msg
+    s = make(source={"kind": "brine", "inlet_temperature_C": 130, "mass_flow_kg_s": 10},
+             sweep={"source.cp_kJ_kgK": [3.5, 4.0]})
+    assert [c["source"]["cp_kJ_kgK"] for c in s.cases()][::4] == [3.5, 4.0]
