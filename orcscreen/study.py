@@ -1124,11 +1124,12 @@ def _canonical(obj: Any) -> str:
 def case_key(case: Mapping[str, Any]) -> str:
     """Stable key of a case: first 16 hex digits of sha256 over its canonical JSON and versions.
 
-    Every input that can change the result is covered; the study name and the "sweep" entry
-    (a restatement of values already in the sections) are left out, so renaming a study or
-    turning a sweep into a single point recomputes nothing.
+    Every input is covered except the study name, so renaming a study recomputes nothing. The
+    "sweep" entry is covered too: the store keeps each row's swept values, and a case reused
+    under another sweep shape would carry stale sweep columns. Extending a sweep axis keeps the
+    keys of the points already computed.
     """
-    body = {k: v for k, v in case.items() if k != "sweep"}
+    body = dict(case)
     if isinstance(body.get("study"), Mapping):
         body["study"] = {k: v for k, v in body["study"].items() if k != "name"}
     text = _canonical({"case": body, "versions": _versions()})

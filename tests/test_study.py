@@ -287,13 +287,28 @@ def test_case_key_differs_between_fluids_and_layouts_of_a_study():
     assert len(set(keys)) == len(keys) == 4
 
 
-def test_case_key_ignores_study_name_and_sweep_restatement():
+def test_case_key_ignores_the_study_name():
     a = list(make().cases())[0]
     b = list(make(study={"name": "renamed"}).cases())[0]
     assert case_key(a) == case_key(b)
+
+
+def test_extending_a_sweep_keeps_the_keys_of_computed_points():
+    short = make(sweep={"source.inlet_temperature_C": [120, 130]})
+    longer = make(sweep={"source.inlet_temperature_C": [120, 130, 140]})
+    old = {case_key(c) for c in short.cases()}
+    new = [case_key(c) for c in longer.cases()]
+    assert old <= set(new) and len(set(new) - old) == 4
+
+
+def test_a_case_under_another_sweep_shape_gets_its_own_key():
+    # the same physics as a single point and as a point of a sweep: the stored sweep columns
+    # differ, so the keys must differ too
+    single = list(make().cases())[0]
     swept = list(make(sweep={"source.inlet_temperature_C": [130]}).cases())[0]
     assert swept["sweep"] == {"source.inlet_temperature_C": 130.0}
-    assert case_key(swept) == case_key(a)
+    assert {k: v for k, v in swept.items() if k != "sweep"} == {k: v for k, v in single.items() if k != "sweep"}
+    assert case_key(swept) != case_key(single)
 
 
 def test_case_key_and_study_hash_change_with_the_coolprop_version(monkeypatch):
