@@ -462,10 +462,12 @@ def _slice_note(ref: Mapping) -> str:
 def sweep_chart(df: pd.DataFrame, variable: str, ax: Axes | None = None, top_n: int = 5,
                 title: str | None = None) -> Axes:
     """Net power [kW] against one swept variable: the best case at each point (black dashed,
-    white diamonds, named where it changes) and the ``top_n`` fluid + layout combinations with
-    the highest net power in the slice.
+    white diamonds, named where it changes) and the ``top_n`` fluids that do best across the
+    sweep, each in its better layout.
 
-    Other swept variables are held at their middle value (said in the title).
+    "Do best across the sweep" = the highest mean share of the best net power of each point
+    (an infeasible point counts as 0), so a fluid that is good everywhere beats one that only
+    wins at one end. Other swept variables are held at their middle value (said in the title).
     """
     part, ref = _slice(df, [variable])
     ok = rank.feasible(part)
@@ -473,9 +475,13 @@ def sweep_chart(df: pd.DataFrame, variable: str, ax: Axes | None = None, top_n: 
         raise ValueError(f"sweep chart over {variable}: no feasible case")
     ax = _new_axes(ax, 4.0)
     ok = ok.assign(_p=pd.to_numeric(ok["net_power_kW"]))
-    combos = (ok.groupby(["fluid", "layout"], sort=False)["_p"].max()
-              .sort_values(ascending=False).head(top_n))
-    for i, (fluid, layout) in enumerate(combos.index):
+    best_at = ok.groupby(variable)["_p"].transform("max")
+    n_points = ok[variable].nunique()
+    share = (ok.assign(_share=ok["_p"] / best_at.where(best_at > 0))
+             .groupby(["fluid", "layout"], sort=False)["_share"].sum() / n_points)
+    combos = (share.sort_values(ascending=False, kind="stable").reset_index()
+              .drop_duplicates("fluid").head(top_n))
+    for i, (fluid, layout) in enumerate(zip(combos["fluid"], combos["layout"])):
         series = ok[(ok["fluid"] == fluid) & (ok["layout"] == layout)].sort_values(variable)
         style = _layout_style(layout)
         ax.plot(series[variable], series["_p"], color=SERIES_COLOURS[i % len(SERIES_COLOURS)],
@@ -485,13 +491,17 @@ def sweep_chart(df: pd.DataFrame, variable: str, ax: Axes | None = None, top_n: 
     ax.plot(best[variable], pd.to_numeric(best["net_power_kW"]), color="black", linewidth=1.0,
             linestyle=(0, (4, 2)), marker="D", markersize=4.5, markerfacecolor="white",
             markeredgecolor="black", zorder=4, label="best case at each point", gid="best")
-    previous = None
+    previous, changes = None, 0
     for k, (_, r) in enumerate(best.iterrows()):
         name = case_label(r)
-        if name != previous:        # name the best case where it changes along the sweep
-            ax.annotate(name, xy=(r[variable], r["net_power_kW"]), xytext=(0, 8),
-                        textcoords="offset points", ha="left" if k == 0 else "center",
-                        fontsize=NOTE_PT - 0.5, gid=f"best-name-{k}")
+        if name != previous:        # name the best case where it changes along the sweep,
+            above = changes % 2 == 0    # alternately above and below the line
+            ax.annotate(name, xy=(r[variable], r["net_power_kW"]),
+                        xytext=(-4, 8) if above else (6, -12), textcoords="offset points",
+                        ha="right" if above and k else "left", fontsize=NOTE_PT - 0.5,
+                        bbox={"boxstyle": "round,pad=0.1", "fc": "white", "ec": "none",
+                              "alpha": 0.75}, gid=f"best-name-{k}")
+            changes += 1
         previous = name
     lo, hi = ax.get_ylim()
     ax.set_ylim(lo, hi + 0.12 * (hi - lo))
@@ -538,8 +548,9 @@ def best_fluid_map(df: pd.DataFrame, x: str, y: str, ax: Axes | None = None,
             if text is None:
                 ax.add_patch(_hatched_cell(j, i))
                 text = "none\nfeasible"
+            dark = not np.isnan(grid[i, j]) and _is_dark(colours[int(grid[i, j])])
             ax.text(j, i, text, ha="center", va="center", fontsize=NOTE_PT - 1.5,
-                    gid=f"cell-{i}-{j}")
+                    color="white" if dark else "black", gid=f"cell-{i}-{j}")
     ax.set_xticks(range(len(xs)), [f"{v:g}" for v in xs])
     ax.set_yticks(range(len(ys)), [f"{v:g}" for v in ys])
     ax.set_xticks(np.arange(len(xs) + 1) - 0.5, minor=True)
@@ -559,6 +570,16 @@ def best_fluid_map(df: pd.DataFrame, x: str, y: str, ax: Axes | None = None,
     ax.grid(True, which="minor", color="white", linewidth=1.5)
     ax.tick_params(which="minor", length=0)
     return ax
+
+
+def _is_dark(colour: str) -> bool:
+    """True when white text contrasts more than black on ``colour``: relative luminance L below
+    0.179, where the WCAG 2.x contrast ratios (L + 0.05) / 0.05 and 1.05 / (L + 0.05) are equal
+    (W3C, Web Content Accessibility Guidelines 2.1, definitions of relative luminance and
+    contrast ratio; sRGB)."""
+    rgb = [int(colour.lstrip("#")[k:k + 2], 16) / 255 for k in (0, 2, 4)]
+    lin = [c / 12.92 if c <= 0.04045 else ((c + 0.055) / 1.055) ** 2.4 for c in rgb]
+    return 0.2126 * lin[0] + 0.7152 * lin[1] + 0.0722 * lin[2] < 0.179
 
 
 def _hatched_cell(j: int, i: int) -> Rectangle:

@@ -78,7 +78,7 @@ class _RunData:
     table: pd.DataFrame              # ranking_table(rows): all current cases, with rank
     sweep_cols: list[str]
     point: dict                      # reference operating point (swept values), {} without sweep
-    top: pd.DataFrame                # top N ranked rows at the reference point
+    top: pd.DataFrame                # best row of each of the top N fluids at the reference point
     details: dict[str, dict | None] = field(default_factory=dict)
 
 
@@ -94,7 +94,9 @@ def _load(out_dir: Path, top_n: int) -> _RunData:
             best = ok.loc[pd.to_numeric(ok["net_power_kW"]).idxmax()]
             point = {c: best[c] for c in sweep_cols}
             at_point = _at_point(ok, point)
-        top = at_point.sort_values("rank", kind="stable").head(top_n)
+        # the best layout of each of the best fluids: one card per fluid
+        top = (at_point.sort_values("rank", kind="stable")
+               .drop_duplicates("fluid", keep="first").head(top_n))
         details = dict(store.iter_details(list(top["case_key"])))
     return _RunData(out_dir, meta, counts, table, sweep_cols, point, top, details)
 
@@ -159,7 +161,7 @@ def make_figures(data: _RunData, fig_dir: Path) -> list[FigureRecord]:
                                        title="Net power against total UA"))
     cases = [(r, data.details.get(r["case_key"])) for _, r in data.top.iterrows()]
     _draw(records, fig_dir, "landscape", "Optimisation landscape",
-          "The optimiser's scan of evaporation temperature for the top cases; the star is the "
+          "The optimiser's scan of evaporation temperature for the best fluids; the star is the "
           "optimum, the legend names the limit that binds there.",
           lambda: plots.landscape_chart(cases))
 
@@ -276,8 +278,8 @@ def fluid_cautions(row: Mapping) -> list[str]:
             out.append("Higher toxicity: exposure limits, detection and ventilation govern the "
                        "plant room.")
     else:
-        out.append("No ASHRAE 34 safety class in the catalogue: read the safety data sheet "
-                   "for flammability and toxicity.")
+        out.append("No ASHRAE 34 safety class in the catalogue: treat the fluid as flammable "
+                   "and toxic until its safety data sheet says otherwise.")
     gwp = _num(row.get("gwp100"))
     if math.isfinite(gwp):
         out.append(f"GWP100 = {gwp:g}: check the fluorinated-gas rules that apply on site.")
@@ -368,16 +370,19 @@ _RANK_COLUMNS = [
 
 
 def _table(headers: Sequence[tuple[str, bool]], rows: Iterable[Sequence[tuple[str, Any]]],
-           table_id: str, caption: str = "") -> str:
-    """A sortable table. ``headers``: (text, numeric); each row cell: (shown text, sort key)."""
+           table_id: str, caption: str = "", wrap: Sequence[int] = ()) -> str:
+    """A sortable table. ``headers``: (text, numeric); each row cell: (shown text, sort key);
+    ``wrap``: indices of columns of long text that may wrap."""
     head = "".join(
         f'<th scope="col" data-type="{"num" if numeric else "text"}" tabindex="0" '
         f'title="click to sort">{_e(text)}</th>' for text, numeric in headers)
     body = []
     for cells in rows:
         tds = []
-        for shown, key in cells:
+        for i, (shown, key) in enumerate(cells):
             attr = "" if _missing(key) or key == "" else f' data-sort="{_e(key)}"'
+            if i in wrap:
+                attr += ' class="wrap"'
             tds.append(f"<td{attr}>{_e(shown)}</td>")
         body.append("<tr>" + "".join(tds) + "</tr>")
     cap = f"<caption>{_e(caption)}</caption>" if caption else ""
@@ -623,7 +628,8 @@ def _problems_section(data: _RunData) -> str:
         rows.append(cells)
     return ('<section id="problems"><h2>Infeasible and failed cases</h2>' +
             _table(headers, rows, "problems-table",
-                   f"{len(bad)} cases without a feasible result, with the reason recorded.") +
+                   f"{len(bad)} cases without a feasible result, with the reason recorded.",
+                   wrap=(len(headers) - 1,)) +
             "</section>")
 
 
@@ -744,7 +750,7 @@ def render_report(data: _RunData, records: list[FigureRecord]) -> str:
         key = row["case_key"]
         cards.append(_card(n, row, data.details.get(key), [r for r in records if r.group == key]))
     point = _point_note(data.point)
-    top_section = ('<section id="top"><h2>Top cases in detail</h2>' +
+    top_section = ('<section id="top"><h2>Top fluids in detail</h2>' +
                    (f'<p class="note">At the {_e(point)}.</p>' if point else "") +
                    ("".join(cards) or "<p>No feasible case.</p>") + "</section>")
     sweep_section = ('<section id="sweeps"><h2>Sweeps</h2><div class="charts">' +
@@ -763,7 +769,7 @@ def render_report(data: _RunData, records: list[FigureRecord]) -> str:
         '<div class="banner">Preliminary screening, not a design: see the '
         '<a href="#cautions">cautions</a> before acting on any result.</div></header>'
         '<nav class="note"><a href="#summary">summary</a> · <a href="#ranking">ranking</a> · '
-        '<a href="#top">top cases</a> · ' + ('<a href="#sweeps">sweeps</a> · ' if sweeps else "") +
+        '<a href="#top">top fluids</a> · ' + ('<a href="#sweeps">sweeps</a> · ' if sweeps else "") +
         '<a href="#problems">infeasible and failed</a> · <a href="#cautions">cautions</a></nav>'
         + _summary(data) + _ranking_section(data, overview) + sweep_section + top_section
         + _problems_section(data) + _chart_problems(records) + _cautions_section()
@@ -779,8 +785,9 @@ def build_report(out_dir: str | os.PathLike[str], top_n: int = 5) -> Path:
 
     Recomputes nothing. Raises :class:`orcscreen.store.StoreNotFoundError` when ``out_dir`` has
     no run store. A chart that fails is logged and named in the report; the report is still
-    written. ``top_n``: number of best cases (at the operating point of the best case) that get a
-    detail card with T-Q and T-s diagrams and appear in the landscape chart.
+    written. ``top_n``: number of best fluids (each in its best layout, at the operating point of
+    the best case) that get a detail card with T-Q and T-s diagrams and appear in the landscape
+    chart.
     """
     out_dir = Path(out_dir)
     data = _load(out_dir, max(0, int(top_n)))

@@ -1,0 +1,82 @@
+"""Regenerate the README's example figures in figures/ from the invented demo studies.
+
+    python scripts/make_figures.py            # demo study + the sweep study (a few minutes)
+    python scripts/make_figures.py --no-sweep # demo study only (under a minute)
+
+Runs studies/demo.toml (and studies/overnight-sweep.toml for the sweep charts) into a temporary
+directory with the ordinary batch, builds the report there (which draws every chart), and copies
+a few PNGs to figures/ under fixed names (see FIGURES). Nothing else in the repository changes.
+"""
+
+from __future__ import annotations
+
+import argparse
+import shutil
+import sys
+import tempfile
+from pathlib import Path
+
+REPO = Path(__file__).resolve().parent.parent
+
+#: README file name -> how to find the chart in DIR/figures/ (first match of the glob).
+FIGURES = {
+    "ranking.png": "ranking.png",
+    "tq-diagram.png": "tq_01_*.png",
+    "ts-diagram.png": "ts_01_*.png",
+    "tradeoff-size-parameter.png": "tradeoff_size_parameter.png",
+    "landscape.png": "landscape.png",
+}
+SWEEP_FIGURES = {
+    "sweep-source-temperature.png": "sweep_source.inlet_temperature_C.png",
+    "best-fluid-map.png": "map_source.inlet_temperature_C_sink.inlet_temperature_C.png",
+}
+
+
+def _run(study_path: Path, out_dir: Path, jobs: int | None) -> Path:
+    from orcscreen import report
+    from orcscreen.batch import run_study
+    from orcscreen.study import load_study
+
+    print(f"running {study_path.relative_to(REPO)} ...", flush=True)
+    run_study(load_study(study_path), out_dir, jobs=jobs, progress=False)
+    report.build_report(out_dir)
+    return out_dir / "figures"
+
+
+def _copy(figures: Path, wanted: dict[str, str], dest: Path) -> list[Path]:
+    written = []
+    for name, pattern in wanted.items():
+        found = sorted(figures.glob(pattern))
+        if not found:
+            raise SystemExit(f"make_figures: no chart matching {pattern} in {figures}")
+        target = dest / name
+        shutil.copyfile(found[0], target)
+        written.append(target)
+    return written
+
+
+def main(argv: list[str] | None = None) -> int:
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--study", type=Path, default=REPO / "studies" / "demo.toml")
+    parser.add_argument("--sweep-study", type=Path,
+                        default=REPO / "studies" / "overnight-sweep.toml")
+    parser.add_argument("--no-sweep", action="store_true", help="skip the sweep charts")
+    parser.add_argument("--dest", type=Path, default=REPO / "figures")
+    parser.add_argument("--jobs", type=int, default=None, help="worker processes (default: all)")
+    args = parser.parse_args(argv)
+
+    args.dest.mkdir(parents=True, exist_ok=True)
+    written = []
+    with tempfile.TemporaryDirectory(prefix="orcscreen-figures-") as tmp:
+        written += _copy(_run(args.study.resolve(), Path(tmp) / "demo", args.jobs), FIGURES,
+                         args.dest)
+        if not args.no_sweep:
+            written += _copy(_run(args.sweep_study.resolve(), Path(tmp) / "sweep", args.jobs),
+                             SWEEP_FIGURES, args.dest)
+    for path in written:
+        print(f"wrote {path.relative_to(REPO) if path.is_relative_to(REPO) else path}")
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())
