@@ -119,8 +119,9 @@ def _draw(records: list[FigureRecord], fig_dir: Path, stem: str, title: str, cap
         png, svg = plots.save_figure(ax.figure, fig_dir, stem)
         record.png, record.svg = png, svg
     except Exception as exc:  # noqa: BLE001 - a failing chart must never lose the report
-        log.exception("chart %s failed", stem)
         record.error = f"{type(exc).__name__}: {exc}"
+        log.warning("chart %s not drawn: %s", stem, record.error)
+        log.debug("chart %s failed", stem, exc_info=True)
     records.append(record)
 
 
@@ -136,12 +137,16 @@ def _point_note(point: Mapping) -> str:
 
 
 def make_figures(data: _RunData, fig_dir: Path) -> list[FigureRecord]:
-    """Draw every chart of the run into ``fig_dir``; one record per chart, failures included."""
+    """Draw every chart of the run into ``fig_dir``; one record per chart, failures included.
+
+    Without any feasible case there is nothing to draw (no chart, no error)."""
     fig_dir.mkdir(parents=True, exist_ok=True)
     for old in list(fig_dir.glob("*.png")) + list(fig_dir.glob("*.svg")):
         old.unlink()                 # charts of an earlier report (other top fluids, say)
     records: list[FigureRecord] = []
     ok = rank.feasible(data.table)
+    if ok.empty:
+        return records
     at_point = _at_point(ok, data.point) if data.point else ok
     note = _point_note(data.point)
 
@@ -784,7 +789,8 @@ def build_report(out_dir: str | os.PathLike[str], top_n: int = 5) -> Path:
     """Draw the charts and write ``out_dir/report.html`` from the run store; return its path.
 
     Recomputes nothing. Raises :class:`orcscreen.store.StoreNotFoundError` when ``out_dir`` has
-    no run store. A chart that fails is logged and named in the report; the report is still
+    no run store. ``out_dir/figures/`` belongs to the report: its PNG and SVG files are replaced
+    on every build. A chart that fails is logged and named in the report; the report is still
     written. ``top_n``: number of best fluids (each in its best layout, at the operating point of
     the best case) that get a detail card with T-Q and T-s diagrams and appear in the landscape
     chart.

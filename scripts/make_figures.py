@@ -38,7 +38,10 @@ def _run(study_path: Path, out_dir: Path, jobs: int | None) -> Path:
     from orcscreen.study import load_study
 
     print(f"running {study_path.relative_to(REPO)} ...", flush=True)
-    run_study(load_study(study_path), out_dir, jobs=jobs, progress=False)
+    summary = run_study(load_study(study_path), out_dir, jobs=jobs, progress=False)
+    print(f"  {summary}", flush=True)
+    if not summary.ok:
+        raise SystemExit(f"make_figures: no feasible case in {study_path.name}; nothing to draw")
     report.build_report(out_dir)
     return out_dir / "figures"
 

@@ -309,3 +309,17 @@ def test_cautions_fall_back_to_the_readme_section(monkeypatch, tmp_path):
         assert paras and all(p.strip() for p in paras)
     else:
         assert paras == [report._FALLBACK_CAUTIONS]
+
+
+def test_a_run_without_feasible_case_still_gets_a_report(tmp_path):
+    """Carbon dioxide cannot evaporate below its critical point (31 °C, NIST Chemistry WebBook,
+    from memory) above the condensing temperature of a 20 °C sink: every case is infeasible."""
+    study = {**STUDY, "study": {"name": "nothing feasible"},
+             "fluids": {"include": ["CarbonDioxide"]}}
+    run_study(study_from_dict(study), tmp_path, jobs=1, progress=False)
+    text = report.build_report(tmp_path).read_text(encoding="utf-8")
+    page = _parse(text)
+    assert "No case is feasible." in _section(page, "ranking")
+    assert len(page.tables["problems-table"]["rows"]) == 2
+    assert "chart-problems" not in text
+    assert not list((tmp_path / "figures").glob("*.png"))
