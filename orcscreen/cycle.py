@@ -166,6 +166,7 @@ class _ColdSide:
     q_rec: float
     recuperator_active: bool
     rec_profile: Profile | None = None  # per unit mass flow (Q in J/kg), exact mode only
+    cond_check: tuple | None = None  # exact condenser approach, kept once computed
 
 
 def _two_phase_state(sat, T_K: float, q: float) -> State:
@@ -326,10 +327,10 @@ def _condenser_wf_path(fluid: Fluid, cs: _ColdSide, n: int, exact: bool) -> tupl
     labels = ["cold end"]
     if cs.s1.h < sat.hL - 1e-9:  # subcooled liquid zone
         if exact:
-            hz = np.linspace(h1, sat.hL, n + 1)[1:-1]
-            pts_h.extend(hz)
-            pts_T.extend(_isobar_temperatures(fluid, sat.p_Pa, hz, cs.s1, "liquid"))
-            labels.extend(["subcooling zone"] * len(hz))
+            Tz = np.linspace(cs.s1.T_K, sat.T_K, n + 1)[1:-1]
+            pts_h.extend(fluid.h_pT_array(sat.p_Pa, Tz, "liquid"))
+            pts_T.extend(Tz)
+            labels.extend(["subcooling zone"] * len(Tz))
         pts_h.append(sat.hL)
         pts_T.append(sat.T_K)
         labels.append("bubble point")
@@ -339,10 +340,10 @@ def _condenser_wf_path(fluid: Fluid, cs: _ColdSide, n: int, exact: bool) -> tupl
     labels.append("dew point")
     if h_in > sat.hV + 1e-9:
         if exact:
-            hz = np.linspace(h_in, sat.hV, n + 1)[1:-1]
-            pts_h.extend(hz[::-1])
-            pts_T.extend(_isobar_temperatures(fluid, sat.p_Pa, hz, cs.s4r, "gas")[::-1])
-            labels.extend(["desuperheating zone"] * len(hz))
+            Tz = np.linspace(sat.T_K, cs.s4r.T_K, n + 1)[1:-1]
+            pts_h.extend(fluid.h_pT_array(sat.p_Pa, Tz, "gas"))
+            pts_T.extend(Tz)
+            labels.extend(["desuperheating zone"] * len(Tz))
         pts_h.append(h_in)
         pts_T.append(cs.s4r.T_K)
         labels.append("hot end")
@@ -350,15 +351,24 @@ def _condenser_wf_path(fluid: Fluid, cs: _ColdSide, n: int, exact: bool) -> tupl
 
 
 def _condenser_approach(fluid, sink, cs: _ColdSide, n: int, exact: bool):
-    """Minimum working fluid - sink temperature difference [K] and where it occurs."""
+    """Minimum working fluid - sink temperature difference [K] and where it occurs.
+
+    The exact (discretised) result is kept on the cold side, so the reported profile is the
+    one that was checked.
+    """
+    if exact and cs.cond_check is not None:
+        return cs.cond_check
     h, T, labels = _condenser_wf_path(fluid, cs, n, exact)
     frac = (h - h[0]) / (h[-1] - h[0])
-    hs_in = sink.h_J_kg(sink.T_in_K)
+    hs_in = sink.h_in_J_kg
     hs_out = sink.h_J_kg(sink.T_out_K)
     T_sink = sink.T_K(hs_in + frac * (hs_out - hs_in))
     dT = T - T_sink
     j = int(np.argmin(dT))
-    return float(dT[j]), labels[j], (h, T, T_sink)
+    out = float(dT[j]), labels[j], (h, T, T_sink)
+    if exact:
+        cs.cond_check = out
+    return out
 
 
 def _solve_condenser(fluid, sink, s, recuperated, sat_e, st3, exact, T_guess_K=None) -> _ColdSide:
@@ -414,10 +424,10 @@ def _evaporator_path(fluid, sat_e, st_in: State, st3: State, n: int, exact: bool
     T = [st_in.T_K]
     labels = ["economiser inlet"]
     if exact:
-        hz = np.linspace(st_in.h, sat_e.hL, n + 1)[1:-1]
-        h.extend(hz)
-        T.extend(_isobar_temperatures(fluid, sat_e.p_Pa, hz, st_in, "liquid"))
-        labels.extend(["economiser"] * len(hz))
+        Tz = np.linspace(st_in.T_K, sat_e.T_K, n + 1)[1:-1]
+        h.extend(fluid.h_pT_array(sat_e.p_Pa, Tz, "liquid"))
+        T.extend(Tz)
+        labels.extend(["economiser"] * len(Tz))
     h.append(sat_e.hL)
     T.append(sat_e.T_K)
     labels.append("bubble point")
@@ -426,14 +436,32 @@ def _evaporator_path(fluid, sat_e, st_in: State, st3: State, n: int, exact: bool
     labels.append("dew point")
     if st3.h > sat_e.hV + 1e-9:
         if exact:
-            hz = np.linspace(st3.h, sat_e.hV, n + 1)[1:-1]
-            h.extend(hz[::-1])
-            T.extend(_isobar_temperatures(fluid, sat_e.p_Pa, hz, st3, "gas")[::-1])
-            labels.extend(["superheater"] * len(hz))
+            Tz = np.linspace(sat_e.T_K, st3.T_K, n + 1)[1:-1]
+            h.extend(fluid.h_pT_array(sat_e.p_Pa, Tz, "gas"))
+            T.extend(Tz)
+            labels.extend(["superheater"] * len(Tz))
         h.append(st3.h)
         T.append(st3.T_K)
         labels.append("hot end")
     return np.array(h), np.array(T), labels
+
+
+def _refine_zone_pinch(fluid, source, s, p_Pa, h_out, hs_in, T_a, T_b, phase):
+    """Pinch-limited flow inside one single-phase zone, between two discretisation points.
+
+    The flow bound m(T) = m_s (h_s,in - h_s(T + pinch)) / (h_out - h_wf(p, T)) is minimised over
+    the working-fluid temperature T in [T_a, T_b] by a bounded Brent search (xatol 1e-5 K).
+    Returns (flow [kg/s], T [K], h [J/kg]) at the pinch.
+    """
+    from scipy.optimize import minimize_scalar
+
+    def bound(T):
+        h = float(fluid.h_pT_array(p_Pa, (T,), phase)[0])
+        return source.m_kg_s * (hs_in - float(source.h_J_kg(T + s.pinch_evaporator_K))) / (h_out - h)
+
+    res = minimize_scalar(bound, bounds=(float(T_a), float(T_b)), method="bounded", options={"xatol": 1e-5})
+    T = float(res.x)
+    return float(res.fun), T, float(fluid.h_pT_array(p_Pa, (T,), phase)[0])
 
 
 def evaluate(
@@ -509,6 +537,20 @@ def _evaluate(fluid, source, sink, s, layout, T_evap_K, superheat_K, exact, T_co
     hs_at = source.h_J_kg(T_path + s.pinch_evaporator_K)
     m_wf, j = max_flow_for_pinch(h_path, T_path, st3.h, hs_in, hs_at, source.m_kg_s)
     location = labels[j]
+    if exact:
+        # the pinch may lie between two points of a single-phase zone: search between the
+        # neighbours of the discrete minimum, inside its zone
+        ib, id_ = labels.index("bubble point"), labels.index("dew point")
+        zone = (0, ib, "liquid", "economiser") if j <= ib else (id_, len(labels) - 1, "gas", "superheater")
+        a, b = max(j - 1, zone[0]), min(j + 1, zone[1])
+        if b > a and T_path[b] > T_path[a]:
+            m_ref, T_j, h_j = _refine_zone_pinch(fluid, source, s, sat_e.p_Pa, st3.h, hs_in, T_path[a], T_path[b], zone[2])
+            if m_ref < m_wf:
+                m_wf, location = m_ref, zone[3]
+                k = int(np.searchsorted(h_path, h_j))
+                h_path = np.insert(h_path, k, h_j)
+                T_path = np.insert(T_path, k, T_j)
+                labels.insert(k, location)
     if source.T_out_min_K is not None:
         m_lim = source.m_kg_s * (hs_in - float(source.h_J_kg(source.T_out_min_K))) / (st3.h - st2r.h)
         if m_lim < m_wf:
@@ -525,7 +567,7 @@ def _evaluate(fluid, source, sink, s, layout, T_evap_K, superheat_K, exact, T_co
     Q_out = m_wf * (st4r.h - st1.h)
     W_aux = s.aux_power_per_W_rejected * Q_out
     W_net = s.generator_efficiency * W_t - W_p / s.motor_efficiency - W_aux
-    dh_sink = float(sink.h_J_kg(sink.T_out_K) - sink.h_J_kg(sink.T_in_K))
+    dh_sink = float(sink.h_J_kg(sink.T_out_K) - sink.h_in_J_kg)
     states = {"1": st1, "2": st2}
     if layout.recuperator:
         states["2r"] = st2r

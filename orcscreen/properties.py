@@ -234,6 +234,27 @@ class Fluid:
         finally:
             self._AS.unspecify_phase()
 
+    def h_pT_array(self, p_Pa: float, T_K, phase: str):
+        """Specific enthalpies [J/kg] at pressure p_Pa [Pa] and each temperature of T_K [K].
+
+        The phase ("liquid" or "gas"), known to the caller, is imposed: one (p, T) update per
+        point, no phase search. Used to discretise single-phase zones of exchanger profiles.
+        """
+        import numpy as np
+
+        AS = self._AS
+        out = np.empty(len(T_K))
+        AS.specify_phase(_PHASES[phase])
+        try:
+            for i, T in enumerate(T_K):
+                AS.update(CP.PT_INPUTS, p_Pa, float(T))
+                out[i] = AS.hmass()
+        except ValueError as exc:
+            raise PropertyError(f"{self.name}: {phase} enthalpy failed at p = {p_Pa / 1e5:.6g} bar: {exc}") from None
+        finally:
+            AS.unspecify_phase()
+        return out
+
     def state_Tq(self, T_K: float, q: float) -> State:
         """Two-phase state at temperature T_K [K] and quality q [-]."""
         return self._state(CP.QT_INPUTS, q, T_K, f"T = {T_K - 273.15:.6g} °C, quality {q:.4g}")
