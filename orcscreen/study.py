@@ -1124,14 +1124,15 @@ def _canonical(obj: Any) -> str:
 def case_key(case: Mapping[str, Any]) -> str:
     """Stable key of a case: first 16 hex digits of sha256 over its canonical JSON and versions.
 
-    Every input is covered except the study name, so renaming a study recomputes nothing. The
+    Every input is covered except the study name and the case time limit (neither changes the
+    physics), so renaming a study or giving cases more time recomputes nothing. The
     "sweep" entry is covered too: the store keeps each row's swept values, and a case reused
     under another sweep shape would carry stale sweep columns. Extending a sweep axis keeps the
     keys of the points already computed.
     """
     body = dict(case)
     if isinstance(body.get("study"), Mapping):
-        body["study"] = {k: v for k, v in body["study"].items() if k != "name"}
+        body["study"] = {k: v for k, v in body["study"].items() if k not in ("name", "case_time_limit_s")}
     text = _canonical({"case": body, "versions": _versions()})
     return hashlib.sha256(text.encode("ascii")).hexdigest()[:16]
 

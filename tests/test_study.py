@@ -273,7 +273,7 @@ def test_case_key_is_16_hex_and_stable_across_loads_and_int_float_spelling():
     ("machines", "turbine_efficiency", 0.81),
     ("cycle", "superheat_K", "optimise"),
     ("limits", "max_pressure_bar", 25.0),
-    ("study", "case_time_limit_s", 30.0),
+    ("cycle", "subcooling_K", 2.0),
 ])
 def test_case_key_changes_with_any_input(section, key, value):
     base = list(make().cases())[0]
@@ -290,6 +290,13 @@ def test_case_key_differs_between_fluids_and_layouts_of_a_study():
 def test_case_key_ignores_the_study_name():
     a = list(make().cases())[0]
     b = list(make(study={"name": "renamed"}).cases())[0]
+    assert case_key(a) == case_key(b)
+
+
+def test_case_key_ignores_the_case_time_limit():
+    """More time per case changes no physics: finished cases are not recomputed."""
+    a = list(make().cases())[0]
+    b = list(make(study={"case_time_limit_s": 600.0}).cases())[0]
     assert case_key(a) == case_key(b)
 
 
