@@ -4,8 +4,9 @@
     python scripts/make_figures.py --no-sweep # demo study only (under a minute)
 
 Runs studies/demo.toml (and studies/overnight-sweep.toml for the sweep charts) into a temporary
-directory with the ordinary batch, builds the report there (which draws every chart), and copies
-a few PNGs to figures/ under fixed names (see FIGURES). Nothing else in the repository changes.
+directory with the ordinary batch, builds the report there (which draws every chart), copies a
+few PNGs to figures/ under fixed names (FIGURES, SWEEP_FIGURES) and draws figures/ranking.png
+with the best README_BARS cases. Nothing else in the repository changes.
 """
 
 from __future__ import annotations
@@ -20,7 +21,6 @@ REPO = Path(__file__).resolve().parent.parent
 
 #: README file name -> how to find the chart in DIR/figures/ (first match of the glob).
 FIGURES = {
-    "ranking.png": "ranking.png",
     "tq-diagram.png": "tq_01_*.png",
     "ts-diagram.png": "ts_01_*.png",
     "tradeoff-size-parameter.png": "tradeoff_size_parameter.png",
@@ -44,6 +44,22 @@ def _run(study_path: Path, out_dir: Path, jobs: int | None) -> Path:
         raise SystemExit(f"make_figures: no feasible case in {study_path.name}; nothing to draw")
     report.build_report(out_dir)
     return out_dir / "figures"
+
+
+#: bars in the README's ranking chart (the report's own chart shows up to 40)
+README_BARS = 20
+
+
+def _ranking(run_dir: Path, dest: Path) -> Path:
+    """The README's ranking chart: the best README_BARS cases of the demo run."""
+    from orcscreen import plots
+    from orcscreen.outputs import ranking_table
+    from orcscreen.store import RunStore
+
+    with RunStore(run_dir, create=False) as store:
+        table = ranking_table(store.rows(), store.meta())
+    ax = plots.ranking_chart(table, max_bars=README_BARS)
+    return plots.save_figure(ax.figure, dest, "ranking", formats=("png",))[0]
 
 
 def _copy(figures: Path, wanted: dict[str, str], dest: Path) -> list[Path]:
@@ -71,8 +87,9 @@ def main(argv: list[str] | None = None) -> int:
     args.dest.mkdir(parents=True, exist_ok=True)
     written = []
     with tempfile.TemporaryDirectory(prefix="orcscreen-figures-") as tmp:
-        written += _copy(_run(args.study.resolve(), Path(tmp) / "demo", args.jobs), FIGURES,
-                         args.dest)
+        demo = Path(tmp) / "demo"
+        written += _copy(_run(args.study.resolve(), demo, args.jobs), FIGURES, args.dest)
+        written.append(_ranking(demo, args.dest))
         if not args.no_sweep:
             written += _copy(_run(args.sweep_study.resolve(), Path(tmp) / "sweep", args.jobs),
                              SWEEP_FIGURES, args.dest)
