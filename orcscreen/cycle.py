@@ -446,6 +446,35 @@ def _evaporator_path(fluid, sat_e, st_in: State, st3: State, n: int, exact: bool
     return np.array(h), np.array(T), labels
 
 
+def _fast_interior_pinch(fluid, source, s, sat_e, st_in: State, st3: State, hs_in: float) -> tuple[float, str]:
+    """Closed-form test for a pinch inside the economiser or the superheater (fast mode).
+
+    The flow bound m(T) = N/D, N = m_s (h_s,in - h_s(T + pinch)), D = h3 - h_wf(T), has
+    dm/dT of the sign of N cp_wf - m_s cp_s D. If m rises into the bubble point (economiser side)
+    or falls away from the dew point (superheater side), a smaller bound lies inside that zone and
+    a bounded search finds it; otherwise the zone ends already bound the flow. Costs two (p, T)
+    updates when no zone needs the search. Returns (bound [kg/s], zone name), inf if none.
+    """
+    p, T_e, dT, m_s = sat_e.p_Pa, sat_e.T_K, s.pinch_evaporator_K, source.m_kg_s
+
+    def slope_sign(T, h, cp_wf):
+        N = m_s * (hs_in - float(source.h_J_kg(T + dT)))
+        return N * cp_wf - m_s * float(source.cp_J_kgK(T + dT)) * (st3.h - h)
+
+    best = (math.inf, "")
+    if st_in.T_K < T_e - 1e-6:
+        cpL = fluid.state_pT(p, T_e, "liquid").cp
+        if slope_sign(T_e, sat_e.hL, cpL) > 0.0:
+            m, _, _ = _refine_zone_pinch(fluid, source, s, p, st3.h, hs_in, st_in.T_K, T_e, "liquid")
+            best = min(best, (m, "economiser"))
+    if st3.T_K > T_e + 1e-6:
+        cpV = fluid.state_pT(p, T_e, "gas").cp
+        if slope_sign(T_e, sat_e.hV, cpV) < 0.0:
+            m, _, _ = _refine_zone_pinch(fluid, source, s, p, st3.h, hs_in, T_e, st3.T_K, "gas")
+            best = min(best, (m, "superheater"))
+    return best
+
+
 def _refine_zone_pinch(fluid, source, s, p_Pa, h_out, hs_in, T_a, T_b, phase):
     """Pinch-limited flow inside one single-phase zone, between two discretisation points.
 
@@ -551,6 +580,10 @@ def _evaluate(fluid, source, sink, s, layout, T_evap_K, superheat_K, exact, T_co
                 h_path = np.insert(h_path, k, h_j)
                 T_path = np.insert(T_path, k, T_j)
                 labels.insert(k, location)
+    else:
+        m_int, where = _fast_interior_pinch(fluid, source, s, sat_e, st2r, st3, hs_in)
+        if m_int < m_wf:
+            m_wf, location = m_int, where
     if source.T_out_min_K is not None:
         m_lim = source.m_kg_s * (hs_in - float(source.h_J_kg(source.T_out_min_K))) / (st3.h - st2r.h)
         if m_lim < m_wf:

@@ -23,20 +23,34 @@ N_GRID = 1000
 TOLERANCE = 5e-4
 
 
-def grid_optimum_W(fluid, source, sink, settings, layout, superheat_K, n=N_GRID):
-    """Best net power [W] of a dense grid of evaporation temperatures, refined locally."""
-    T_lo, T_hi, _ = evaporation_window_K(fluid, source, sink, settings, superheat_K)
-    grid = np.linspace(T_lo, T_hi, n)
-    W = np.full(n, -np.inf)
+def _grid(fluid, source, sink, settings, layout, superheat_K, grid, exact):
+    W = np.full(len(grid), -np.inf)
     guess = None
     for i, T in enumerate(grid):
-        r = evaluate(fluid, source, sink, settings, layout, float(T), superheat_K, exact=False, T_cond_guess_K=guess)
+        r = evaluate(fluid, source, sink, settings, layout, float(T), superheat_K, exact=exact, T_cond_guess_K=guess)
         if r.ok:
             W[i] = r.W_net_W
             guess = r.T_cond_K
+    return W
+
+
+def grid_optimum_W(fluid, source, sink, settings, layout, superheat_K, n=N_GRID):
+    """Best net power [W] of a dense grid of evaporation temperatures, refined locally.
+
+    The grid runs on the closed-form model (fast); where that model and the discretised one
+    (what is reported) disagree at the grid's best point, the whole grid is redone on the
+    discretised model, so the reference is always the reported model.
+    """
+    T_lo, T_hi, _ = evaporation_window_K(fluid, source, sink, settings, superheat_K)
+    grid = np.linspace(T_lo, T_hi, n)
+    W = _grid(fluid, source, sink, settings, layout, superheat_K, grid, exact=False)
     i = int(np.argmax(W))
     if not np.isfinite(W[i]):
         return -np.inf
+    r = evaluate(fluid, source, sink, settings, layout, float(grid[i]), superheat_K, exact=True)
+    if not r.ok or abs(r.W_net_W - W[i]) > 1e-6 * W[i]:
+        W = _grid(fluid, source, sink, settings, layout, superheat_K, grid, exact=True)
+        i = int(np.argmax(W))
     fine = np.linspace(grid[max(i - 1, 0)], grid[min(i + 1, n - 1)], 41)
     best = -np.inf
     for T in fine:
@@ -57,8 +71,10 @@ def _case_objects(case):
     )
 
 
-def test_optimiser_matches_dense_grid_on_demo_study():
-    study = load_study(STUDIES / "demo.toml")
+@pytest.mark.parametrize("name", ["demo", "geothermal-brine", "kiln-exhaust", "engine-jacket-water"])
+def test_optimiser_matches_dense_grid(name):
+    """Every feasible case of the single-point studies with a fixed superheat."""
+    study = load_study(STUDIES / f"{name}.toml")
     checked = 0
     worst = 0.0
     for case in study.cases():
@@ -73,8 +89,8 @@ def test_optimiser_matches_dense_grid_on_demo_study():
         worst = max(worst, shortfall)
         assert shortfall <= TOLERANCE, (row["fluid"], row["layout"], W_opt, W_grid)
         checked += 1
-    assert checked >= 30
-    print(f"worst shortfall against the dense grid: {worst:.2e} over {checked} cases")
+    assert checked >= (30 if name == "demo" else 10)
+    print(f"{name}: worst shortfall against the dense grid {worst:.2e} over {checked} cases")
 
 
 def test_optimised_superheat_matches_grid():
