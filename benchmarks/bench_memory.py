@@ -10,7 +10,9 @@ Memory, all from the kernel: every --poll seconds the script lists the run's pro
 /proc/<pid>/status; it reports the largest sum of VmRSS over the tree seen at one sample, the
 largest VmHWM of any one process (the driver and the workers separately), and ru_maxrss from
 os.wait4 on the CLI process (the largest single process of the tree, workers included once
-they have been waited for). Then the ratio largest size / smallest size of each. Only prints
+they have been waited for). The driver's VmRSS in the middle of the run (largest sample
+between 40 and 60 % of the wall time) is printed too: it separates the streaming batch from
+the tables written at the end (ranking.csv is built from every stored row). Then the ratio largest size / smallest size of each. Only prints
 figures.
 
     python benchmarks/bench_memory.py                          # 1,000, 10,000, 20,000 cases
@@ -57,6 +59,7 @@ def measure(study_path: Path, out_dir: Path, jobs: int, poll_s: float) -> dict:
     peak_sum = 0
     peak_sum_at = 0.0
     hwm: dict[int, int] = {}
+    samples: list[tuple[float, int]] = []  # (time [s], driver VmRSS [kB])
     t0 = time.perf_counter()
     with open(log, "w") as fh:
         proc = bl.start(cmd, stdout=fh, stderr=subprocess.STDOUT)
@@ -71,6 +74,8 @@ def measure(study_path: Path, out_dir: Path, jobs: int, poll_s: float) -> dict:
                     rss, h = bl.memory_kB(p)
                     total += rss
                     hwm[p] = max(hwm.get(p, 0), h)
+                    if p == proc.pid:
+                        samples.append((time.perf_counter() - t0, rss))
                 if total > peak_sum:
                     peak_sum, peak_sum_at = total, time.perf_counter() - t0
                 time.sleep(poll_s)
@@ -79,7 +84,9 @@ def measure(study_path: Path, out_dir: Path, jobs: int, poll_s: float) -> dict:
             raise
     wall = time.perf_counter() - t0
     driver = hwm.pop(proc.pid, 0)
+    mid = [rss for t, rss in samples if 0.4 * wall <= t <= 0.6 * wall]
     return {
+        "driver_mid_kB": max(mid, default=0),
         "rc": proc.returncode,
         "wall_s": wall,
         "peak_tree_sum_kB": peak_sum,
@@ -119,7 +126,8 @@ def main(argv=None) -> int:
             r["cases"] = n_real
             results.append(r)
             print(f"{n_real:>7} cases: wall {r['wall_s']:7.1f} s, exit {r['rc']}; peak RSS summed over the tree {r['peak_tree_sum_kB'] / 1024:7.1f} MiB"
-                  f" (at {r['peak_tree_sum_at']:.0%} of the run); driver VmHWM {r['driver_hwm_kB'] / 1024:7.1f} MiB;"
+                  f" (at {r['peak_tree_sum_at']:.0%} of the run); driver VmHWM {r['driver_hwm_kB'] / 1024:7.1f} MiB"
+                  f" (VmRSS {r['driver_mid_kB'] / 1024:.1f} MiB mid-run, 40-60 %);"
                   f" largest worker VmHWM {r['worker_hwm_kB'] / 1024:7.1f} MiB; ru_maxrss {r['ru_maxrss_kB'] / 1024:7.1f} MiB;"
                   f" {r['processes']} processes seen; store {r['store_MB']:.1f} MB")
             if r["rc"] != 0:
@@ -130,7 +138,7 @@ def main(argv=None) -> int:
             a, b = results[0], results[-1]
             print(f"\nratio {b['cases']} / {a['cases']} cases:")
             for key, label in (("peak_tree_sum_kB", "peak RSS summed over the process tree"),
-                               ("driver_hwm_kB", "driver VmHWM"), ("worker_hwm_kB", "largest worker VmHWM"),
+                               ("driver_hwm_kB", "driver VmHWM"), ("driver_mid_kB", "driver VmRSS mid-run (40-60 % of the run)"), ("worker_hwm_kB", "largest worker VmHWM"),
                                ("ru_maxrss_kB", "ru_maxrss (largest single process)")):
                 ratio = b[key] / a[key] if a[key] else math.nan
                 print(f"  {label:<40} {ratio:6.2f}")

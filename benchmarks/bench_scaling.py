@@ -59,7 +59,7 @@ def scaled_study(n_cases: int) -> tuple[dict, str]:
     raw["study"] = dict(raw.get("study", {}), name=f"bench_scaling: {n_src * n_sink * per_point} cases")
     total = n_src * n_sink * per_point
     note = (f"generated from studies/overnight-sweep.toml (which has {_file_cases():,} cases): "
-            f"{n_src} source temperatures {sources[0]:g}-{sources[-1]:g} °C x {n_sink} sink temperatures "
+            f"{n_src} source temperature(s) {sources[0]:g}-{sources[-1]:g} °C x {n_sink} sink temperature(s) "
             f"{', '.join(f'{s:g}' for s in sinks)} °C x {fluid_note} x {len(base.layouts)} layouts = {total} cases")
     return raw, note
 
