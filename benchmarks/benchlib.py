@@ -237,17 +237,6 @@ def memory_kB(pid: int) -> tuple[int, int]:
     return rss, hwm
 
 
-def wait_with_rusage(proc: subprocess.Popen):
-    """Wait for a child with os.wait4; returns (exit status, resource usage of it and its waited-for children)."""
-    _, status, usage = os.wait4(proc.pid, 0)
-    proc.returncode = os.waitstatus_to_exitcode(status)
-    return proc.returncode, usage
-
-
-def now() -> float:
-    return time.perf_counter()
-
-
 # -- orcscreen in this process ------------------------------------------------------------------
 
 def case_objects(case: dict):
