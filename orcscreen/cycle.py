@@ -548,7 +548,7 @@ def _evaluate(fluid, source, sink, s, layout, T_evap_K, superheat_K, exact, T_co
         cs = _cold_side(fluid, s, layout.recuperator, sat_e, st3, T_cond_fixed_K, exact)
     known.update(T_cond_K=cs.T_cond_K, p_cond_Pa=cs.p_cond_Pa, p_evap_Pa=sat_e.p_Pa)
     st1, st2, st2r, st4, st4r = cs.s1, cs.s2, cs.s2r, cs.s4, cs.s4r
-    if st2r.h >= sat_e.hL:
+    if st2r.h > sat_e.hL + 1e-6:  # the recuperator may heat the liquid up to saturation, no further
         raise CycleInfeasible("recuperator", "the recuperator would boil the working fluid")
     if not math.isnan(st4.q) and st4.q < s.min_turbine_outlet_quality:
         raise CycleInfeasible(

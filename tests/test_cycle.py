@@ -96,3 +96,22 @@ def test_superheated_steam_cycle_conservation():
     eta = r.W_net_W / r.Q_in_W
     assert 0.371 < eta < 1.0 - r.states["1"].T_K / r.states["3"].T_K
     assert math.isclose(r.Q_in_W - r.Q_out_W, r.W_turbine_W - r.W_pump_W, rel_tol=1e-12)
+
+
+def test_recuperator_may_heat_the_liquid_to_saturation():
+    """A very dry fluid (n-decane, 40 K superheat, 60 °C evaporation) whose recuperator is
+    capped by the bubble point is feasible; the laws hold. No published value: conservation,
+    the recuperator pinch and the bubble-point cap (the cold side stays liquid)."""
+    from orcscreen import streams
+
+    src = streams.source_from_settings({"kind": "water", "inlet_temperature_C": 200.0, "mass_flow_kg_s": 10.0, "pressure_bar": 20.0})
+    snk = streams.sink_from_settings({"kind": "water", "inlet_temperature_C": 20.0, "temperature_rise_K": 10.0})
+    f = get_fluid("n-Decane")
+    s = CycleSettings()
+    r = evaluate(f, src, snk, s, LAYOUTS["recuperated"], 333.15, 40.0, exact=True)
+    assert r.ok, r.reason
+    sat = f.sat_T(333.15)
+    assert r.states["2r"].h <= sat.hL + 1e-6
+    assert r.Q_rec_W > 0.0
+    assert r.profiles["recuperator"].min_approach_K >= s.pinch_recuperator_K - 1e-6
+    assert math.isclose(r.Q_in_W - r.Q_out_W, r.W_turbine_W - r.W_pump_W, rel_tol=1e-9)
