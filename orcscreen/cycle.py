@@ -371,7 +371,11 @@ def _condenser_approach(fluid, sink, cs: _ColdSide, n: int, exact: bool):
     return out
 
 
-def _solve_condenser(fluid, sink, s, recuperated, sat_e, st3, exact, T_guess_K=None) -> _ColdSide:
+#: Tolerance [K] on the condensing temperature of the closed-form (fast) model.
+COND_TOL_FAST_K = 2e-4
+
+
+def _solve_condenser(fluid, sink, s, recuperated, sat_e, st3, exact, T_guess_K=None, tol_K=COND_TOL_FAST_K) -> _ColdSide:
     """Lowest condensing temperature that keeps the condenser pinch (fixed-point with secant)."""
     dT_pinch = s.pinch_condenser_K
     T_floor = sink.T_in_K + dT_pinch + s.subcooling_K
@@ -388,7 +392,7 @@ def _solve_condenser(fluid, sink, s, recuperated, sat_e, st3, exact, T_guess_K=N
         # converge on the closed-form candidates first, then on the discretised profile
         T = _condenser_iterations(fluid, sink, s, recuperated, sat_e, st3, T, T_floor, False, 1e-9).T_cond_K
         return _condenser_iterations(fluid, sink, s, recuperated, sat_e, st3, T, T_floor, True, 1e-9)
-    return _condenser_iterations(fluid, sink, s, recuperated, sat_e, st3, T, T_floor, False, 2e-4)
+    return _condenser_iterations(fluid, sink, s, recuperated, sat_e, st3, T, T_floor, False, tol_K)
 
 
 def _condenser_iterations(fluid, sink, s, recuperated, sat_e, st3, T, T_floor, exact, tol) -> _ColdSide:
@@ -465,21 +469,22 @@ def _fast_interior_pinch(fluid, source, s, sat_e, st_in: State, st3: State, hs_i
     if st_in.T_K < T_e - 1e-6:
         cpL = fluid.state_pT(p, T_e, "liquid").cp
         if slope_sign(T_e, sat_e.hL, cpL) > 0.0:
-            m, _, _ = _refine_zone_pinch(fluid, source, s, p, st3.h, hs_in, st_in.T_K, T_e, "liquid")
+            m, _, _ = _refine_zone_pinch(fluid, source, s, p, st3.h, hs_in, st_in.T_K, T_e, "liquid", 1e-3)
             best = min(best, (m, "economiser"))
     if st3.T_K > T_e + 1e-6:
         cpV = fluid.state_pT(p, T_e, "gas").cp
         if slope_sign(T_e, sat_e.hV, cpV) < 0.0:
-            m, _, _ = _refine_zone_pinch(fluid, source, s, p, st3.h, hs_in, T_e, st3.T_K, "gas")
+            m, _, _ = _refine_zone_pinch(fluid, source, s, p, st3.h, hs_in, T_e, st3.T_K, "gas", 1e-3)
             best = min(best, (m, "superheater"))
     return best
 
 
-def _refine_zone_pinch(fluid, source, s, p_Pa, h_out, hs_in, T_a, T_b, phase):
+def _refine_zone_pinch(fluid, source, s, p_Pa, h_out, hs_in, T_a, T_b, phase, xatol_K=1e-5):
     """Pinch-limited flow inside one single-phase zone, between two discretisation points.
 
     The flow bound m(T) = m_s (h_s,in - h_s(T + pinch)) / (h_out - h_wf(p, T)) is minimised over
-    the working-fluid temperature T in [T_a, T_b] by a bounded Brent search (xatol 1e-5 K).
+    the working-fluid temperature T in [T_a, T_b] by a bounded Brent search (xatol_K [K]; the
+    bound is flat at its minimum, so 1e-3 K already gives the flow to about 1e-8).
     Returns (flow [kg/s], T [K], h [J/kg]) at the pinch.
     """
     from scipy.optimize import minimize_scalar
@@ -488,7 +493,7 @@ def _refine_zone_pinch(fluid, source, s, p_Pa, h_out, hs_in, T_a, T_b, phase):
         h = float(fluid.h_pT_array(p_Pa, (T,), phase)[0])
         return source.m_kg_s * (hs_in - float(source.h_J_kg(T + s.pinch_evaporator_K))) / (h_out - h)
 
-    res = minimize_scalar(bound, bounds=(float(T_a), float(T_b)), method="bounded", options={"xatol": 1e-5})
+    res = minimize_scalar(bound, bounds=(float(T_a), float(T_b)), method="bounded", options={"xatol": xatol_K})
     T = float(res.x)
     return float(res.fun), T, float(fluid.h_pT_array(p_Pa, (T,), phase)[0])
 
@@ -505,6 +510,7 @@ def evaluate(
     T_cond_guess_K: float | None = None,
     T_cond_K: float | None = None,
     m_wf_kg_s: float | None = None,
+    cond_tol_K: float = COND_TOL_FAST_K,
 ) -> CycleResult:
     """One subcritical cycle at evaporation temperature T_evap_K [K] and superheat_K [K].
 
@@ -515,17 +521,18 @@ def evaluate(
 
     For exploring by hand: T_cond_K fixes the condensing temperature (the sink may then be None
     and its pinch is not checked) and m_wf_kg_s fixes the working-fluid flow (the source may then
-    be None and its pinch is not checked).
+    be None and its pinch is not checked). cond_tol_K is the tolerance on the condensing
+    temperature of the fast model (the exact model always converges to 1e-9 K).
     """
     s = settings
     known = {"T_evap_K": T_evap_K, "superheat_K": superheat_K}
     try:
-        return _evaluate(fluid, source, sink, s, layout, T_evap_K, superheat_K, exact, T_cond_guess_K, known, T_cond_K, m_wf_kg_s)
+        return _evaluate(fluid, source, sink, s, layout, T_evap_K, superheat_K, exact, T_cond_guess_K, known, T_cond_K, m_wf_kg_s, cond_tol_K)
     except CycleInfeasible as exc:
         return _infeasible(exc.limit, exc.reason, exc.margin, **known)
 
 
-def _evaluate(fluid, source, sink, s, layout, T_evap_K, superheat_K, exact, T_cond_guess_K, known, T_cond_fixed_K=None, m_wf_fixed=None) -> CycleResult:
+def _evaluate(fluid, source, sink, s, layout, T_evap_K, superheat_K, exact, T_cond_guess_K, known, T_cond_fixed_K=None, m_wf_fixed=None, cond_tol_K=COND_TOL_FAST_K) -> CycleResult:
     if T_evap_K >= fluid.T_crit_K:
         raise CycleInfeasible("critical point", f"evaporation temperature {_C(T_evap_K)} is not below the critical temperature of {fluid.name} ({_C(fluid.T_crit_K)})")
     sat_e = fluid.sat_T(T_evap_K)
@@ -543,7 +550,7 @@ def _evaluate(fluid, source, sink, s, layout, T_evap_K, superheat_K, exact, T_co
         st3 = State(T_evap_K, sat_e.p_Pa, sat_e.hV, sat_e.sV, sat_e.vV, 1.0)
 
     if T_cond_fixed_K is None:
-        cs = _solve_condenser(fluid, sink, s, layout.recuperator, sat_e, st3, exact, T_cond_guess_K)
+        cs = _solve_condenser(fluid, sink, s, layout.recuperator, sat_e, st3, exact, T_cond_guess_K, cond_tol_K)
     else:
         cs = _cold_side(fluid, s, layout.recuperator, sat_e, st3, T_cond_fixed_K, exact)
     known.update(T_cond_K=cs.T_cond_K, p_cond_Pa=cs.p_cond_Pa, p_evap_Pa=sat_e.p_Pa)

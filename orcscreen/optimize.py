@@ -30,6 +30,10 @@ __all__ = ["Optimum", "optimise", "evaporation_window_K"]
 N_SCAN = 16
 #: Tolerance of the refinement on the evaporation temperature [K].
 XATOL_K = 2e-3
+#: Tolerance on the condensing temperature during the scan and the search [K]: it moves the net
+#: power by a few 1e-5 at most, which shifts the located optimum by far less than XATOL_K allows
+#: to matter; the optimum itself is re-evaluated tightly (fast and exact).
+COND_TOL_SEARCH_K = 2e-3
 
 
 @dataclass
@@ -67,10 +71,11 @@ def evaporation_window_K(fluid: Fluid, source, sink, s: CycleSettings, superheat
 class _Objective:
     """Counts evaluations and keeps a warm start for the condensing temperature."""
 
-    def __init__(self, fluid, source, sink, s, layout, superheat_K, exact):
+    def __init__(self, fluid, source, sink, s, layout, superheat_K, exact, cond_tol_K=COND_TOL_SEARCH_K):
         self.args = (fluid, source, sink, s, layout)
         self.superheat_K = superheat_K
         self.exact = exact
+        self.cond_tol_K = cond_tol_K
         self.n = 0
         self.T_cond_guess = None
         self.cache: dict[float, CycleResult] = {}
@@ -92,7 +97,7 @@ class _Objective:
             return hit
         self.n += 1
         guess = self._predict_T_cond(T_evap_K)
-        r = evaluate(*self.args, T_evap_K, self.superheat_K, exact=self.exact, T_cond_guess_K=guess)
+        r = evaluate(*self.args, T_evap_K, self.superheat_K, exact=self.exact, T_cond_guess_K=guess, cond_tol_K=self.cond_tol_K)
         if r.ok:
             self.T_cond_guess = r.T_cond_K
             self._solved.append((T_evap_K, r.T_cond_K))
@@ -209,7 +214,7 @@ def _optimise_fixed_superheat(fluid, source, sink, s, layout, superheat_K, n_sca
     exact = _Objective(fluid, source, sink, s, layout, superheat_K, exact=True)
     exact.T_cond_guess = fast(T_opt).T_cond_K
     r = exact(T_opt)
-    fr = fast(T_opt)
+    fr = evaluate(fluid, source, sink, s, layout, T_opt, superheat_K, exact=False, T_cond_guess_K=r.T_cond_K if r.ok else None, cond_tol_K=1e-9)
     limit = info
     if not r.ok or abs(r.W_net_W - fr.W_net_W) > 2e-5 * abs(fr.W_net_W):
         # the discretised profiles bind somewhere the closed-form candidates do not see:
@@ -222,7 +227,7 @@ def _optimise_fixed_superheat(fluid, source, sink, s, layout, superheat_K, n_sca
             limit = info if abs(T2 - T_opt) < 10 * XATOL_K else "evaporator pinch (discretised)"
     if not r.ok:
         return None, r.reason, fast.n + exact.n, scan
-    return r, limit, fast.n + exact.n, scan
+    return r, limit, fast.n + exact.n + 1, scan
 
 
 def optimise(
