@@ -199,7 +199,12 @@ def _no_feasible_reason(results: list[CycleResult], T_lo: float, T_hi: float) ->
     return f"no feasible evaporation temperature between {T_lo - 273.15:.1f} and {T_hi - 273.15:.1f} °C: e.g. {common}"
 
 
-def _optimise_fixed_superheat(fluid, source, sink, s, layout, superheat_K, n_scan):
+def _optimise_fixed_superheat(fluid, source, sink, s, layout, superheat_K, n_scan, polish=True):
+    """Best evaporation temperature at one superheat: (result, limit, evaluations, scan).
+
+    polish=False returns the closed-form model's optimum without the discretised
+    re-evaluation (used inside the superheat search, whose objective must be one model).
+    """
     T_lo, T_hi, T_hi_name = evaporation_window_K(fluid, source, sink, s, superheat_K)
     if T_hi <= T_lo:
         reason = (
@@ -211,6 +216,8 @@ def _optimise_fixed_superheat(fluid, source, sink, s, layout, superheat_K, n_sca
     T_opt, info, scan = _optimise_T_evap(fast, T_lo, T_hi, T_hi_name, n_scan)
     if T_opt is None:
         return None, _no_feasible_reason(info, T_lo, T_hi), fast.n, scan
+    if not polish:
+        return fast(T_opt), info, fast.n, scan
     exact = _Objective(fluid, source, sink, s, layout, superheat_K, exact=True)
     exact.T_cond_guess = fast(T_opt).T_cond_K
     r = exact(T_opt)
@@ -257,13 +264,35 @@ def optimise(
     def inner(sh: float):
         nonlocal total
         if sh not in memo:
-            out = _optimise_fixed_superheat(fluid, source, sink, settings, layout, sh, max(12, n_scan // 2))
+            out = _optimise_fixed_superheat(fluid, source, sink, settings, layout, sh, max(10, n_scan // 2), polish=False)
             total += out[2]
             memo[sh] = out
         return memo[sh]
 
-    def power(sh: float) -> float:
-        r = inner(sh)[0]
+    def inner_near(sh: float):
+        """Inner optimum started from the nearest superheat already solved: a bracket of
+        +-3 K around its evaporation temperature; the full search when an edge is near."""
+        nonlocal total
+        if sh in memo:
+            return memo[sh]
+        known = sorted((abs(k - sh), v[0].T_evap_K) for k, v in memo.items() if v[0] is not None)
+        T_lo, T_hi, _ = evaporation_window_K(fluid, source, sink, settings, sh)
+        if not known:
+            return inner(sh)
+        a, b = max(T_lo, known[0][1] - 3.0), min(T_hi, known[0][1] + 3.0)
+        obj = _Objective(fluid, source, sink, settings, layout, sh, exact=False)
+        if b - a < 1.0 or not (obj(a).ok and obj(b).ok):
+            total += obj.n
+            return inner(sh)
+        T = _refine(obj, a, b)
+        total += obj.n
+        if T - a < 10 * XATOL_K or b - T < 10 * XATOL_K:
+            return inner(sh)
+        memo[sh] = (obj(T), "none (interior optimum)", obj.n, ([], [], []))
+        return memo[sh]
+
+    def power(sh: float, near: bool = False) -> float:
+        r = (inner_near(sh) if near else inner(sh))[0]
         return r.W_net_W if r is not None else -math.inf
 
     grid = np.linspace(0.0, max_superheat_K, 6)
@@ -272,11 +301,11 @@ def optimise(
         return None, inner(0.0)[1], total
     i = int(np.argmax(W))
     a, b = float(grid[max(i - 1, 0)]), float(grid[min(i + 1, len(grid) - 1)])
-    res = minimize_scalar(lambda sh: _penalised(power(sh)), bounds=(a, b), method="bounded", options={"xatol": 0.05})
-    best = max([float(grid[i]), float(res.x)], key=power)
+    res = minimize_scalar(lambda sh: _penalised(power(sh, near=True)), bounds=(a, b), method="bounded", options={"xatol": 0.1})
+    best = max([float(grid[i]), float(res.x)], key=lambda sh: power(sh, near=True))
     # polish at the best superheat with the full scan
     r, limit, n, scan = _optimise_fixed_superheat(fluid, source, sink, settings, layout, best, n_scan)
     total += n
     if r is None:
-        r, limit, _, scan = inner(best)
+        return None, limit, total
     return Optimum(r, limit, total, *scan)
