@@ -127,14 +127,8 @@ def _row(case, info, fluid, source, sink, r: CycleResult, binding: str, n: int, 
         "layout": case["layout"],
         "status": "ok",
         "reason": "",
-        "net_power_kW": r.W_net_W / 1e3,
-        "turbine_power_kW": r.W_turbine_W / 1e3,
-        "pump_power_kW": r.W_pump_W / 1e3,
+        **_energy_figures(r),
         "aux_power_kW": r.W_aux_W / 1e3,
-        "heat_input_kW": r.Q_in_W / 1e3,
-        "heat_rejected_kW": r.Q_out_W / 1e3,
-        "recuperator_duty_kW": r.Q_rec_W / 1e3,
-        "thermal_efficiency": r.W_net_W / r.Q_in_W,
         "exergy_efficiency": r.W_net_W / ex_source,
         "carnot_efficiency": 1.0 - st1.T_K / st3.T_K,
         "heat_recovery_factor": r.Q_in_W / q_avail,
@@ -189,6 +183,19 @@ def _warnings(case: dict, source, r: CycleResult) -> list[str]:
     if case["layout"] == "recuperated" and r.Q_rec_W <= 0.0:
         out.append("recuperator inactive: the turbine outlet is not hotter than the pump outlet plus the pinch")
     return out
+
+
+def _energy_figures(r: CycleResult) -> dict:
+    """Powers and duties [kW] and the thermal efficiency of an evaluated cycle."""
+    return {
+        "net_power_kW": r.W_net_W / 1e3,
+        "turbine_power_kW": r.W_turbine_W / 1e3,
+        "pump_power_kW": r.W_pump_W / 1e3,
+        "heat_input_kW": r.Q_in_W / 1e3,
+        "heat_rejected_kW": r.Q_out_W / 1e3,
+        "recuperator_duty_kW": r.Q_rec_W / 1e3,
+        "thermal_efficiency": r.W_net_W / r.Q_in_W,
+    }
 
 
 def _f(x: float) -> float | None:
@@ -362,13 +369,7 @@ def evaluate_cycle(
     if not r.ok:
         raise ValueError(r.reason)
     return {
-        "net_power_kW": r.W_net_W / 1e3,
-        "turbine_power_kW": r.W_turbine_W / 1e3,
-        "pump_power_kW": r.W_pump_W / 1e3,
-        "heat_input_kW": r.Q_in_W / 1e3,
-        "heat_rejected_kW": r.Q_out_W / 1e3,
-        "recuperator_duty_kW": r.Q_rec_W / 1e3,
-        "thermal_efficiency": r.W_net_W / r.Q_in_W,
+        **_energy_figures(r),
         "back_work_ratio": r.W_pump_W / r.W_turbine_W,
         "turbine_outlet_quality": r.states["4"].q,
         "size_parameter_m": r.size_parameter_m,

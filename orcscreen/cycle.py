@@ -318,6 +318,14 @@ def _cold_side(fluid: Fluid, s: CycleSettings, recuperated: bool, sat_e, st3: St
     return _ColdSide(T_cond_K, p_c, sat_c, st1, st2, st4s.h, st4s.v, st4s.T_K, st4s.q, st4, eta_t, st2r, st4r, q_rec, active, rec_prof)
 
 
+def _add_zone(fluid: Fluid, p_Pa: float, T_a: float, T_b: float, n: int, phase: str, label: str, h: list, T: list, labels: list) -> None:
+    """Append the n - 1 interior points of a single-phase zone from T_a to T_b [K] on one isobar."""
+    Tz = np.linspace(T_a, T_b, n + 1)[1:-1]
+    h.extend(fluid.h_pT_array(p_Pa, Tz, phase))
+    T.extend(Tz)
+    labels.extend([label] * len(Tz))
+
+
 def _condenser_wf_path(fluid: Fluid, cs: _ColdSide, n: int, exact: bool) -> tuple[np.ndarray, np.ndarray, list[str]]:
     """Working-fluid enthalpy and temperature points on the condenser path, cold end first."""
     sat = cs.sat
@@ -327,10 +335,7 @@ def _condenser_wf_path(fluid: Fluid, cs: _ColdSide, n: int, exact: bool) -> tupl
     labels = ["cold end"]
     if cs.s1.h < sat.hL - 1e-9:  # subcooled liquid zone
         if exact:
-            Tz = np.linspace(cs.s1.T_K, sat.T_K, n + 1)[1:-1]
-            pts_h.extend(fluid.h_pT_array(sat.p_Pa, Tz, "liquid"))
-            pts_T.extend(Tz)
-            labels.extend(["subcooling zone"] * len(Tz))
+            _add_zone(fluid, sat.p_Pa, cs.s1.T_K, sat.T_K, n, "liquid", "subcooling zone", pts_h, pts_T, labels)
         pts_h.append(sat.hL)
         pts_T.append(sat.T_K)
         labels.append("bubble point")
@@ -340,10 +345,7 @@ def _condenser_wf_path(fluid: Fluid, cs: _ColdSide, n: int, exact: bool) -> tupl
     labels.append("dew point")
     if h_in > sat.hV + 1e-9:
         if exact:
-            Tz = np.linspace(sat.T_K, cs.s4r.T_K, n + 1)[1:-1]
-            pts_h.extend(fluid.h_pT_array(sat.p_Pa, Tz, "gas"))
-            pts_T.extend(Tz)
-            labels.extend(["desuperheating zone"] * len(Tz))
+            _add_zone(fluid, sat.p_Pa, sat.T_K, cs.s4r.T_K, n, "gas", "desuperheating zone", pts_h, pts_T, labels)
         pts_h.append(h_in)
         pts_T.append(cs.s4r.T_K)
         labels.append("hot end")
@@ -428,10 +430,7 @@ def _evaporator_path(fluid, sat_e, st_in: State, st3: State, n: int, exact: bool
     T = [st_in.T_K]
     labels = ["economiser inlet"]
     if exact:
-        Tz = np.linspace(st_in.T_K, sat_e.T_K, n + 1)[1:-1]
-        h.extend(fluid.h_pT_array(sat_e.p_Pa, Tz, "liquid"))
-        T.extend(Tz)
-        labels.extend(["economiser"] * len(Tz))
+        _add_zone(fluid, sat_e.p_Pa, st_in.T_K, sat_e.T_K, n, "liquid", "economiser", h, T, labels)
     h.append(sat_e.hL)
     T.append(sat_e.T_K)
     labels.append("bubble point")
@@ -440,10 +439,7 @@ def _evaporator_path(fluid, sat_e, st_in: State, st3: State, n: int, exact: bool
     labels.append("dew point")
     if st3.h > sat_e.hV + 1e-9:
         if exact:
-            Tz = np.linspace(sat_e.T_K, st3.T_K, n + 1)[1:-1]
-            h.extend(fluid.h_pT_array(sat_e.p_Pa, Tz, "gas"))
-            T.extend(Tz)
-            labels.extend(["superheater"] * len(Tz))
+            _add_zone(fluid, sat_e.p_Pa, sat_e.T_K, st3.T_K, n, "gas", "superheater", h, T, labels)
         h.append(st3.h)
         T.append(st3.T_K)
         labels.append("hot end")

@@ -115,3 +115,30 @@ def test_recuperator_may_heat_the_liquid_to_saturation():
     assert r.Q_rec_W > 0.0
     assert r.profiles["recuperator"].min_approach_K >= s.pinch_recuperator_K - 1e-6
     assert math.isclose(r.Q_in_W - r.Q_out_W, r.W_turbine_W - r.W_pump_W, rel_tol=1e-9)
+
+
+def test_evaluate_cycle_api_reproduces_the_textbook_example():
+    """The by-hand API on Moran et al. 8th ed. Example 8.2 (from memory): eta 31.4 %."""
+    from orcscreen import evaluate_cycle
+
+    out = evaluate_cycle("Water", evaporation_pressure_bar=80.0, condensing_pressure_bar=0.08,
+                         turbine_efficiency=0.85, pump_efficiency=0.85)
+    assert out["thermal_efficiency"] == pytest.approx(0.314, abs=0.0005)
+    assert out["states"]["3"]["q"] == 1.0
+    assert out["net_power_kW"] == pytest.approx(out["turbine_power_kW"] - out["pump_power_kW"], rel=1e-12)
+
+
+def test_screen_api_returns_ranked_frame():
+    """screen() ranks feasible cases by net power and keeps the others with a reason."""
+    from orcscreen import screen
+
+    df = screen({
+        "source": {"kind": "water", "inlet_temperature_C": 110.0, "mass_flow_kg_s": 5.0},
+        "sink": {"kind": "water", "inlet_temperature_C": 20.0, "temperature_rise_K": 8.0},
+        "fluids": {"include": ["R245fa", "IsoButane", "Water"]},
+        "cycle": {"layouts": ["basic"]},
+    })
+    ok = df[df["status"] == "ok"]
+    assert list(ok["net_power_kW"]) == sorted(ok["net_power_kW"], reverse=True)
+    assert set(df["fluid"]) == {"R245fa", "IsoButane", "Water"}
+    assert all(df.loc[df["status"] != "ok", "reason"].str.len() > 0)
