@@ -27,7 +27,7 @@ from .properties import Fluid
 __all__ = ["Optimum", "optimise", "evaporation_window_K"]
 
 #: Number of evaporation temperatures in the bracketing scan.
-N_SCAN = 16
+N_SCAN = 10
 #: Tolerance of the refinement on the evaporation temperature [K].
 XATOL_K = 2e-3
 #: Tolerance on the condensing temperature during the scan and the search [K]: it moves the net
