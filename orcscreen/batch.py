@@ -1,17 +1,35 @@
 """Run the cases of a study in parallel and write each finished case to the run store.
 
-Orchestration only: the physics is ``orcscreen.api.run_case``. The cases are sent to joblib
-worker processes (or, with ``cluster=ADDRESS``, to a Dask distributed cluster through joblib's
-Dask backend) in *chunks* of consecutive cases, and the chunks come back as they finish
-(``return_as="generator_unordered"``); each returned chunk is committed to the store at once, so
-memory does not grow with the number of cases and a killed run loses only the chunks in flight.
+Orchestration only: the physics is ``orcscreen.api.run_case``. The cases go in *chunks* of
+consecutive cases to worker processes, and the chunks come back as they finish; each returned
+chunk is committed to the store at once, so memory does not grow with the number of cases and a
+killed run loses only the chunks in flight.
 
-Chunk size: joblib's loky backend costs about 0.2-0.3 ms per task on this machine (measured with
-empty tasks, ``batch_size=1``, 2 workers), small against a case of a few ms to a few hundred
-ms, but a per-task store commit and the result transfer add to it. Chunks are sized so that one
-takes about :data:`TARGET_CHUNK_S` of work (from the mean case time measured so far), between 1
-and :data:`MAX_CHUNK` cases, and never more than a quarter of the pending cases per worker, so
-that every worker stays busy to the end.
+Workers, by platform and option:
+
+* ``jobs=1``: the cases run in this process, one chunk after the other.
+* ``jobs>1`` on Linux (the usual case): worker processes *forked* from the driver by
+  ``concurrent.futures.ProcessPoolExecutor`` with the "fork" start method, after the driver has
+  imported the engine, loaded CoolProp's fluid library and the fluid catalogue (study
+  validation does all three). A forked worker starts in milliseconds with all of that in memory;
+  a freshly started interpreter (joblib's default loky backend) pays about 2 s of CPU to import
+  CoolProp, whose package ``__init__`` loads the whole fluid library, in every worker and at the
+  same time as the driver. joblib cannot do this cleanly: its "multiprocessing" backend forks but
+  cannot stream results (``return_as="generator_unordered"`` is refused), and loky warns against
+  its "fork" context. The workers are forked before the run store is opened (they never see its
+  SQLite connection or the run lock), from a driver with no other thread (a forked child of a
+  threaded process can deadlock on a lock held by another thread: POSIX fork(2)); they ignore
+  SIGINT (the driver stops them on Ctrl-C) and get SIGKILL when the driver dies (Linux
+  prctl(2) PR_SET_PDEATHSIG), so a killed run leaves no worker behind. Without fork (another
+  OS, or other threads running), joblib's loky backend as before.
+* ``cluster=ADDRESS``: a Dask distributed cluster through joblib's Dask backend.
+
+Chunk size: a chunk takes about :data:`TARGET_CHUNK_S` of work (from the mean case time measured
+so far), between 1 and :data:`MAX_CHUNK` cases, never more than a quarter of the pending cases per
+worker, and toward the end of the run at most an eighth of the cases not yet dispatched per
+worker... (guided scheduling), so the last chunks are small and the workers finish together.
+The first chunks have :data:`FIRST_CHUNK` cases, so the first result is stored quickly. At most
+two chunks per worker are in flight; the next chunk is cut when one comes back.
 
 Resume: a case whose key is in the store is not computed again; a changed study computes only
 its new keys. Failure isolation: any exception raised while a case runs, and a case that exceeds
@@ -23,13 +41,14 @@ from __future__ import annotations
 
 import contextlib
 import ctypes
+import gc
 import math
 import os
 import signal
 import sys
 import threading
 import time
-from collections.abc import Iterable, Iterator, Mapping
+from collections.abc import Callable, Iterable, Iterator, Mapping
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
@@ -40,6 +59,7 @@ from orcscreen.store import EncodedCase, RunStore, encode_case, orcscreen_versio
 __all__ = [
     "TARGET_CHUNK_S",
     "MAX_CHUNK",
+    "FIRST_CHUNK",
     "DEFAULT_TIME_LIMIT_S",
     "BatchError",
     "ClusterError",
@@ -48,13 +68,16 @@ __all__ = [
     "run_study",
     "run_cases",
     "failed_row",
+    "fork_workers_available",
 ]
 
 TARGET_CHUNK_S = 0.5
 MAX_CHUNK = 50
+FIRST_CHUNK = 4
 DEFAULT_TIME_LIMIT_S = 60.0
 PLAIN_PROGRESS_EVERY_S = 5.0
 STATUSES = ("ok", "infeasible", "failed")
+CHUNKS_IN_FLIGHT_PER_WORKER = 2
 
 
 class BatchError(RuntimeError):
@@ -229,15 +252,116 @@ def _worker_versions() -> tuple[str, str]:
     return orcscreen_version(), coolprop_version()
 
 
+_PR_SET_PDEATHSIG = 1  # linux/prctl.h
+
+
+def _forked_worker_init(driver_pid: int, inherited_fds: tuple[int, ...] = ()) -> None:
+    """First thing in a forked worker: leave Ctrl-C to the driver, die with the driver, close
+    ``inherited_fds`` (the run lock, when the store was opened before the fork: flock(2) locks
+    belong to the open file, which a worker must not keep open after the driver dies).
+
+    SIGINT is ignored (a terminal sends it to the whole process group; the driver then stops
+    the workers itself). PR_SET_PDEATHSIG (Linux prctl(2)) has the kernel send SIGKILL to this
+    process when the driver dies, however it dies, so no orphan keeps computing; a driver that
+    died before the call is caught by the parent check.
+    """
+    signal.signal(signal.SIGINT, signal.SIG_IGN)
+    for fd in inherited_fds:
+        with contextlib.suppress(OSError):
+            os.close(fd)
+    with contextlib.suppress(OSError, AttributeError):
+        libc = ctypes.CDLL(None, use_errno=True)
+        libc.prctl(_PR_SET_PDEATHSIG, int(signal.SIGKILL), 0, 0, 0)
+    if os.getppid() != driver_pid:
+        os._exit(1)
+
+
+def _ready() -> int:
+    return os.getpid()
+
+
 # -- in the driver ----------------------------------------------------------------------------
 
+def fork_workers_available() -> bool:
+    """True when worker processes can be forked from this process (see module docstring):
+    Linux, the "fork" start method, called from the main thread with no other thread running."""
+    import multiprocessing
+
+    return (sys.platform.startswith("linux")
+            and "fork" in multiprocessing.get_all_start_methods()
+            and threading.current_thread() is threading.main_thread()
+            and threading.active_count() == 1)
+
+
+class _ForkPool:
+    """``workers`` processes forked from this driver now, each ready to run chunks.
+
+    The engine and CoolProp (its fluid library loads with the package) are imported first, so
+    every worker starts with them. The garbage collector's objects are frozen across the fork
+    (``gc.freeze``, Python documentation of the gc module: a collection in the child would
+    otherwise touch, and so copy, every inherited page).
+    """
+
+    def __init__(self, workers: int, inherited_fds: tuple[int, ...] = ()) -> None:
+        import multiprocessing
+        from concurrent.futures import ProcessPoolExecutor
+
+        from orcscreen import api  # noqa: F401 - loaded before the fork, inherited by the workers
+        from orcscreen.properties import coolprop_version
+
+        coolprop_version()
+        self.workers = workers
+        before = set(multiprocessing.active_children())
+        gc.collect()
+        gc.freeze()
+        try:
+            self.executor = ProcessPoolExecutor(
+                max_workers=workers, mp_context=multiprocessing.get_context("fork"),
+                initializer=_forked_worker_init, initargs=(os.getpid(), tuple(inherited_fds)))
+            # the first submission forks every worker now (CPython forks them all at once,
+            # before the executor's own thread starts: bpo-90622)
+            self.executor.submit(_ready)
+        finally:
+            gc.unfreeze()
+        self.processes = [p for p in multiprocessing.active_children() if p not in before]
+
+    def submit(self, fn: Callable, *args: Any):
+        return self.executor.submit(fn, *args)
+
+    def close(self, abort: bool = False) -> None:
+        """Wait for the workers to exit; with ``abort``, drop queued chunks and stop them now."""
+        if not abort:
+            self.executor.shutdown(wait=True)
+            return
+        self.executor.shutdown(wait=False, cancel_futures=True)
+        for proc in self.processes:
+            with contextlib.suppress(OSError, ValueError):
+                if proc.is_alive():
+                    proc.kill()
+        for proc in self.processes:
+            with contextlib.suppress(OSError, ValueError, AssertionError):
+                proc.join(timeout=5)
+        with contextlib.suppress(Exception):
+            self.executor.shutdown(wait=True)
+
+    def __enter__(self) -> _ForkPool:
+        return self
+
+    def __exit__(self, exc_type, exc, tb) -> None:
+        self.close(abort=exc_type is not None)
+
+
 class _ChunkSizer:
-    """Chunk size from the mean case time measured so far (see module docstring)."""
+    """Chunk size from the mean case time measured so far and the cases not yet dispatched
+    (see module docstring)."""
 
     def __init__(self, pending: int, workers: int) -> None:
+        self.pending = pending
+        self.workers = workers
         self.cap = max(1, min(MAX_CHUNK, math.ceil(pending / (4 * workers))))
         self.case_s = 0.0
         self.cases = 0
+        self.dispatched = 0
         self.largest = 0
 
     def observe(self, elapsed: Iterable[float]) -> None:
@@ -247,12 +371,29 @@ class _ChunkSizer:
 
     def size(self) -> int:
         if self.cases == 0:
-            n = min(self.cap, 4)
+            n = min(self.cap, FIRST_CHUNK)
         else:
             mean = max(self.case_s / self.cases, 1e-6)
             n = max(1, min(self.cap, round(TARGET_CHUNK_S / mean)))
+        if self.workers > 1:  # guided: the last chunks shrink so that the workers end together
+            left = self.pending - self.dispatched
+            n = max(1, min(n, math.ceil(left / (CHUNKS_IN_FLIGHT_PER_WORKER * self.workers))))
         self.largest = max(self.largest, n)
         return n
+
+    def chunks(self, tasks: Iterable[tuple[int, str, dict]]) -> Iterator[list]:
+        """Cut ``tasks`` into chunks, each sized when it is cut (that is, when it is needed)."""
+        chunk: list = []
+        want = self.size()
+        for task in tasks:
+            chunk.append(task)
+            if len(chunk) >= want:
+                self.dispatched += len(chunk)
+                yield chunk
+                chunk, want = [], self.size()
+        if chunk:
+            self.dispatched += len(chunk)
+            yield chunk
 
 
 class _Progress:
@@ -348,44 +489,111 @@ def _backend(cluster: str | None) -> Iterator[None]:
             yield
 
 
+def _serial_results(chunks: Iterable[list], sizer: _ChunkSizer,
+                    time_limit_s: float | None) -> Iterator[list[EncodedCase]]:
+    """Run the chunks in this process, one after the other."""
+    for chunk in chunks:
+        records = _run_chunk(chunk, time_limit_s)
+        sizer.observe(rec.elapsed_s or 0.0 for rec in records)
+        yield records
+
+
+def _pool_results(pool: _ForkPool, chunks: Iterable[list], sizer: _ChunkSizer,
+                  time_limit_s: float | None) -> Iterator[list[EncodedCase]]:
+    """Run the chunks on forked workers; yield each chunk's records as soon as it is back.
+
+    At most CHUNKS_IN_FLIGHT_PER_WORKER chunks per worker are submitted; each returned chunk
+    is measured before the next one is cut, and the next one is submitted before the returned
+    one is handed on (stored), so no worker waits for the store.
+    """
+    from concurrent.futures import FIRST_COMPLETED, wait
+    from concurrent.futures.process import BrokenProcessPool
+
+    source = iter(chunks)
+    window = CHUNKS_IN_FLIGHT_PER_WORKER * pool.workers
+    in_flight: set = set()
+
+    def top_up() -> None:
+        while len(in_flight) < window:
+            chunk = next(source, None)
+            if chunk is None:
+                return
+            in_flight.add(pool.submit(_run_chunk, chunk, time_limit_s))
+
+    top_up()
+    while in_flight:
+        done, _ = wait(in_flight, return_when=FIRST_COMPLETED)
+        finished = []
+        for future in done:
+            in_flight.discard(future)
+            try:
+                records = future.result()
+            except BrokenProcessPool as exc:
+                raise BatchError(
+                    f"a worker process died while running cases ({exc}); the cases stored so "
+                    "far are kept: run again to resume, or with --jobs 1 to find the case "
+                    "that kills it") from None
+            sizer.observe(rec.elapsed_s or 0.0 for rec in records)
+            finished.append(records)
+        top_up()
+        yield from finished
+
+
+def _joblib_results(cluster: str | None, n_jobs: int, chunks: Iterable[list],
+                    sizer: _ChunkSizer, time_limit_s: float | None) -> Iterator[list[EncodedCase]]:
+    """Run the chunks through joblib: its Dask backend on a cluster, else its loky backend."""
+    from joblib import Parallel, delayed
+
+    with _backend(cluster):
+        parallel = Parallel(n_jobs=n_jobs, return_as="generator_unordered", batch_size=1,
+                            pre_dispatch="2*n_jobs")
+        for records in parallel(delayed(_run_chunk)(c, time_limit_s) for c in chunks):
+            sizer.observe(rec.elapsed_s or 0.0 for rec in records)
+            yield records
+
+
 def run_cases(tasks: Iterable[tuple[int, str, dict]], store: RunStore, *, pending: int,
               jobs: int, cluster: str | None = None, time_limit_s: float | None = None,
-              progress: _Progress | None = None) -> tuple[dict[str, int], int, int]:
+              progress: _Progress | None = None,
+              pool: _ForkPool | None = None) -> tuple[dict[str, int], int, int]:
     """Run ``(index, key, case)`` tasks (``pending`` of them) and store every finished case.
+
+    Where the cases run: on ``cluster`` (Dask, through joblib) if given; else on ``pool`` (forked
+    workers) if given; else in this process when ``jobs`` is 1 or one case is pending; else on
+    workers forked now (:func:`fork_workers_available`) or joblib's loky workers.
 
     Returns (status counts of the computed cases, number of worker tasks, largest chunk).
     """
-    from joblib import Parallel, delayed
-
     counts = dict.fromkeys(STATUSES, 0)
     if pending == 0:
         return counts, 0, 0
-    workers = jobs if cluster is None else max(jobs, 1)
-    sizer = _ChunkSizer(pending, workers)
-
-    def chunks() -> Iterator[list]:
-        chunk: list = []
-        want = sizer.size()
-        for task in tasks:
-            chunk.append(task)
-            if len(chunk) >= want:
-                yield chunk
-                chunk, want = [], sizer.size()
-        if chunk:
-            yield chunk
-
-    n_tasks = 0
-    with _backend(cluster):
-        n_jobs = -1 if cluster is not None else min(jobs, pending)
-        parallel = Parallel(n_jobs=n_jobs, return_as="generator_unordered", batch_size=1,
-                            pre_dispatch="2*n_jobs")
-        for records in parallel(delayed(_run_chunk)(c, time_limit_s) for c in chunks()):
+    with contextlib.ExitStack() as stack:
+        if cluster is not None:
+            sizer = _ChunkSizer(pending, max(jobs, 1))
+            results = _joblib_results(cluster, -1, sizer.chunks(tasks), sizer, time_limit_s)
+        elif pool is not None:
+            sizer = _ChunkSizer(pending, pool.workers)
+            results = _pool_results(pool, sizer.chunks(tasks), sizer, time_limit_s)
+        elif jobs == 1 or pending == 1:
+            sizer = _ChunkSizer(pending, 1)
+            results = _serial_results(sizer.chunks(tasks), sizer, time_limit_s)
+        elif fork_workers_available():
+            lock_fd = getattr(store, "_lock_fd", None)
+            own = stack.enter_context(_ForkPool(min(jobs, pending),
+                                                () if lock_fd is None else (lock_fd,)))
+            sizer = _ChunkSizer(pending, own.workers)
+            results = _pool_results(own, sizer.chunks(tasks), sizer, time_limit_s)
+        else:
+            sizer = _ChunkSizer(pending, min(jobs, pending))
+            results = _joblib_results(None, min(jobs, pending), sizer.chunks(tasks), sizer,
+                                      time_limit_s)
+        n_tasks = 0
+        for records in results:
             store.put_encoded(records)
             n_tasks += 1
             statuses = [rec.status for rec in records]
             for s in statuses:
                 counts[s] = counts.get(s, 0) + 1
-            sizer.observe(rec.elapsed_s or 0.0 for rec in records)
             if progress is not None:
                 progress.update(statuses)
     return counts, n_tasks, sizer.largest
@@ -427,7 +635,14 @@ def run_study(study: Any, out_dir: str | os.PathLike[str], jobs: int | None = No
         raise ValueError(f"jobs must be a whole number >= 1, got {jobs!r}")
     jobs = int(jobs)
     out_dir = Path(out_dir)
-    with RunStore(out_dir, lock=True) as store:
+    with contextlib.ExitStack() as stack:
+        # Workers are forked first: before the store's connection and lock exist, and before
+        # any progress-bar thread, so that a worker inherits neither (module docstring).
+        n_cases = int(getattr(study, "n_cases", 0) or 0)
+        pool = None
+        if cluster is None and jobs > 1 and n_cases > 1 and fork_workers_available():
+            pool = stack.enter_context(_ForkPool(min(jobs, n_cases)))
+        store = stack.enter_context(RunStore(out_dir, lock=True))
         keys: list[str] = []
         layouts: list[tuple[str, str]] = []  # (fluid, layout) per case: a cheap order check
         name = None
@@ -444,6 +659,7 @@ def run_study(study: Any, out_dir: str | os.PathLike[str], jobs: int | None = No
         if retry_failed:
             done -= store.failed_keys()
         todo = {k for k in keys if k not in done}
+        del done
         skipped = len(set(keys)) - len(todo)
 
         def tasks() -> Iterator[tuple[int, str, dict]]:
@@ -467,9 +683,11 @@ def run_study(study: Any, out_dir: str | os.PathLike[str], jobs: int | None = No
         try:
             counts, n_tasks, largest = run_cases(
                 tasks(), store, pending=len(todo), jobs=jobs, cluster=cluster,
-                time_limit_s=time_limit_s, progress=bar)
+                time_limit_s=time_limit_s, progress=bar, pool=pool)
         finally:
             bar.close()
+        if pool is not None:  # the workers are not needed for the tables: free them first
+            pool.close()
         store.set_meta(last_run_s=round(time.perf_counter() - start, 3))
         if write_tables:
             write_outputs(out_dir, store)

@@ -8,26 +8,46 @@ the constant columns ``orcscreen_version``, ``coolprop_version`` and ``study_has
 file self-describing. Rows are sorted by operating point (the swept values, in case order), then
 by rank; cases that are not ok follow the ranked ones of their operating point in case order.
 Floats are written with 6 significant digits (``%.6g``).
+
+:func:`write_outputs` streams: a first pass over the store keeps only what ranking needs (swept
+values, status, net power, fluid, layout: about a hundred bytes per case) and the kinds of values
+of every column; a second pass decodes :data:`~orcscreen.store.ROWS_CHUNK` rows at a time,
+whole operating points together, in ranking order, and appends them to the file. The columns
+get the types one table of all rows would give them (:class:`orcscreen.store.ColumnKinds`), so
+the bytes are those of :func:`ranking_table` on the whole table. Memory does not grow with the
+number of cases beyond that first-pass table.
 """
 
 from __future__ import annotations
 
+import contextlib
 import json
 import math
 import os
+from dataclasses import dataclass, field
 from pathlib import Path
-
-import numpy as np
-import pandas as pd
+from typing import TYPE_CHECKING, Any
 
 from orcscreen.api import ROW_COLUMNS  # the engine's row columns, contract section 2
-from orcscreen.store import RunStore
+from orcscreen.store import (
+    ROWS_CHUNK,
+    ColumnKinds,
+    RunStore,
+    StoreError,
+    object_frame,
+    table_columns,
+)
+
+if TYPE_CHECKING:  # pandas is imported where tables are built
+    import pandas as pd
 
 __all__ = [
     "ROW_COLUMNS",
     "RANKING_FILE",
     "RUN_INFO_FILE",
     "FLOAT_FORMAT",
+    "TOP_KEPT",
+    "RankingSummary",
     "ranking_table",
     "ranking_sweep_columns",
     "write_outputs",
@@ -37,37 +57,41 @@ __all__ = [
 RANKING_FILE = "ranking.csv"
 RUN_INFO_FILE = "run-info.json"
 FLOAT_FORMAT = "%.6g"
+TOP_KEPT = 100
+"""Best ranked rows a :class:`RankingSummary` keeps for :func:`top_table`."""
+DECODE_ONCE_ROWS = 4000
+"""Up to this many cases, :func:`write_outputs` keeps the rows of its first pass for the second
+(about 8 MB) instead of decoding them again."""
 
 #: Row columns left out of ranking.csv: run timings, which differ from run to run.
 TIMING_COLUMNS = ("elapsed_s",)
 _INTEGER_COLUMNS = ("evaluations",)
 _VERSION_COLUMNS = ("orcscreen_version", "coolprop_version", "study_hash")
+_STORE_ONLY = ("case_key", "case_index", "case_elapsed_s", "finished_at")
+#: Row columns the ranking itself needs (first pass of write_outputs).
+_RANKING_INPUTS = ("status", "net_power_kW", "fluid", "layout", *_INTEGER_COLUMNS)
 
 
-def _sweep_columns(df: pd.DataFrame) -> list[str]:
+def _sweep_columns_of(columns: list[str]) -> list[str]:
     """The swept dotted paths: the columns between case_index and the first row column."""
-    cols = list(df.columns)
-    end = cols.index("fluid") if "fluid" in cols else len(cols)
-    return [c for c in cols[:end] if c not in ("case_key", "case_index")]
+    end = columns.index("fluid") if "fluid" in columns else len(columns)
+    return [c for c in columns[:end] if c not in ("case_key", "case_index")]
 
 
-def ranking_table(rows: pd.DataFrame, meta: dict | None = None) -> pd.DataFrame:
-    """The ranking table (see module docstring) from :meth:`RunStore.rows`' table.
+def _row_columns_of(columns: list[str], sweep_cols: list[str]) -> list[str]:
+    """ranking.csv's row columns: the engine's, then any other stored ones, without timings."""
+    extra = [c for c in columns if c not in ROW_COLUMNS and c not in sweep_cols
+             and c not in _STORE_ONLY]
+    return [c for c in (*ROW_COLUMNS, *extra) if c not in TIMING_COLUMNS]
 
-    ``rank`` is 1, 2, ... within each operating point (identical swept values) over the rows
-    with status "ok" and a finite net_power_kW, by net_power_kW descending, ties broken by fluid
-    then layout (names ascending); empty (<NA>) for the other rows.
-    """
-    meta = meta or {}
-    df = rows.reset_index(drop=True).copy()
-    sweep_cols = _sweep_columns(df)
-    for col in ROW_COLUMNS:
-        if col not in df:
-            df[col] = None
-    extra = [c for c in df.columns if c not in ROW_COLUMNS and c not in sweep_cols
-             and c not in ("case_key", "case_index", "case_elapsed_s", "finished_at")]
-    row_cols = [c for c in (*ROW_COLUMNS, *extra) if c not in TIMING_COLUMNS]
 
+def _ranked_order(df: pd.DataFrame, sweep_cols: list[str]) -> pd.DataFrame:
+    """``df`` sorted into ranking order with its ``rank`` (Int64, <NA> when not ranked) and its
+    operating point number ``_point`` (see :func:`ranking_table`)."""
+    import numpy as np
+    import pandas as pd
+
+    df = df.reset_index(drop=True).copy()
     # Operating point = identical swept values, numbered in order of first appearance (case order).
     if df.empty:
         point = pd.Series([], dtype="int64")
@@ -88,51 +112,349 @@ def ranking_table(rows: pd.DataFrame, meta: dict | None = None) -> pd.DataFrame:
                         kind="mergesort").reset_index(drop=True)
     rank = df.groupby("_point").cumcount() + 1
     df["rank"] = pd.array(rank.where(~df["_ranked"]), dtype="Int64")
+    return df
+
+
+def _whole_numbers(values: pd.Series) -> bool:
+    """True when every finite value of an integer column is a whole number (then it is written
+    as integers)."""
+    import numpy as np
+    import pandas as pd
+
+    numbers = pd.to_numeric(values, errors="coerce").astype(float)
+    finite = numbers[np.isfinite(numbers)]
+    return bool((finite == finite.round()).all())
+
+
+def _finish(df: pd.DataFrame, sweep_cols: list[str], row_cols: list[str], meta: dict,
+            whole: dict[str, bool]) -> pd.DataFrame:
+    """The ranking.csv columns of rows in ranking order that carry their ``rank``."""
+    import numpy as np
+    import pandas as pd
+
     for col in _INTEGER_COLUMNS:
-        values = pd.to_numeric(df[col], errors="coerce").astype(float)
-        finite = values[np.isfinite(values)]
-        if (finite == finite.round()).all():
+        if col in df and whole.get(col, False):
+            values = pd.to_numeric(df[col], errors="coerce").astype(float)
             df[col] = pd.array(values.where(np.isfinite(values)), dtype="Int64")
-    df["reason"] = df["reason"].fillna("")
+    if "reason" in df:
+        df["reason"] = df["reason"].fillna("")
     for col in _VERSION_COLUMNS:
         df[col] = meta.get(col, "")
     return df[["case_key", *sweep_cols, "rank", *row_cols, *_VERSION_COLUMNS]]
 
 
-def write_outputs(out_dir: str | os.PathLike[str], store: RunStore | None = None) -> pd.DataFrame:
+def ranking_table(rows: pd.DataFrame, meta: dict | None = None, *,
+                  all_columns: bool = True) -> pd.DataFrame:
+    """The ranking table (see module docstring) from :meth:`RunStore.rows`' table.
+
+    ``rank`` is 1, 2, ... within each operating point (identical swept values) over the rows
+    with status "ok" and a finite net_power_kW, by net_power_kW descending, ties broken by fluid
+    then layout (names ascending); empty (<NA>) for the other rows. ``all_columns=False`` keeps
+    only the row columns present in ``rows`` (a table read with ``RunStore.rows(columns=...)``)
+    instead of adding the missing ones empty.
+    """
+    meta = meta or {}
+    df = rows.reset_index(drop=True).copy()
+    sweep_cols = _sweep_columns_of(list(df.columns))
+    for col in ROW_COLUMNS if all_columns else _RANKING_INPUTS:
+        if col not in df:
+            df[col] = None
+    row_cols = _row_columns_of(list(df.columns), sweep_cols)
+    if not all_columns:
+        row_cols = [c for c in row_cols if c in df]
+    whole = {c: _whole_numbers(df[c]) for c in _INTEGER_COLUMNS if c in df}
+    return _finish(_ranked_order(df, sweep_cols), sweep_cols, row_cols, meta, whole)
+
+
+@dataclass
+class RankingSummary:
+    """What :func:`write_outputs` wrote, and what :func:`top_table` prints, without the table.
+
+    cases: rows written; columns: ranking.csv's columns; status_counts: rows per status;
+    sweep_columns: the swept paths, ``varying`` those with more than one value; points: number
+    of operating points over the varying columns; ranked: rows with a rank; ``leaders``: the
+    first ranked rows in file order and ``best``: the ranked rows of highest net power over all
+    points (ties by fluid, layout, file order), up to ``kept`` rows each, with every column.
+    """
+
+    path: Path
+    store_path: Path
+    cases: int = 0
+    columns: list[str] = field(default_factory=list)
+    status_counts: dict[str, int] = field(default_factory=dict)
+    sweep_columns: list[str] = field(default_factory=list)
+    varying: list[str] = field(default_factory=list)
+    points: int = 1
+    ranked: int = 0
+    kept: int = TOP_KEPT
+    leaders: Any = None
+    best: Any = None
+
+    @property
+    def empty(self) -> bool:
+        return self.cases == 0
+
+    def __len__(self) -> int:
+        return self.cases
+
+    def table(self) -> pd.DataFrame:
+        """The whole ranking table, read from the store (small runs and tests)."""
+        with RunStore(self.store_path, create=False) as store:
+            return ranking_table(store.rows(), store.meta())
+
+
+_NAN = object()  # one stand-in for every NaN swept value (NaN != NaN, drop_duplicates: equal)
+
+
+class _Tally:
+    """Running figures of the rows written, for a :class:`RankingSummary`."""
+
+    def __init__(self, sweep_cols: list[str], keep: int) -> None:
+        self.sweep_cols, self.keep = sweep_cols, keep
+        self.cases = 0
+        self.status: dict[str, int] = {}
+        self.values: dict[str, set] = {c: set() for c in sweep_cols}
+        self.points: set[tuple] = set()
+        self.ranked = 0
+        self.leaders = None
+        self.best = None
+
+    def add(self, table: pd.DataFrame) -> None:
+        import pandas as pd
+
+        self.cases += len(table)
+        if "status" in table:
+            for status, n in table["status"].value_counts().items():
+                self.status[status] = self.status.get(status, 0) + int(n)
+        for c in self.sweep_cols:
+            self.values[c].update(table[c].astype(str).dropna().unique())
+        if self.sweep_cols:
+            self.points.update(tuple(_NAN if isinstance(v, float) and v != v else v for v in t)
+                               for t in table[self.sweep_cols].itertuples(index=False, name=None))
+        ok = table[table["rank"].notna()] if "rank" in table else table.iloc[0:0]
+        self.ranked += len(ok)
+        if self.leaders is None or len(self.leaders) < self.keep:
+            more = ok.head(self.keep - (0 if self.leaders is None else len(self.leaders)))
+            self.leaders = more if self.leaders is None else pd.concat([self.leaders, more])
+        both = ok if self.best is None else pd.concat([self.best, ok])
+        self.best = _by_power(both).head(self.keep)
+
+    def summary(self, path: Path, store_path: Path, columns: list[str]) -> RankingSummary:
+        varying = [c for c in self.sweep_cols if self.cases and len(self.values[c]) > 1]
+        if varying and self.cases:
+            idx = [self.sweep_cols.index(c) for c in varying]
+            points = len({tuple(p[i] for i in idx) for p in self.points})
+        else:
+            points = 1
+        return RankingSummary(path=path, store_path=store_path, cases=self.cases,
+                              columns=columns, status_counts=dict(self.status),
+                              sweep_columns=list(self.sweep_cols), varying=varying,
+                              points=points, ranked=self.ranked, kept=self.keep,
+                              leaders=self.leaders, best=self.best)
+
+
+def _by_power(ok: pd.DataFrame) -> pd.DataFrame:
+    """Ranked rows by net power descending, then fluid, then layout; stable (file order)."""
+    import pandas as pd
+
+    return (ok.assign(_p=-pd.to_numeric(ok["net_power_kW"]))
+            .sort_values(["_p", "fluid", "layout"], kind="mergesort").drop(columns="_p"))
+
+
+def _records_frame(records: list[tuple], columns: list[str]) -> pd.DataFrame:
+    """Decoded store records (RunStore.record_chunks) as a table of object columns."""
+    dicts = [{"case_key": key, "case_index": index, **sweep, **row,
+              "case_elapsed_s": elapsed_s, "finished_at": finished_at}
+             for key, index, sweep, row, elapsed_s, finished_at in records]
+    return object_frame(dicts, columns)
+
+
+def _stream_ranking(store: RunStore, meta: dict, target: Path | None,
+                    keep: int = TOP_KEPT) -> RankingSummary:
+    """Write ranking.csv to ``target`` (None: write nothing) from the store in two passes (module
+    docstring); return its summary. A store of at most :data:`DECODE_ONCE_ROWS` current cases
+    is decoded once: its rows are kept from the first pass to the second (object tables, about
+    2 kB a row)."""
+    import numpy as np
+    import pandas as pd
+
+    # Pass 1: columns in order of first appearance, kinds of values of every column, and the
+    # small table the ranking needs.
+    kinds = ColumnKinds()
+    sweep_seen: dict[str, None] = {}
+    row_seen: dict[str, None] = {}
+    light = []
+    kept: list | None = [] if len(store) <= DECODE_ONCE_ROWS else None
+    for records in store.record_chunks():
+        for _, _, sweep, row, _, _ in records:
+            sweep_seen.update(dict.fromkeys(sweep))
+            row_seen.update(dict.fromkeys(row))
+        names = table_columns(sweep_seen, row_seen)
+        for name in names:
+            kinds.add_column(name)
+        frame = _records_frame(records, names)
+        del records
+        kinds.observe(frame)
+        light.append(frame[[c for c in names if c == "case_index" or c in _RANKING_INPUTS
+                            or c in sweep_seen]])
+        if kept is not None:
+            kept.append(frame)
+        del frame
+    columns = table_columns(sweep_seen, row_seen)
+    sweep_cols = _sweep_columns_of(columns)
+    names = [c for c in columns if c == "case_index" or c in _RANKING_INPUTS or c in sweep_seen]
+    if any(c not in names for c in sweep_cols):  # row keys before "fluid": not a usual store
+        del light, kept
+        return _whole_ranking(store, meta, target, keep)
+    missing = [c for c in ROW_COLUMNS if c not in columns]
+    row_cols = _row_columns_of(columns + missing, sweep_cols)
+    out_columns = ["case_key", *sweep_cols, "rank", *row_cols, *_VERSION_COLUMNS]
+    small = kinds.typed(pd.concat(light, ignore_index=True).reindex(columns=names))
+    del light
+    for col in _RANKING_INPUTS:
+        if col not in small:
+            small[col] = None
+    whole = {c: _whole_numbers(small[c]) for c in _INTEGER_COLUMNS}
+    order = _ranked_order(small, sweep_cols)[["case_index", "_point", "rank"]]
+    del small
+    if kept is not None:
+        kept = pd.concat(kept, ignore_index=True).reindex(columns=columns)
+        kept_index = kept["case_index"].to_numpy(dtype="int64")  # ascending: case order
+
+    # Pass 2: whole operating points, about ROWS_CHUNK rows at a time, in ranking order.
+    tally = _Tally(sweep_cols, keep)
+    tmp = None if target is None else target.with_name(f".{target.name}.tmp")
+    out = None if tmp is None else open(tmp, "w", encoding="utf-8", newline="")
+    try:
+        first = True
+        for part in _point_slices(order):
+            indexes = part["case_index"].to_numpy(dtype="int64")
+            if kept is not None:
+                frame = kept.iloc[np.searchsorted(kept_index, indexes)].reset_index(drop=True)
+            else:
+                records = [rec for chunk in store.record_chunks(indexes=indexes.tolist(),
+                                                                chunk=len(indexes))
+                           for rec in chunk]
+                frame = _records_frame(records, columns)
+                del records
+            if len(frame) != len(indexes) or not (
+                    frame["case_index"].to_numpy(dtype="int64") == indexes).all():
+                raise StoreError(f"the run store {store.path} changed while ranking.csv was "
+                                 "written; write it again")
+            table = kinds.typed(frame)
+            del frame
+            for col in missing:
+                table[col] = None
+            table["rank"] = part["rank"].array
+            table = _finish(table, sweep_cols, row_cols, meta, whole)
+            if out is not None:
+                table.to_csv(out, index=False, header=first, float_format=FLOAT_FORMAT,
+                             lineterminator="\n")
+            first = False
+            tally.add(table)
+        if out is not None:
+            out.close()
+            out = None
+            os.replace(tmp, target)
+    finally:
+        if out is not None:
+            out.close()
+            with contextlib.suppress(OSError):
+                os.unlink(tmp)
+    return tally.summary(target or store.directory / RANKING_FILE, store.path, out_columns)
+
+
+def _whole_ranking(store: RunStore, meta: dict, target: Path | None,
+                   keep: int = TOP_KEPT) -> RankingSummary:
+    """ranking.csv from the whole table in memory (an empty store, or an unusual one)."""
+    table = ranking_table(store.rows(), meta)
+    if target is not None:
+        _atomic_write(target, table.to_csv(index=False, float_format=FLOAT_FORMAT,
+                                           lineterminator="\n"))
+    return _small_summary(table, target or store.directory / RANKING_FILE, store.path, keep)
+
+
+def _point_slices(order: pd.DataFrame):
+    """Consecutive pieces of ``order`` made of whole operating points, about ROWS_CHUNK rows."""
+    points = order["_point"].to_numpy()
+    n = len(points)
+    start = 0
+    while start < n:
+        end = min(start + ROWS_CHUNK, n)
+        while end < n and points[end] == points[end - 1]:
+            end += 1
+        yield order.iloc[start:end]
+        start = end
+
+
+#: store file -> (revision, file stamps, summary) of the tables this process wrote last.
+_WRITTEN: dict[Path, tuple[int, tuple, RankingSummary]] = {}
+
+
+def _stamps(*paths: Path) -> tuple:
+    try:
+        return tuple((p.stat().st_ino, p.stat().st_size, p.stat().st_mtime_ns) for p in paths)
+    except OSError:
+        return ()
+
+
+def write_outputs(out_dir: str | os.PathLike[str],
+                  store: RunStore | None = None) -> RankingSummary:
     """Regenerate ``out_dir/ranking.csv`` and ``out_dir/run-info.json`` from the run store.
 
-    Returns the ranking table. ``store`` may be an open store of ``out_dir`` (e.g. the one a run
-    holds the lock of); otherwise the store is opened read-only-style (no lock, no creation).
-    Both files are written atomically (temporary file, then rename).
+    Returns a :class:`RankingSummary` (for :func:`top_table`; ``.table()`` reads the whole
+    table). ``store`` may be an open store of ``out_dir`` (e.g. the one a run holds the lock of);
+    otherwise the store is opened read-only-style (no lock, no creation). Both files are written
+    atomically (temporary file, then rename). When this process wrote both files from the same
+    store revision and they are untouched since, nothing is rewritten.
     """
     out_dir = Path(out_dir)
     own = store is None
     store = store or RunStore(out_dir, create=False)
+    ranking_path, info_path = out_dir / RANKING_FILE, out_dir / RUN_INFO_FILE
     try:
+        revision = store.revision()
+        done = _WRITTEN.get(store.path.resolve())
+        if done and done[0] == revision and done[1] and done[1] == _stamps(ranking_path, info_path):
+            return done[2]
         meta = store.meta()
-        table = ranking_table(store.rows(), meta)
         counts = store.counts()
+        if len(store):
+            summary = _stream_ranking(store, meta, ranking_path)
+        else:
+            summary = _whole_ranking(store, meta, ranking_path)
     finally:
         if own:
             store.close()
-    _atomic_write(out_dir / RANKING_FILE,
-                  table.to_csv(index=False, float_format=FLOAT_FORMAT, lineterminator="\n"))
     info = {
         "orcscreen_version": meta.get("orcscreen_version"),
         "coolprop_version": meta.get("coolprop_version"),
         "study_hash": meta.get("study_hash"),
         "study_name": meta.get("study_name"),
-        "cases": int(len(table)),
+        "cases": int(summary.cases),
         "counts": {s: int(counts.get(s, 0)) for s in ("ok", "infeasible", "failed")}
         | {s: int(n) for s, n in counts.items() if s not in ("ok", "infeasible", "failed")},
-        "sweep_columns": ranking_sweep_columns(table),
+        "sweep_columns": list(summary.sweep_columns),
         "created_at": meta.get("created_at"),
         "updated_at": meta.get("updated_at"),
         "files": {"ranking": RANKING_FILE, "store": store.path.name},
     }
-    _atomic_write(out_dir / RUN_INFO_FILE, json.dumps(info, indent=2) + "\n")
-    return table
+    _atomic_write(info_path, json.dumps(info, indent=2) + "\n")
+    _WRITTEN[store.path.resolve()] = (revision, _stamps(ranking_path, info_path), summary)
+    return summary
+
+
+def _small_summary(table: pd.DataFrame, path: Path, store_path: Path,
+                   keep: int = TOP_KEPT) -> RankingSummary:
+    """The summary of a ranking table held in memory."""
+    tally = _Tally(ranking_sweep_columns(table), keep)
+    if len(table):
+        tally.add(table)
+    summary = tally.summary(path, store_path, list(table.columns))
+    if summary.leaders is None:
+        summary.leaders = table.iloc[0:0]
+        summary.best = table.iloc[0:0]
+    return summary
 
 
 def ranking_sweep_columns(table: pd.DataFrame) -> list[str]:
@@ -155,24 +477,34 @@ def _fmt(value, spec: str) -> str:
     return format(v, spec) if math.isfinite(v) else ""
 
 
-def top_table(df: pd.DataFrame, n: int = 10) -> str:
-    """Plain-text table of the best ``n`` ranked cases of a ranking table, for the terminal.
+def top_table(table: pd.DataFrame | RankingSummary, n: int = 10) -> str:
+    """Plain-text table of the best ``n`` ranked cases of a ranking table (or of the
+    :class:`RankingSummary` that :func:`write_outputs` returns), for the terminal.
 
     One operating point: its ``n`` best cases. Several: the ``n`` best cases over all points
     (by net power), with the swept values shown. Ends with a line of status counts.
     """
-    sweep_cols = [c for c in ranking_sweep_columns(df)
-                  if not df.empty and df[c].astype(str).nunique() > 1]  # only those that vary
-    ok = df[df["rank"].notna()] if "rank" in df else df.iloc[0:0]
-    n_points = len(df.drop_duplicates(sweep_cols)) if sweep_cols and not df.empty else 1
-    if n_points > 1:
-        ok = ok.assign(_p=-pd.to_numeric(ok["net_power_kW"])).sort_values(
-            ["_p", "fluid", "layout"], kind="mergesort")
-    best = ok.head(n)
-    counts = df["status"].value_counts() if "status" in df else pd.Series(dtype=int)
+    if isinstance(table, RankingSummary):
+        summary = table
+        if n > summary.kept and summary.ranked > summary.kept:  # more than kept: read again
+            with RunStore(summary.store_path, create=False) as store:
+                summary = _stream_ranking(store, store.meta(), None, keep=n)
+    else:
+        summary = _small_summary(table, Path(RANKING_FILE), Path(), keep=max(n, TOP_KEPT))
+    return _top_text(summary, n)
+
+
+def _top_text(summary: RankingSummary, n: int) -> str:
+    import pandas as pd
+
+    sweep_cols = summary.varying
+    n_points = summary.points if sweep_cols else 1
+    pool = summary.best if n_points > 1 else summary.leaders
+    best = pool.head(n) if pool is not None else None
+    counts = summary.status_counts
     tally = ", ".join(f"{s} {int(counts.get(s, 0))}" for s in ("ok", "infeasible", "failed"))
-    if best.empty:
-        return f"no feasible case among {len(df)} ({tally})"
+    if best is None or best.empty:
+        return f"no feasible case among {summary.cases} ({tally})"
     columns = {"#": best["rank"].astype(str)}
     for col in sweep_cols:
         columns[col] = best[col].map(lambda v: _fmt(v, ".4g") or str(v))
@@ -195,9 +527,9 @@ def top_table(df: pd.DataFrame, n: int = 10) -> str:
         if col in best:
             columns[title] = best[col].map(lambda v: "" if v is None or v != v else
                                            (_fmt(v, ".0f") if isinstance(v, (int, float)) else str(v)))
-    table = pd.DataFrame(columns).to_string(index=False)
+    text = pd.DataFrame(columns).to_string(index=False)
     if n_points > 1:
-        head = f"best {len(best)} of {len(df)} cases over {n_points} operating points"
+        head = f"best {len(best)} of {summary.cases} cases over {n_points} operating points"
     else:
-        head = f"best {len(best)} of {len(df)} cases"
-    return f"{head}\n{table}\n{tally}"
+        head = f"best {len(best)} of {summary.cases} cases"
+    return f"{head}\n{text}\n{tally}"

@@ -18,12 +18,19 @@ process dies, however it dies, so a killed run never leaves a stale lock behind.
 Durability: ``synchronous=NORMAL`` in WAL mode keeps every committed transaction across a crash
 of the process (the case here); only a power loss or OS crash may drop the last commits
 (SQLite documentation, "Write-Ahead Logging" and "PRAGMA synchronous").
+
+Reading: rows are decoded :data:`ROWS_CHUNK` at a time (:meth:`RunStore.record_chunks`), and
+tables are built chunk by chunk with the column types pandas would give one table built from all
+rows at once (:class:`ColumnKinds`), so a large store is never held as a list of row dicts.
+Meta entry ``revision`` counts the write transactions, so a reader can tell that nothing changed.
+pandas is imported only by the functions that build tables.
 """
 
 from __future__ import annotations
 
 import contextlib
 import fcntl
+import functools
 import json
 import math
 import os
@@ -32,9 +39,10 @@ from collections.abc import Iterable, Iterator, Mapping
 from datetime import datetime, timezone
 from importlib import metadata
 from pathlib import Path
-from typing import Any, NamedTuple
+from typing import TYPE_CHECKING, Any, NamedTuple
 
-import pandas as pd
+if TYPE_CHECKING:  # pandas is imported where tables are built: not needed to run cases
+    import pandas as pd
 
 __all__ = [
     "STORE_FILE",
@@ -48,11 +56,15 @@ __all__ = [
     "encode_case",
     "orcscreen_version",
     "to_json",
+    "ColumnKinds",
+    "ROWS_CHUNK",
 ]
 
 STORE_FILE = "run.sqlite"
 LOCK_FILE = "run.lock"
 SCHEMA_VERSION = 1
+ROWS_CHUNK = 1000
+"""Rows decoded and turned into a table at a time when reading the store."""
 
 _SCHEMA = """
 CREATE TABLE IF NOT EXISTS cases (
@@ -118,6 +130,89 @@ def to_json(value: Any) -> str:
     return json.dumps(value, default=_plain, ensure_ascii=False, separators=(",", ":"))
 
 
+_KIND_SAMPLES: dict[str, Any] = {"none": None, "nan": math.nan, "bool": True, "int": 7,
+                                 "float": 1.5, "str": "x", "object": []}
+_KIND_OF_TYPE = {type(None): "none", bool: "bool", int: "int", float: "float", str: "str"}
+
+
+def _kinds_of(values: Any) -> set[str]:
+    """Kinds of the values of one object column: none, nan (also a missing key), bool, int,
+    float (a finite or infinite float), str, object (lists, dicts...)."""
+    import pandas as pd
+
+    types = set(map(type, values))
+    kinds = {_KIND_OF_TYPE.get(t, "object") for t in types if t is not float}
+    null = pd.isna(values)
+    if null.any():
+        nulls = values[null]
+        if any(v is None for v in nulls):
+            kinds.add("none")
+        if any(v is not None for v in nulls):
+            kinds.add("nan")
+    if float in types and any(type(v) is float for v in values[~null]):
+        kinds.add("float")
+    return kinds
+
+
+class ColumnKinds:
+    """The dtype each column would get in one table built from all rows at once.
+
+    pandas infers a column's dtype from the kinds of values in it (float64 for numbers with
+    gaps, int64 for whole numbers only, object for a mix of text and numbers...), never from
+    one chunk of rows. This records the kinds seen in every chunk (:meth:`observe`, on object
+    tables) and converts a chunk to the dtypes of the whole (:meth:`typed`); the dtype for a
+    set of kinds is pandas' own inference on one sample value of each kind
+    (``DataFrame.from_records``), which depends only on which kinds occur.
+    """
+
+    def __init__(self) -> None:
+        self.kinds: dict[str, set[str]] = {}
+        self.rows = 0
+
+    def observe(self, frame: pd.DataFrame) -> None:
+        """Add the kinds of the values of ``frame`` (object columns, as read from the store)."""
+        for name in frame.columns:
+            self.kinds.setdefault(name, set()).update(_kinds_of(frame[name].to_numpy()))
+        for name in self.kinds:
+            if name not in frame.columns and len(frame):
+                self.kinds[name].add("nan")  # absent from this chunk: missing, like a lost key
+        self.rows += len(frame)
+
+    def add_column(self, name: str) -> None:
+        """A column first seen after earlier chunks: missing (NaN) in them."""
+        if name not in self.kinds:
+            self.kinds[name] = {"nan"} if self.rows else set()
+
+    def dtype(self, name: str):
+        return _dtype_for(frozenset(self.kinds.get(name, ())))
+
+    def typed(self, frame: pd.DataFrame) -> pd.DataFrame:
+        """``frame`` (object columns) with each column in the dtype of the whole table."""
+        out = {}
+        for name in frame.columns:
+            dtype = self.dtype(name)
+            out[name] = frame[name] if dtype == object else frame[name].astype(dtype)
+        import pandas as pd
+
+        return pd.DataFrame(out, index=frame.index, columns=frame.columns)
+
+
+@functools.lru_cache(maxsize=None)
+def _dtype_for(kinds: frozenset[str]):
+    import pandas as pd
+
+    samples = [{"c": _KIND_SAMPLES[k]} for k in sorted(kinds)]
+    return pd.DataFrame.from_records(samples, columns=["c"])["c"].dtype
+
+
+def object_frame(records: list[dict], columns: list[str]) -> pd.DataFrame:
+    """Records as a table of object columns (values as decoded; a missing key is NaN, as in
+    ``DataFrame.from_records``)."""
+    import pandas as pd
+
+    return pd.DataFrame(records, columns=columns, dtype=object)
+
+
 def _status_of(row: Mapping[str, Any]) -> str:
     status = row.get("status")
     return str(status) if status else "failed"
@@ -157,6 +252,20 @@ def encode_case(key: str, index: int | None, result: Mapping[str, Any],
                        _status_of(row), str(row.get("reason") or ""), to_json(row),
                        to_json(result.get("detail")),
                        None if elapsed_s is None else float(elapsed_s), _now())
+
+
+def _decoded(rec: tuple) -> tuple:
+    key, index, sweep_text, row_text, elapsed_s, finished_at = rec
+    return key, index, json.loads(sweep_text), json.loads(row_text), elapsed_s, finished_at
+
+
+def table_columns(sweep_cols: Iterable[str], row_cols: Iterable[str]) -> list[str]:
+    """Column order of :meth:`RunStore.rows` from the sweep and row keys in order of first
+    appearance."""
+    sweep_cols = list(sweep_cols)
+    return ["case_key", "case_index", *sweep_cols,
+            *(c for c in row_cols if c not in sweep_cols and c not in ("case_key", "case_index")),
+            "case_elapsed_s", "finished_at"]
 
 
 class RunStore:
@@ -237,12 +346,16 @@ class RunStore:
         return self._lock_fd is not None
 
     @contextlib.contextmanager
-    def _transaction(self) -> Iterator[sqlite3.Connection]:
-        """One write transaction: BEGIN IMMEDIATE ... COMMIT, ROLLBACK on any error."""
+    def _transaction(self, bump: bool = True) -> Iterator[sqlite3.Connection]:
+        """One write transaction: BEGIN IMMEDIATE ... COMMIT, ROLLBACK on any error; with
+        ``bump`` it also adds one to the meta entry ``revision``."""
         conn = self.conn
         conn.execute("BEGIN IMMEDIATE")
         try:
             yield conn
+            if bump:
+                conn.execute("UPDATE meta SET value = CAST(value AS INTEGER) + 1 "
+                             "WHERE key = 'revision'")
         except BaseException:
             conn.execute("ROLLBACK")
             raise
@@ -256,11 +369,12 @@ class RunStore:
 
     # -- meta ---------------------------------------------------------------------------------
     def _init_meta(self) -> None:
-        with self._transaction() as conn:
+        with self._transaction(bump=False) as conn:
             conn.execute("INSERT OR IGNORE INTO meta VALUES ('schema_version', ?)",
                          (json.dumps(SCHEMA_VERSION),))
             conn.execute("INSERT OR IGNORE INTO meta VALUES ('created_at', ?)",
                          (json.dumps(_now()),))
+            conn.execute("INSERT OR IGNORE INTO meta VALUES ('revision', '0')")
         found = self.meta().get("schema_version")
         if found != SCHEMA_VERSION:
             raise StoreError(f"{self.path} has store schema version {found!r}; this orcscreen "
@@ -268,8 +382,15 @@ class RunStore:
 
     def meta(self) -> dict[str, Any]:
         """All meta entries: schema_version, created_at, updated_at, orcscreen_version,
-        coolprop_version, study_hash, study_name, study (the study as a JSON-able dict)..."""
+        coolprop_version, study_hash, study_name, study (the study as a JSON-able dict),
+        revision..."""
         return {k: json.loads(v) for k, v in self.conn.execute("SELECT key, value FROM meta")}
+
+    def revision(self) -> int:
+        """Number of write transactions on the store so far (cases, plan, meta): equal numbers
+        mean unchanged contents."""
+        found = self.conn.execute("SELECT value FROM meta WHERE key = 'revision'").fetchone()
+        return int(json.loads(found[0])) if found else 0
 
     def set_meta(self, **entries: Any) -> None:
         """Insert or replace meta entries (JSON-able values); also stamps ``updated_at``."""
@@ -345,31 +466,89 @@ class RunStore:
             "SELECT COUNT(*) FROM cases WHERE case_index IS NOT NULL").fetchone()
         return n
 
-    def rows(self, *, include_stale: bool = False) -> pd.DataFrame:
+    def record_chunks(self, *, include_stale: bool = False, chunk: int = ROWS_CHUNK,
+                      indexes: Iterable[int] | None = None) -> Iterator[list[tuple]]:
+        """Decoded current cases in case order, ``chunk`` at a time: lists of
+        ``(case_key, case_index, sweep dict, row dict, elapsed_s, finished_at)``.
+
+        ``indexes``: only the cases of these case indexes, in the order given (one chunk per
+        call of the underlying query: a range when they are consecutive, else a list).
+        ``include_stale`` as in :meth:`rows`.
+        """
+        columns = "case_key, case_index, sweep, row, elapsed_s, finished_at"
+        if indexes is not None:
+            wanted = list(indexes)
+            for start in range(0, len(wanted), chunk):
+                part = wanted[start:start + chunk]
+                low, high = min(part), max(part)
+                if high - low + 1 == len(part):
+                    found = self.conn.execute(
+                        f"SELECT {columns} FROM cases WHERE case_index BETWEEN ? AND ?",
+                        (low, high)).fetchall()
+                else:
+                    found = []
+                    for k in range(0, len(part), 500):  # SQLite's host-parameter limit
+                        some = part[k:k + 500]
+                        found += self.conn.execute(
+                            f"SELECT {columns} FROM cases WHERE case_index IN "
+                            f"({','.join('?' * len(some))})", some).fetchall()
+                by_index = {rec[1]: rec for rec in found}
+                yield [_decoded(by_index[i]) for i in part if i in by_index]
+            return
+        where = "" if include_stale else "WHERE case_index IS NOT NULL"
+        cursor = self.conn.execute(
+            f"SELECT {columns} FROM cases {where} "
+            "ORDER BY case_index IS NULL, case_index, case_key")
+        while True:
+            found = cursor.fetchmany(chunk)
+            if not found:
+                return
+            yield [_decoded(rec) for rec in found]
+
+    def rows(self, *, include_stale: bool = False,
+             columns: Iterable[str] | None = None) -> pd.DataFrame:
         """The current cases as a table, in case order.
 
         Columns: ``case_key``, ``case_index``, one column per swept dotted path (in the order
         they first appear), then the row keys in the engine's order (keys missing from a row
         are NaN/None), then ``case_elapsed_s`` (the batch's wall time of the case [s]) and
         ``finished_at`` (UTC, ISO 8601). ``include_stale=True`` also returns cases of earlier
-        study versions (``case_index`` NaN, sorted last by key).
+        study versions (``case_index`` NaN, sorted last by key). ``columns``: keep only these
+        (those that exist, in the order above; ``case_key`` and ``case_index`` always).
+
+        Built :data:`ROWS_CHUNK` rows at a time, with the same column types as one table built
+        from all rows at once.
         """
-        where = "" if include_stale else "WHERE case_index IS NOT NULL"
-        cursor = self.conn.execute(
-            "SELECT case_key, case_index, sweep, row, elapsed_s, finished_at FROM cases "
-            f"{where} ORDER BY case_index IS NULL, case_index, case_key")
-        records, sweep_cols, row_cols = [], {}, {}
-        for key, index, sweep_text, row_text, elapsed_s, finished_at in cursor:
-            sweep = json.loads(sweep_text)
-            row = json.loads(row_text)
-            sweep_cols.update(dict.fromkeys(sweep))
-            row_cols.update(dict.fromkeys(row))
-            records.append({"case_key": key, "case_index": index, **sweep, **row,
-                            "case_elapsed_s": elapsed_s, "finished_at": finished_at})
-        columns = ["case_key", "case_index", *sweep_cols,
-                   *(c for c in row_cols if c not in sweep_cols and c not in ("case_key", "case_index")),
-                   "case_elapsed_s", "finished_at"]
-        df = pd.DataFrame.from_records(records, columns=columns)
+        import pandas as pd
+
+        wanted = None if columns is None else {"case_key", "case_index", *columns}
+        kinds = ColumnKinds()
+        frames = []
+        sweep_cols: dict[str, None] = {}
+        row_cols: dict[str, None] = {}
+        for records in self.record_chunks(include_stale=include_stale):
+            dicts = []
+            for key, index, sweep, row, elapsed_s, finished_at in records:
+                sweep_cols.update(dict.fromkeys(sweep))
+                row_cols.update(dict.fromkeys(row))
+                dicts.append({"case_key": key, "case_index": index, **sweep, **row,
+                              "case_elapsed_s": elapsed_s, "finished_at": finished_at})
+            names = list(dict.fromkeys(k for d in dicts for k in d))
+            if wanted is not None:
+                names = [n for n in names if n in wanted]
+            for name in names:
+                kinds.add_column(name)
+            frame = object_frame(dicts, names)
+            del dicts
+            kinds.observe(frame)
+            frames.append(frame)
+        order = table_columns(sweep_cols, row_cols)
+        if wanted is not None:
+            order = [c for c in order if c in wanted]
+        if frames:
+            df = kinds.typed(pd.concat(frames, ignore_index=True).reindex(columns=order))
+        else:
+            df = pd.DataFrame.from_records([], columns=order)
         if not include_stale and not df.empty:
             df["case_index"] = df["case_index"].astype("int64")
         return df

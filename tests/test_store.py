@@ -233,8 +233,10 @@ def _filled_store(path):
 
 def test_ranking_ranks_within_operating_point_with_tie_break(tmp_path):
     _filled_store(tmp_path)
-    table = write_outputs(tmp_path)
+    summary = write_outputs(tmp_path)
+    table = summary.table()
     cols = list(table.columns)
+    assert summary.columns == cols and len(summary) == len(table) == 12
     assert cols[:4] == ["case_key", T_IN, "sink.inlet_temperature_C", "rank"]
     assert cols[-3:] == ["orcscreen_version", "coolprop_version", "study_hash"]
     assert "elapsed_s" not in cols  # run timing is not part of a reproducible ranking
@@ -284,7 +286,7 @@ def test_ranking_without_sweep_and_empty_store(tmp_path):
     with RunStore(tmp_path / "one") as store:
         store.put("a", 0, make_result("R134a", power=3.0))
         store.put("b", 1, make_result("R1234yf", power=4.0))
-    table = write_outputs(tmp_path / "one")
+    table = write_outputs(tmp_path / "one").table()
     assert list(table.columns[:2]) == ["case_key", "rank"]
     assert table["fluid"].tolist() == ["R1234yf", "R134a"]
     with RunStore(tmp_path / "empty"):
@@ -296,8 +298,10 @@ def test_ranking_without_sweep_and_empty_store(tmp_path):
 
 def test_top_table_lists_best_cases(tmp_path):
     _filled_store(tmp_path)
-    table = write_outputs(tmp_path)
-    text = top_table(table, n=3)
+    summary = write_outputs(tmp_path)
+    text = top_table(summary, n=3)
+    assert text == top_table(summary.table(), n=3)  # the summary prints what the table does
+    table = summary.table()
     lines = text.splitlines()
     assert lines[0] == "best 3 of 12 cases over 2 operating points"
     assert "R245FA" in lines[2] and "71.5" in lines[2]  # overall best first
