@@ -68,8 +68,10 @@ TIMING_COLUMNS = ("elapsed_s",)
 _INTEGER_COLUMNS = ("evaluations",)
 _VERSION_COLUMNS = ("orcscreen_version", "coolprop_version", "study_hash")
 _STORE_ONLY = ("case_key", "case_index", "case_elapsed_s", "finished_at")
-#: Row columns the ranking itself needs (first pass of write_outputs).
-_RANKING_INPUTS = ("status", "net_power_kW", "fluid", "layout", *_INTEGER_COLUMNS)
+#: Row columns the ranking order needs, and with the integer columns the first pass of
+#: write_outputs.
+_RANK_KEYS = ("status", "net_power_kW", "fluid", "layout")
+_RANKING_INPUTS = (*_RANK_KEYS, *_INTEGER_COLUMNS)
 
 
 def _sweep_columns_of(columns: list[str]) -> list[str]:
@@ -156,7 +158,7 @@ def ranking_table(rows: pd.DataFrame, meta: dict | None = None, *,
     meta = meta or {}
     df = rows.reset_index(drop=True).copy()
     sweep_cols = _sweep_columns_of(list(df.columns))
-    for col in ROW_COLUMNS if all_columns else _RANKING_INPUTS:
+    for col in ROW_COLUMNS if all_columns else _RANK_KEYS:
         if col not in df:
             df[col] = None
     row_cols = _row_columns_of(list(df.columns), sweep_cols)

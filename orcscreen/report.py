@@ -82,10 +82,27 @@ class _RunData:
     details: dict[str, dict | None] = field(default_factory=dict)
 
 
-def _load(out_dir: Path, top_n: int) -> _RunData:
+#: The row columns the report reads (charts, tables, cards, cautions): the table of all cases
+#: is built with these only, from the store in chunks. Every column named in this module,
+#: orcscreen.plots, orcscreen.rank and the cautions must be here.
+REPORT_COLUMNS = (
+    "fluid", "display_name", "layout", "status", "reason", "net_power_kW", "turbine_power_kW",
+    "pump_power_kW", "aux_power_kW", "heat_input_kW", "thermal_efficiency", "exergy_efficiency",
+    "evaporation_pressure_bar", "evaporation_temperature_C", "condensing_pressure_bar",
+    "condensing_temperature_C", "superheat_K", "turbine_inlet_temperature_C",
+    "turbine_outlet_temperature_C", "turbine_outlet_quality", "wf_mass_flow_kg_s",
+    "source_outlet_temperature_C", "pinch_location", "ua_total_kW_K", "size_parameter_m",
+    "volume_ratio", "turbine_efficiency", "binding_limit", "sub_atmospheric_condenser",
+    "family", "safety_class", "gwp100", "odp", "curve_type",
+)
+
+
+def _load(out_dir: Path, top_n: int,
+          columns: Sequence[str] | None = REPORT_COLUMNS) -> _RunData:
+    """The report's data from the store; ``columns`` None reads every row column."""
     with RunStore(out_dir, create=False) as store:
         meta, counts = store.meta(), store.counts()
-        table = ranking_table(store.rows(), meta)
+        table = ranking_table(store.rows(columns=columns), meta, all_columns=columns is None)
         sweep_cols = rank.sweep_columns(table)
         ok = rank.feasible(table)
         point: dict = {}

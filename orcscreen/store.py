@@ -514,7 +514,8 @@ class RunStore:
         are NaN/None), then ``case_elapsed_s`` (the batch's wall time of the case [s]) and
         ``finished_at`` (UTC, ISO 8601). ``include_stale=True`` also returns cases of earlier
         study versions (``case_index`` NaN, sorted last by key). ``columns``: keep only these
-        (those that exist, in the order above; ``case_key`` and ``case_index`` always).
+        row columns (those that exist, in the order above), with ``case_key``, ``case_index``
+        and the swept values.
 
         Built :data:`ROWS_CHUNK` rows at a time, with the same column types as one table built
         from all rows at once.
@@ -533,9 +534,9 @@ class RunStore:
                 row_cols.update(dict.fromkeys(row))
                 dicts.append({"case_key": key, "case_index": index, **sweep, **row,
                               "case_elapsed_s": elapsed_s, "finished_at": finished_at})
-            names = list(dict.fromkeys(k for d in dicts for k in d))
+            names = table_columns(sweep_cols, row_cols)
             if wanted is not None:
-                names = [n for n in names if n in wanted]
+                names = [n for n in names if n in wanted or n in sweep_cols]
             for name in names:
                 kinds.add_column(name)
             frame = object_frame(dicts, names)
@@ -544,7 +545,7 @@ class RunStore:
             frames.append(frame)
         order = table_columns(sweep_cols, row_cols)
         if wanted is not None:
-            order = [c for c in order if c in wanted]
+            order = [c for c in order if c in wanted or c in sweep_cols]
         if frames:
             df = kinds.typed(pd.concat(frames, ignore_index=True).reindex(columns=order))
         else:

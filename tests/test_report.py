@@ -323,3 +323,18 @@ def test_a_run_without_feasible_case_still_gets_a_report(tmp_path):
     assert len(page.tables["problems-table"]["rows"]) == 2
     assert "chart-problems" not in text
     assert not list((tmp_path / "figures").glob("*.png"))
+
+
+def test_report_reads_only_its_columns_and_shows_the_same(built):
+    """The report's table holds REPORT_COLUMNS only (read from the store in chunks); the page
+    it gives is the page of the table of every column, and the charts get the same values."""
+    out = built[0]
+    mine = report._load(out, 3)
+    every = report._load(out, 3, columns=None)
+    assert set(mine.table.columns) < set(every.table.columns)
+    assert "ua_condenser_kW_K" not in mine.table and "ua_condenser_kW_K" in every.table
+    pd.testing.assert_frame_equal(mine.table, every.table[list(mine.table.columns)])
+    pd.testing.assert_frame_equal(mine.top, every.top[list(mine.top.columns)])
+    built_at = re.compile(r"built \d{4}-\d\d-\d\d \d\d:\d\d UTC")
+    assert built_at.sub("", report.render_report(mine, [])) == \
+        built_at.sub("", report.render_report(every, []))
