@@ -101,7 +101,8 @@ class RunSummary:
 
     ok / infeasible / failed count the cases computed by this call, skipped the cases found in
     the store already; ``store_counts`` is the status count of all current cases in the store;
-    wall_time_s [s] the wall time of the call.
+    wall_time_s [s] the wall time of the call; ``workers`` where the cases ran: "this process",
+    "forked", "loky", "dask" or "" (nothing to compute).
     """
 
     out_dir: Path
@@ -115,6 +116,7 @@ class RunSummary:
     tasks: int
     max_chunk: int
     store_counts: dict[str, int] = field(default_factory=dict)
+    workers: str = ""
 
     @property
     def computed(self) -> int:
@@ -679,6 +681,16 @@ def run_study(study: Any, out_dir: str | os.PathLike[str], jobs: int | None = No
                 raise BatchError("the study yielded fewer cases the second time; case "
                                  "expansion must be deterministic")
 
+        if not todo:
+            kind = ""
+        elif cluster is not None:
+            kind = "dask"
+        elif pool is not None:
+            kind = "forked"
+        elif jobs == 1 or len(todo) == 1:
+            kind = "this process"
+        else:
+            kind = "forked" if fork_workers_available() else "loky"
         bar = _Progress(len(todo), skipped, progress)
         try:
             counts, n_tasks, largest = run_cases(
@@ -694,4 +706,5 @@ def run_study(study: Any, out_dir: str | os.PathLike[str], jobs: int | None = No
         return RunSummary(out_dir=out_dir, total=len(set(keys)), ok=counts.get("ok", 0),
                           infeasible=counts.get("infeasible", 0), failed=counts.get("failed", 0),
                           skipped=skipped, wall_time_s=time.perf_counter() - start, jobs=jobs,
-                          tasks=n_tasks, max_chunk=largest, store_counts=store.counts())
+                          tasks=n_tasks, max_chunk=largest, store_counts=store.counts(),
+                          workers=kind)

@@ -29,8 +29,8 @@ from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
 from orcscreen.api import ROW_COLUMNS  # the engine's row columns, contract section 2
+from orcscreen import store as _store
 from orcscreen.store import (
-    ROWS_CHUNK,
     ColumnKinds,
     RunStore,
     StoreError,
@@ -272,11 +272,12 @@ def _records_frame(records: list[tuple], columns: list[str]) -> pd.DataFrame:
 
 
 def _stream_ranking(store: RunStore, meta: dict, target: Path | None,
-                    keep: int = TOP_KEPT) -> RankingSummary:
+                    keep: int | None = None) -> RankingSummary:
     """Write ranking.csv to ``target`` (None: write nothing) from the store in two passes (module
     docstring); return its summary. A store of at most :data:`DECODE_ONCE_ROWS` current cases
     is decoded once: its rows are kept from the first pass to the second (object tables, about
     2 kB a row)."""
+    keep = keep or TOP_KEPT
     import numpy as np
     import pandas as pd
 
@@ -367,8 +368,9 @@ def _stream_ranking(store: RunStore, meta: dict, target: Path | None,
 
 
 def _whole_ranking(store: RunStore, meta: dict, target: Path | None,
-                   keep: int = TOP_KEPT) -> RankingSummary:
+                   keep: int | None = None) -> RankingSummary:
     """ranking.csv from the whole table in memory (an empty store, or an unusual one)."""
+    keep = keep or TOP_KEPT
     table = ranking_table(store.rows(), meta)
     if target is not None:
         _atomic_write(target, table.to_csv(index=False, float_format=FLOAT_FORMAT,
@@ -382,7 +384,7 @@ def _point_slices(order: pd.DataFrame):
     n = len(points)
     start = 0
     while start < n:
-        end = min(start + ROWS_CHUNK, n)
+        end = min(start + _store.ROWS_CHUNK, n)
         while end < n and points[end] == points[end - 1]:
             end += 1
         yield order.iloc[start:end]
@@ -447,8 +449,9 @@ def write_outputs(out_dir: str | os.PathLike[str],
 
 
 def _small_summary(table: pd.DataFrame, path: Path, store_path: Path,
-                   keep: int = TOP_KEPT) -> RankingSummary:
+                   keep: int | None = None) -> RankingSummary:
     """The summary of a ranking table held in memory."""
+    keep = keep or TOP_KEPT
     tally = _Tally(ranking_sweep_columns(table), keep)
     if len(table):
         tally.add(table)

@@ -466,16 +466,17 @@ class RunStore:
             "SELECT COUNT(*) FROM cases WHERE case_index IS NOT NULL").fetchone()
         return n
 
-    def record_chunks(self, *, include_stale: bool = False, chunk: int = ROWS_CHUNK,
+    def record_chunks(self, *, include_stale: bool = False, chunk: int | None = None,
                       indexes: Iterable[int] | None = None) -> Iterator[list[tuple]]:
-        """Decoded current cases in case order, ``chunk`` at a time: lists of
-        ``(case_key, case_index, sweep dict, row dict, elapsed_s, finished_at)``.
+        """Decoded current cases in case order, ``chunk`` (default :data:`ROWS_CHUNK`) at a
+        time: lists of ``(case_key, case_index, sweep dict, row dict, elapsed_s, finished_at)``.
 
         ``indexes``: only the cases of these case indexes, in the order given (one chunk per
         call of the underlying query: a range when they are consecutive, else a list).
         ``include_stale`` as in :meth:`rows`.
         """
         columns = "case_key, case_index, sweep, row, elapsed_s, finished_at"
+        chunk = chunk or ROWS_CHUNK
         if indexes is not None:
             wanted = list(indexes)
             for start in range(0, len(wanted), chunk):

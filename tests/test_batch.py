@@ -5,12 +5,17 @@ same study: a killed-and-resumed run, a second run, a run on a Dask cluster must
 the same ranking (same bytes). Failure isolation and the time limit are checked with an engine
 double that raises or hangs for chosen fluids and calls the real engine for the others.
 Mechanisms relied on: SIGKILL cannot be caught (POSIX signal(7)); SQLite WAL keeps every
-commit across a crash of the writer (sqlite.org, "Write-Ahead Logging").
+commit across a crash of the writer (sqlite.org, "Write-Ahead Logging"); a forked child keeps
+the parent's memory, monkeypatched functions included (POSIX fork(2)); Linux prctl(2)
+PR_SET_PDEATHSIG signals a child when its parent dies; /proc/PID/stat gives a process's state
+and parent (proc(5)).
 """
 
 from __future__ import annotations
 
 import io
+import math
+import os
 import signal
 import sqlite3
 import subprocess
@@ -25,8 +30,10 @@ from orcscreen import api
 from orcscreen.batch import (
     ClusterError,
     RunSummary,
+    _ChunkSizer,
     _Progress,
     _run_chunk,
+    fork_workers_available,
     run_study,
 )
 from orcscreen.outputs import RANKING_FILE
@@ -154,20 +161,6 @@ def test_two_runs_give_byte_identical_ranking(reference, tmp_path):
     assert_same_ranking(tmp_path, ref_out)
 
 
-def test_dask_local_cluster_gives_the_local_result(reference, tmp_path):
-    distributed = pytest.importorskip(
-        "distributed", reason="Dask is an optional extra: pip install 'orcscreen[cluster]'")
-    study, ref_out, ref_summary = reference
-    with distributed.LocalCluster(n_workers=2, processes=True, threads_per_worker=1,
-                                  host="127.0.0.1", dashboard_address=None) as cluster:
-        summary = run_study(study, tmp_path, cluster=cluster.scheduler_address, progress=False)
-        ran = {name: sum(prefix.state_counts.values())
-               for name, prefix in cluster.scheduler.task_prefixes.items()}
-    assert summary.computed == ref_summary.total and summary.tasks > 0
-    assert sum(n for name, n in ran.items() if "run_chunk" in name) >= summary.tasks, ran
-    assert_same_ranking(tmp_path, ref_out)
-
-
 def test_cluster_without_dask_is_a_clear_error(reference, tmp_path, monkeypatch):
     study = reference[0]
     monkeypatch.setitem(sys.modules, "distributed", None)  # import fails as if not installed
@@ -291,6 +284,152 @@ def test_plain_progress_lines_when_not_a_terminal(tmp_path, capsys):
 def test_jobs_must_be_positive(reference, tmp_path):
     with pytest.raises(ValueError, match="jobs must be a whole number >= 1, got 0"):
         run_study(reference[0], tmp_path, jobs=0, progress=False)
+
+
+
+
+# -- forked workers ---------------------------------------------------------------------------
+
+def _proc_stat(pid: int) -> tuple[str, int] | None:
+    """(state, parent pid) of a process from /proc/PID/stat (proc(5)); None if it is gone."""
+    try:
+        text = open(f"/proc/{pid}/stat").read()
+    except OSError:
+        return None
+    fields = text[text.rindex(")") + 2:].split()
+    return fields[0], int(fields[1])
+
+
+def _children(pid: int) -> list[int]:
+    found = []
+    for entry in os.listdir("/proc"):
+        if entry.isdigit():
+            stat = _proc_stat(int(entry))
+            if stat is not None and stat[1] == pid:
+                found.append(int(entry))
+    return found
+
+
+def _all_gone(pids, timeout_s=20.0) -> bool:
+    """True when every pid has exited (gone or a zombie waiting for its reaper)."""
+    deadline = time.monotonic() + timeout_s
+    while time.monotonic() < deadline:
+        states = [_proc_stat(p) for p in pids]
+        if all(st is None or st[0] in "ZX" for st in states):
+            return True
+        time.sleep(0.05)
+    return False
+
+
+def _start_cli(tmp_path, *args):
+    study_file = tmp_path / "study.toml"
+    study_file.write_text(study_toml(study_dict()))
+    out = tmp_path / "out"
+    proc = subprocess.Popen([sys.executable, "-m", "orcscreen", "run", str(study_file), "--out",
+                             str(out), "--no-report", *args], start_new_session=True,
+                            stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
+    deadline = time.monotonic() + 120
+    while stored_count(out) == 0 and proc.poll() is None and time.monotonic() < deadline:
+        time.sleep(0.005)
+    return proc, out
+
+
+needs_fork = pytest.mark.skipif(not sys.platform.startswith("linux"),
+                                reason="forked workers are used on Linux")
+
+
+@needs_fork
+def test_two_jobs_run_on_forked_workers(reference):
+    study, out, summary = reference
+    if fork_workers_available():  # the fixture ran in this single-threaded process
+        assert summary.workers == "forked"
+    assert summary.tasks >= 2 and summary.max_chunk >= 1
+
+
+@needs_fork
+def test_kill_with_forked_workers_leaves_none_and_resumes(reference, tmp_path):
+    """SIGKILL of the driver: the workers die with it (PR_SET_PDEATHSIG), the run lock is free
+    (flock(2): no worker keeps the lock file open) and a resumed run equals the reference."""
+    study, ref_out, ref_summary = reference
+    proc, out = _start_cli(tmp_path, "--jobs", "2")
+    try:
+        workers = _children(proc.pid)
+        proc.send_signal(signal.SIGKILL)
+    finally:
+        proc.wait(timeout=30)
+    assert proc.returncode == -signal.SIGKILL, "the run ended before it could be killed"
+    assert len(workers) == 2
+    assert _all_gone(workers), "a forked worker outlived the killed driver"
+    before = stored_count(out)
+    assert 0 < before < ref_summary.total
+    summary = run_study(study, out, jobs=2, progress=False)  # the lock was released
+    assert summary.skipped == before and summary.computed == ref_summary.total - before
+    assert_same_ranking(out, ref_out)
+
+
+@needs_fork
+def test_ctrl_c_stops_the_forked_workers_and_keeps_the_finished_cases(reference, tmp_path):
+    proc, out = _start_cli(tmp_path, "--jobs", "2")
+    workers = _children(proc.pid)
+    try:
+        os.killpg(proc.pid, signal.SIGINT)  # what a terminal sends to the whole group
+        assert proc.wait(timeout=60) == 130
+    finally:
+        if proc.poll() is None:
+            proc.kill()
+            proc.wait()
+    assert _all_gone(workers)
+    assert stored_count(out) > 0
+    with RunStore(out, lock=True) as store:  # not held by anyone any more
+        assert store.locked
+
+
+@needs_fork
+def test_forked_workers_isolate_failures_and_time_limits(tmp_path, monkeypatch):
+    """The engine double, patched in this process, is inherited by forked workers (fork(2))."""
+    if not fork_workers_available():
+        pytest.skip("other threads run in this process: the batch uses loky workers")
+    study = study_from_dict(study_dict(temperatures=(120,), case_time_limit_s=0.3))
+    monkeypatch.setattr(api, "run_case", _engine_double(api.run_case))
+    summary = run_study(study, tmp_path, jobs=2, progress=False)
+    assert summary.workers == "forked"
+    assert (summary.failed, summary.computed) == (4, 8)
+    rows = store_rows(tmp_path).set_index("fluid")
+    assert (rows.loc["IsoButane", "reason"] == "RuntimeError: deliberate failure for the test").all()
+    assert (rows.loc["n-Pentane", "reason"] == "time limit of 0.3 s exceeded").all()
+    assert set(rows.loc[["R245fa", "R134a"], "status"]) <= {"ok", "infeasible"}
+
+
+def test_chunks_shrink_toward_the_end_and_cover_every_case():
+    sizer = _ChunkSizer(pending=400, workers=2)
+    sizes = []
+    for chunk in sizer.chunks((i, f"k{i}", {}) for i in range(400)):
+        sizes.append(len(chunk))
+        sizer.observe([0.01] * len(chunk))  # 10 ms a case: 50 cases make TARGET_CHUNK_S
+    assert sum(sizes) == 400 and min(sizes) >= 1
+    assert sizes[:1] == [4] and max(sizes) == sizer.largest <= 50
+    left = 400
+    for n in sizes:  # guided: never more than a quarter of what is left (2 workers x 2)
+        assert n <= max(1, math.ceil(left / 4))
+        left -= n
+    assert sizes[-1] <= 2
+
+
+# -- last: these leave threads behind (Dask's offload thread, tqdm's monitor), after which
+# -- the batch no longer forks workers in this process (module docstring of orcscreen.batch)
+
+def test_dask_local_cluster_gives_the_local_result(reference, tmp_path):
+    distributed = pytest.importorskip(
+        "distributed", reason="Dask is an optional extra: pip install 'orcscreen[cluster]'")
+    study, ref_out, ref_summary = reference
+    with distributed.LocalCluster(n_workers=2, processes=True, threads_per_worker=1,
+                                  host="127.0.0.1", dashboard_address=None) as cluster:
+        summary = run_study(study, tmp_path, cluster=cluster.scheduler_address, progress=False)
+        ran = {name: sum(prefix.state_counts.values())
+               for name, prefix in cluster.scheduler.task_prefixes.items()}
+    assert summary.computed == ref_summary.total and summary.tasks > 0
+    assert sum(n for name, n in ran.items() if "run_chunk" in name) >= summary.tasks, ran
+    assert_same_ranking(tmp_path, ref_out)
 
 
 class _Terminal(io.StringIO):

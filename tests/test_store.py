@@ -314,3 +314,134 @@ def test_write_outputs_needs_a_store(tmp_path):
     with pytest.raises(StoreNotFoundError):
         write_outputs(tmp_path)
     assert not (tmp_path / RANKING_FILE).exists()
+
+
+# -- reading in chunks: the same tables and bytes as one table of all rows ---------------------
+
+def _mixed_store(path, n=60):
+    """Rows whose columns mix kinds of values across rows (numbers, gaps, text, flags, lists),
+    as failed, infeasible and ok rows do, over 5 operating points; arbitrary labels, no physics."""
+    rnd = np.random.default_rng(5)
+    with RunStore(path) as store:
+        store.set_meta(orcscreen_version="9.9", coolprop_version="7.7", study_hash="h4sh")
+        records = []
+        for i in range(n):
+            status = ["ok", "ok", "ok", "infeasible", "failed"][i % 5]
+            result = make_result(["R245fa", "isobutane", "pentane"][i % 3],
+                                 ["basic", "recuperated"][(i // 3) % 2], status,
+                                 power=[float(rnd.uniform(0, 99)), 50.0, math.inf][i % 3]
+                                 if status == "ok" else math.nan, reason=f"no, \"{i}\"\nreally")
+            row = result["row"]
+            row["turbine_power_kW"] = [1.5, None, math.nan, 7, 1234567][i % 5]  # ints and floats
+            row["gwp100"] = [1030, None][i % 2]                                  # ints and gaps
+            row["sub_atmospheric_condenser"] = [True, False, None][i % 3]         # flags and gaps
+            row["pinch_location"] = "bubble point" if i < 40 else [2.5, None][i % 2]  # late text+number
+            row["warnings"] = [["a", "b"], "", None][i % 3] if i >= 30 else ""
+            row["evaluations"] = None if status == "failed" else 7 + i
+            if i >= 45:
+                row["late_column"] = i                                           # a late extra key
+            sweep = {T_IN: 100.0 + i // 12, "sink.inlet_temperature_C": [20, 25.0][(i // 12) % 2]}
+            records.append((f"key{i:03d}", i, result, sweep, 0.1))
+        store.put_many(records[::-1])
+        store.put("old", None, make_result("R134a", power=999.0), sweep={T_IN: 1.0})  # stale
+
+
+def _one_table(path):
+    """Reference: one table of all current rows built at once by pandas (DataFrame.from_records
+    infers each column's dtype from all its values), in the column order of RunStore.rows."""
+    conn = sqlite3.connect(path / STORE_FILE)
+    found = conn.execute("SELECT case_key, case_index, sweep, row, elapsed_s, finished_at FROM "
+                         "cases WHERE case_index IS NOT NULL ORDER BY case_index").fetchall()
+    conn.close()
+    records, sweep_cols, row_cols = [], {}, {}
+    for key, index, sweep_text, row_text, elapsed_s, finished_at in found:
+        sweep, row = json.loads(sweep_text), json.loads(row_text)
+        sweep_cols.update(dict.fromkeys(sweep))
+        row_cols.update(dict.fromkeys(row))
+        records.append({"case_key": key, "case_index": index, **sweep, **row,
+                        "case_elapsed_s": elapsed_s, "finished_at": finished_at})
+    columns = ["case_key", "case_index", *sweep_cols, *row_cols, "case_elapsed_s", "finished_at"]
+    return pd.DataFrame.from_records(records, columns=columns)
+
+
+@pytest.fixture
+def small_chunks(monkeypatch):
+    """Chunks of 7 rows, so that every table below is built from several chunks."""
+    from orcscreen import store as store_module
+
+    monkeypatch.setattr(store_module, "ROWS_CHUNK", 7)
+
+
+def test_rows_read_in_chunks_equal_one_table_of_all_rows(tmp_path, small_chunks):
+    _mixed_store(tmp_path)
+    reference = _one_table(tmp_path)
+    with RunStore(tmp_path) as store:
+        pd.testing.assert_frame_equal(store.rows(), reference)
+        assert reference["pinch_location"].dtype == object  # text and numbers: object column
+        some = store.rows(columns=["net_power_kW", "gwp100", "no_such_column"])
+    assert list(some.columns) == ["case_key", "case_index", T_IN, "sink.inlet_temperature_C",
+                                  "net_power_kW", "gwp100"]
+    pd.testing.assert_frame_equal(some, reference[list(some.columns)])
+
+
+@pytest.mark.parametrize("decode_once", [True, False])
+def test_streamed_ranking_csv_equals_the_whole_table(tmp_path, small_chunks, monkeypatch,
+                                                      decode_once):
+    from orcscreen import outputs
+    from orcscreen.outputs import FLOAT_FORMAT, ranking_table
+
+    if not decode_once:
+        monkeypatch.setattr(outputs, "DECODE_ONCE_ROWS", 0)
+    _mixed_store(tmp_path)
+    with RunStore(tmp_path) as store:
+        meta = store.meta()
+    summary = write_outputs(tmp_path)
+    whole = ranking_table(_one_table(tmp_path), meta)
+    expected = whole.to_csv(index=False, float_format=FLOAT_FORMAT, lineterminator="\n")
+    assert (tmp_path / RANKING_FILE).read_text(encoding="utf-8") == expected
+    assert summary.columns == list(whole.columns) and summary.cases == len(whole) == 60
+    assert "late_column" in whole.columns
+    for n in (1, 3, 50):
+        assert top_table(summary, n=n) == top_table(whole, n=n)
+
+
+def test_top_table_beyond_the_kept_rows_reads_the_store_again(tmp_path, monkeypatch):
+    from orcscreen import outputs
+
+    monkeypatch.setattr(outputs, "TOP_KEPT", 2)
+    _filled_store(tmp_path)
+    summary = write_outputs(tmp_path)
+    assert summary.kept == 2 and len(summary.best) == 2 and summary.ranked == 9
+    assert top_table(summary, n=6) == top_table(summary.table(), n=6)
+    assert top_table(summary, n=6).splitlines()[0] == "best 6 of 12 cases over 2 operating points"
+
+
+def test_revision_counts_write_transactions(tmp_path):
+    with RunStore(tmp_path) as store:
+        first = store.revision()
+        store.put("a", 0, make_result("R134a", power=1.0))
+        store.set_meta(study_hash="x")
+        store.set_plan(["a"])
+        assert store.revision() == first + 3
+        store.rows()
+        store.meta()
+        assert store.revision() == first + 3  # reading changes nothing
+    with RunStore(tmp_path) as again:  # opening does not count
+        assert again.revision() == first + 3
+
+
+def test_write_outputs_rewrites_only_after_a_change(tmp_path):
+    _filled_store(tmp_path)
+    first = write_outputs(tmp_path)
+    stamp = (tmp_path / RANKING_FILE).stat().st_mtime_ns
+    assert write_outputs(tmp_path) is first  # same store revision, files untouched
+    assert (tmp_path / RANKING_FILE).stat().st_mtime_ns == stamp
+    with RunStore(tmp_path) as store:
+        store.put("key00", 0, make_result("isobutane", "basic", "ok", 80.0),
+                  sweep={T_IN: 120.0, "sink.inlet_temperature_C": 20})
+    again = write_outputs(tmp_path)
+    assert again is not first
+    assert "80," in (tmp_path / RANKING_FILE).read_text()
+    (tmp_path / RANKING_FILE).write_text("edited\n")  # a file changed by hand is rewritten
+    assert write_outputs(tmp_path) is not again
+    assert (tmp_path / RANKING_FILE).read_text().startswith("case_key,")
