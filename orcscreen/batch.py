@@ -598,7 +598,16 @@ def run_cases(tasks: Iterable[tuple[int, str, dict]], store: RunStore, *, pendin
                 counts[s] = counts.get(s, 0) + 1
             if progress is not None:
                 progress.update(statuses)
+            if n_tasks == 1 and sizer.workers > 1:
+                _import_table_modules()
     return counts, n_tasks, sizer.largest
+
+
+def _import_table_modules() -> None:
+    """Import pandas (for ranking.csv at the end) while the workers compute: after the first
+    chunk is stored, so that the first stored case does not wait for it, and in the driver
+    only, so that no worker carries it."""
+    import pandas  # noqa: F401
 
 
 def _study_dict(study: Any) -> Any:
