@@ -26,10 +26,15 @@ Workers, by platform and option:
 
 Chunk size: a chunk takes about :data:`TARGET_CHUNK_S` of work (from the mean case time measured
 so far), between 1 and :data:`MAX_CHUNK` cases, never more than a quarter of the pending cases per
-worker, and toward the end of the run at most an eighth of the cases not yet dispatched per
-worker... (guided scheduling), so the last chunks are small and the workers finish together.
-The first chunks have :data:`FIRST_CHUNK` cases, so the first result is stored quickly. At most
-two chunks per worker are in flight; the next chunk is cut when one comes back.
+worker; with several workers also never more than the cases not yet dispatched divided by
+twice the number of workers (guided scheduling: the last chunks are small, the workers finish
+together). The first chunks have :data:`FIRST_CHUNK` cases, so the first result is stored
+quickly. At most :data:`CHUNKS_IN_FLIGHT_PER_WORKER` chunks per worker are in flight; the next
+chunk is cut when one comes back. An empty task costs about 0.07 ms on the forked workers
+(measured, 2 workers, 2,000 tasks), small against cases of a few ms and a store commit.
+
+After the first stored chunk of a parallel run the driver imports pandas (needed for
+ranking.csv at the end), while the workers compute; the workers never import it.
 
 Resume: a case whose key is in the store is not computed again; a changed study computes only
 its new keys. Failure isolation: any exception raised while a case runs, and a case that exceeds
