@@ -15,7 +15,10 @@ of every column; a second pass decodes :data:`~orcscreen.store.ROWS_CHUNK` rows 
 whole operating points together, in ranking order, and appends them to the file. The columns
 get the types one table of all rows would give them (:class:`orcscreen.store.ColumnKinds`), so
 the bytes are those of :func:`ranking_table` on the whole table. Memory does not grow with the
-number of cases beyond that first-pass table.
+number of cases beyond that first-pass table; a store of at most :data:`DECODE_ONCE_ROWS` cases
+keeps its first-pass rows for the second pass instead of decoding them again. It returns a
+:class:`RankingSummary` (counts, swept columns, the best rows), which :func:`top_table` prints;
+a second call on an unchanged store (same store revision, untouched files) rewrites nothing.
 """
 
 from __future__ import annotations
