@@ -394,8 +394,10 @@ def _point_slices(order: pd.DataFrame):
         start = end
 
 
-#: store file -> (revision, file stamps, summary) of the tables this process wrote last.
+#: store file -> (revision, file stamps, summary) of the tables this process wrote last, for
+#: the last few stores only.
 _WRITTEN: dict[Path, tuple[int, tuple, RankingSummary]] = {}
+_WRITTEN_KEPT = 4
 
 
 def _stamps(*paths: Path) -> tuple:
@@ -447,6 +449,9 @@ def write_outputs(out_dir: str | os.PathLike[str],
         "files": {"ranking": RANKING_FILE, "store": store.path.name},
     }
     _atomic_write(info_path, json.dumps(info, indent=2) + "\n")
+    _WRITTEN.pop(store.path.resolve(), None)
+    while len(_WRITTEN) >= _WRITTEN_KEPT:  # the oldest first (dicts keep insertion order)
+        _WRITTEN.pop(next(iter(_WRITTEN)))
     _WRITTEN[store.path.resolve()] = (revision, _stamps(ranking_path, info_path), summary)
     return summary
 
