@@ -195,7 +195,14 @@ def _state_from_ph(fluid: Fluid, sat, h: float, near: State | None = None) -> St
 
 
 #: Last vapour cp [J/(kg K)] seen per fluid: the first guess of the expansion-outlet flash.
+#: Cleared at the start of every optimisation (:func:`reset_guesses`), so that a result does not
+#: depend, even in its last bits, on what the process computed before.
 _CP_VAPOUR_HINT: dict[str, float] = {}
+
+
+def reset_guesses() -> None:
+    """Forget the first guesses carried between evaluations (call at the start of a case)."""
+    _CP_VAPOUR_HINT.clear()
 
 
 def _superheated_ps(fluid: Fluid, sat, s: float) -> State:

@@ -21,7 +21,7 @@ from dataclasses import dataclass, field
 import numpy as np
 from scipy.optimize import minimize_scalar
 
-from .cycle import CycleResult, CycleSettings, Layout, evaluate
+from .cycle import CycleResult, CycleSettings, Layout, evaluate, reset_guesses
 from .properties import Fluid
 
 __all__ = ["Optimum", "optimise", "evaporation_window_K"]
@@ -251,7 +251,10 @@ def optimise(
 
     superheat_K: a fixed superheat [K], or "optimise" to choose it in [0, max_superheat_K].
     Returns an :class:`Optimum`, or (None, reason, evaluations) when nothing is feasible.
+    The result depends only on the arguments: guesses carried between evaluations are reset
+    first, so the same case gives the same bits in any process and after any other case.
     """
+    reset_guesses()
     if superheat_K != "optimise":
         r, limit, n, scan = _optimise_fixed_superheat(fluid, source, sink, settings, layout, float(superheat_K), n_scan)
         if r is None:

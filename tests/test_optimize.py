@@ -130,3 +130,15 @@ def test_infeasible_case_has_a_reason():
     assert row["status"] == "infeasible"
     assert "evaporation" in row["reason"]
     assert np.isnan(row["net_power_kW"])
+
+
+def test_a_case_does_not_depend_on_what_ran_before():
+    """Determinism (project requirement): the same case gives the same bits after other cases,
+    so --jobs 1 and --jobs 2 (different histories per process) store identical rows."""
+    cases = list(load_study(STUDIES / "demo.toml").cases())
+    first = run_case(cases[5])["row"]
+    for c in cases[10:20]:
+        run_case(c)
+    again = run_case(cases[5])["row"]
+    first.pop("elapsed_s"), again.pop("elapsed_s")
+    assert repr(first) == repr(again)
