@@ -21,7 +21,12 @@ EXIT_INTERNAL = 1
 EXIT_BAD_INPUT = 2
 EXIT_INTERRUPTED = 130
 
-SECONDS_PER_CASE_PER_CORE = 0.05
+#: Measured cost of one case in a batch on one core of the 2-core benchmark machine, store
+#: writes included (benchmarks/bench_scaling.py: 6-8 ms); an optimised superheat costs about
+#: 25 times more (a search over the superheat, each point with its own evaporation optimum).
+SECONDS_PER_CASE_PER_CORE = 0.008
+SUPERHEAT_SEARCH_FACTOR = 25
+START_UP_S = 2.5
 """Rough cost of one case [s] on one core, for the estimate of ``orcscreen check``: measured
 with the engine of 2026-12 on the 2-core development machine, the 154 cases of studies/demo.toml
 took 7.2 s in one process (about 45 ms per case; cases range from a few ms to a few hundred)."""
@@ -91,9 +96,12 @@ def _cmd_check(args: argparse.Namespace) -> int:
     factors = [str(n) for n in sizes.values()] + [str(len(fluids)), str(len(study.layouts))]
     print(f"  cases: {' x '.join(factors)} = {study.n_cases:,}")
     cores = args.jobs or _cores()
-    seconds = study.n_cases * SECONDS_PER_CASE_PER_CORE / cores
+    per_case = SECONDS_PER_CASE_PER_CORE
+    if study.cycle.superheat_K == "optimise":
+        per_case *= SUPERHEAT_SEARCH_FACTOR
+    seconds = START_UP_S + study.n_cases * per_case / cores
     print(f"  time: about {_duration(seconds)} on {cores} core{'s' if cores != 1 else ''} "
-          f"(a rough estimate at {SECONDS_PER_CASE_PER_CORE * 1000:g} ms per case per core; "
+          f"(a rough estimate at {per_case * 1000:g} ms per case per core plus {START_UP_S:g} s start-up; "
           f"real cases vary with fluid and layout)")
     print("nothing was run or written.")
     return EXIT_OK
@@ -111,7 +119,8 @@ def _cmd_fluids(args: argparse.Namespace) -> int:
     elif args.format == "json":
         print(json.dumps(json.loads(frame.to_json(orient="records")), indent=2, ensure_ascii=False))
     else:
-        with_units = frame.rename(columns=_TABLE_HEADERS)
+        unknown = {c: frame[c].map(lambda v: "-" if v is None else v) for c in frame.columns if frame[c].dtype == object}
+        with_units = frame.assign(**unknown).rename(columns=_TABLE_HEADERS)
         print(with_units.to_string(index=False, na_rep="-", float_format=lambda x: f"{x:.5g}")
               if len(frame) else "no fluid matches these filters")
         print(f"\n{len(frame)} fluids.")
