@@ -17,11 +17,10 @@ import math
 import time
 from pathlib import Path
 
-import numpy as np
 
 from . import fluids as fluid_catalogue
 from . import streams
-from .cycle import LAYOUTS, CycleResult, CycleSettings, ts_path, saturation_dome
+from .cycle import LAYOUTS, P_ATM_PA, CycleResult, CycleSettings, saturation_dome, ts_path
 from .optimize import optimise
 from .properties import PropertyError, get_fluid
 from .turbine import ConstantEfficiency
@@ -52,8 +51,6 @@ _STATE_LABELS = {
     "4": "turbine outlet",
     "4r": "recuperator hot-side outlet",
 }
-
-P_ATM_PA = 101325.0
 
 
 def settings_from_case(case: dict, info=None) -> CycleSettings:
@@ -204,7 +201,7 @@ def _f(x: float) -> float | None:
     return x if math.isfinite(x) else None
 
 
-def _detail(fluid, source, sink, r: CycleResult, opt) -> dict:
+def _detail(fluid, sink, r: CycleResult, opt) -> dict:
     states = [
         {
             "name": k,
@@ -276,7 +273,7 @@ def run_case(case: dict) -> dict:
             _, reason, n = opt
             return {"row": _nan_row(case, info, "infeasible", reason, time.perf_counter() - t0, n), "detail": None}
         try:
-            detail = _detail(fluid, source, sink, opt.cycle, opt)
+            detail = _detail(fluid, sink, opt.cycle, opt)
         except PropertyError as exc:  # chart data only: the result itself stands
             detail = {"error": f"detail not available: {exc}"}
         row = _row(case, info, fluid, source, sink, opt.cycle, opt.binding_limit, opt.evaluations, time.perf_counter() - t0)
@@ -346,7 +343,10 @@ def evaluate_cycle(
     powers [kW], the thermal efficiency, the turbine figures and the states (°C, bar, kJ/kg,
     kJ/(kg K)).
     """
-    f = get_fluid(fluid_catalogue.get_info(fluid).coolprop_name if _known(fluid) else fluid)
+    try:  # a catalogue name (CoolProp or display), else any CoolProp fluid
+        f = get_fluid(fluid_catalogue.get_info(fluid).coolprop_name)
+    except fluid_catalogue.UnknownFluidError:
+        f = get_fluid(fluid)
     T_evap = f.T_sat_K(evaporation_pressure_bar * 1e5)
     T_cond = f.T_sat_K(condensing_pressure_bar * 1e5)
     superheat = 0.0 if turbine_inlet_temperature_C is None else turbine_inlet_temperature_C + 273.15 - T_evap
@@ -380,10 +380,3 @@ def evaluate_cycle(
         },
     }
 
-
-def _known(name: str) -> bool:
-    try:
-        fluid_catalogue.get_info(name)
-        return True
-    except ValueError:
-        return False

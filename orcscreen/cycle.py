@@ -128,7 +128,6 @@ class CycleResult:
     eta_turbine: float = math.nan
     size_parameter_m: float = math.nan
     volume_ratio: float = math.nan
-    cond_limit: str = ""
     profiles: dict = field(default_factory=dict)
     margin: float = math.nan  # infeasible: signed distance to the broken limit, if it has one
 
@@ -611,13 +610,7 @@ def _evaluate(fluid, source, sink, s, layout, T_evap_K, superheat_K, exact, T_co
     W_aux = s.aux_power_per_W_rejected * Q_out
     W_net = s.generator_efficiency * W_t - W_p / s.motor_efficiency - W_aux
     dh_sink = float(sink.h_J_kg(sink.T_out_K) - sink.h_in_J_kg)
-    states = {"1": st1, "2": st2}
-    if layout.recuperator:
-        states["2r"] = st2r
-    states["3"] = st3
-    states["4"] = st4
-    if layout.recuperator:
-        states["4r"] = st4r
+    states = _state_table(layout, cs, st3)
     V4s = m_wf * cs.s4s_v
     result = CycleResult(
         status="ok",
@@ -663,6 +656,13 @@ def _profiles(fluid, source, sink, cs: _ColdSide, h_path, T_path, m_wf, st3, hs_
     return out
 
 
+def _state_table(layout: Layout, cs: _ColdSide, st3: State) -> dict[str, State]:
+    """The states of a layout in cycle order: 1, 2, (2r), 3, 4, (4r)."""
+    if layout.recuperator:
+        return {"1": cs.s1, "2": cs.s2, "2r": cs.s2r, "3": st3, "4": cs.s4, "4r": cs.s4r}
+    return {"1": cs.s1, "2": cs.s2, "3": st3, "4": cs.s4}
+
+
 def _fixed_flow_result(fluid, s, layout, sat_e, cs: _ColdSide, st3: State, m_wf: float, known) -> CycleResult:
     """Cycle with a given working-fluid flow and no source or sink streams (exploring by hand)."""
     st1, st2, st2r, st4, st4r = cs.s1, cs.s2, cs.s2r, cs.s4, cs.s4r
@@ -670,12 +670,7 @@ def _fixed_flow_result(fluid, s, layout, sat_e, cs: _ColdSide, st3: State, m_wf:
     W_p = m_wf * (st2.h - st1.h)
     Q_out = m_wf * (st4r.h - st1.h)
     W_aux = s.aux_power_per_W_rejected * Q_out
-    states = {"1": st1, "2": st2}
-    if layout.recuperator:
-        states["2r"] = st2r
-    states.update({"3": st3, "4": st4})
-    if layout.recuperator:
-        states["4r"] = st4r
+    states = _state_table(layout, cs, st3)
     return CycleResult(
         status="ok",
         T_evap_K=sat_e.T_K,

@@ -16,7 +16,6 @@ import shutil
 from pathlib import Path
 
 import matplotlib.image as mpimg
-import numpy as np
 import pytest
 
 from orcscreen import report
