@@ -2,9 +2,10 @@
 
 Typed-in data (family, ASHRAE 34 safety class, GWP100, ODP, thermal-stability limit, each with
 its source) come from ``fluids/catalogue.csv`` (override with the environment variable
-``ORCSCREEN_CATALOGUE``). Everything else is computed once per process from the equation of
-state through :mod:`orcscreen.properties`: critical temperature and pressure, normal boiling
-point, molar mass and the vapour-curve type.
+``ORCSCREEN_CATALOGUE``). Everything else is computed from the equation of state through
+:mod:`orcscreen.properties` (critical temperature and pressure, normal boiling point, molar mass
+and the vapour-curve type) once per CoolProp build and kept in an on-disk cache
+(:mod:`orcscreen.constants_cache`).
 
 Vapour-curve criterion (dry / wet / isentropic)
     sigma = (T_c / R) * (ds/dT) of the saturated vapour at T_r = T/T_c = 0.7 [-],
@@ -31,7 +32,8 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import TYPE_CHECKING
 
-from orcscreen.properties import PropertyError, coolprop_fluid_names, get_fluid
+from orcscreen.constants_cache import ConstantsCache
+from orcscreen.properties import PropertyError, coolprop_build, coolprop_fluid_names, get_fluid
 
 if TYPE_CHECKING:
     import pandas as pd
@@ -200,7 +202,7 @@ def vapour_curve_slope(coolprop_name: str) -> float:
     fluid = get_fluid(coolprop_name)
     T_K = max(CURVE_REDUCED_TEMPERATURE * fluid.T_crit_K, fluid.T_min_K + 1.0)
     R_J_kgK = R_UNIVERSAL_J_molK / fluid.M_kg_mol
-    dTds = fluid.saturated_vapour_dTds(T_K)
+    dTds = fluid.saturated_vapour_dTds(T_K, solved=True)  # no curves built for the catalogue
     return fluid.T_crit_K / (R_J_kgK * dTds)
 
 
@@ -209,16 +211,27 @@ def _normal_boiling_point_K(fluid) -> float | None:
     if fluid.p_crit_Pa <= P_NORMAL_Pa:
         return None
     try:
-        p_lowest_Pa = fluid.sat_T(fluid.T_min_K).p_Pa
+        p_lowest_Pa = fluid.sat_T_solved(fluid.T_min_K).p_Pa
     except PropertyError:
         p_lowest_Pa = None
     if p_lowest_Pa is not None and p_lowest_Pa > P_NORMAL_Pa:
         return None  # 1 atm is below the triple-point pressure (e.g. carbon dioxide)
-    return fluid.T_sat_K(P_NORMAL_Pa)
+    return fluid.T_sat_solved_K(P_NORMAL_Pa)
+
+
+@functools.lru_cache(maxsize=1)
+def _constants_cache() -> ConstantsCache:
+    return ConstantsCache("fluid-constants", coolprop_build())
 
 
 @functools.lru_cache(maxsize=None)
 def _computed(coolprop_name: str) -> dict:
+    """The equation-of-state columns of one fluid, from the on-disk cache if it has them
+    (:mod:`orcscreen.constants_cache`), else computed (and kept there)."""
+    return _constants_cache().get(coolprop_name, lambda: _compute(coolprop_name))
+
+
+def _compute(coolprop_name: str) -> dict:
     fluid = get_fluid(coolprop_name)
     sigma = vapour_curve_slope(coolprop_name)
     return {
@@ -324,6 +337,7 @@ def _load(path_text: str, stamp: tuple[int, int]) -> tuple[FluidInfo, ...]:
                 raise CatalogueError(f"{where}: name {key!r} is already used by {seen[key]}")
             seen[key] = info.coolprop_name
         infos.append(info)
+    _constants_cache().save()
     return tuple(infos)
 
 

@@ -6,18 +6,83 @@ CoolProp errors are turned into :class:`PropertyError`, which names the fluid an
 
 Sources: Bell, Wronski, Quoilin, Lemort, "Pure and pseudo-pure fluid thermophysical property
 evaluation and the open-source thermophysical property library CoolProp", Ind. Eng. Chem.
-Res. 53 (2014) 2498-2508, doi:10.1021/ie4033999. Saturation of pure fluids uses CoolProp's
-superancillary equations where available (Bell and Deiters, AIChE J. 67 (2021) e17289).
+Res. 53 (2014) 2498-2508, doi:10.1021/ie4033999.
+
+Saturation of pure fluids comes from the superancillary equations that CoolProp ships with
+each fluid (Bell and Deiters, AIChE J. 67 (2021) e17289, "Efficient and precise representation
+of pure fluid phase equilibria with Chebyshev expansions"; CoolProp's coefficients; CoolProp
+documentation page "Superancillaries"): piecewise Chebyshev expansions in temperature of the
+saturation pressure and of both saturated densities, which reproduce the equation of state's
+own phase equilibrium to about 1e-12. CoolProp 8 builds them for all of its ~120 fluids when it
+is imported (about 2 s of every process start). orcscreen imports it with that build switched
+off (the environment variable ``COOLPROP_DISABLE_SUPERANCILLARIES_ENTIRELY``, which CoolProp 8
+reads when it loads and names in its notice; set only for the import and removed again) and
+evaluates the same coefficients itself, read from the fluid's file per fluid on first use (a
+few ms each). A saturated state is the equation of state evaluated at (T, rho') and (T, rho''),
+as in CoolProp's own superancillary path. Fluids without expansions, and temperatures outside
+them, use CoolProp's iterative phase-equilibrium solver; so do CoolProp's general flashes,
+which orcscreen uses only as a fall-back. If the host program imported CoolProp first, it stays
+as it was loaded.
 """
 
 from __future__ import annotations
 
+import contextlib
 import functools
+import json
 import math
+import os
+import sys
 from dataclasses import dataclass
 
-import CoolProp
-from CoolProp import CoolProp as CP
+_NO_EAGER_SUPERANC_ENV = "COOLPROP_DISABLE_SUPERANCILLARIES_ENTIRELY"
+
+
+@contextlib.contextmanager
+def _quiet_stdout():
+    """File descriptor 1 to /dev/null inside the block (CoolProp prints a notice there when the
+    variable above is set); C stdio buffers are flushed before it is restored."""
+    try:
+        sys.stdout.flush()
+        saved = os.dup(1)
+    except (OSError, ValueError, AttributeError):
+        yield
+        return
+    devnull = os.open(os.devnull, os.O_WRONLY)
+    try:
+        os.dup2(devnull, 1)
+        yield
+    finally:
+        try:
+            import ctypes
+
+            ctypes.CDLL(None).fflush(None)
+        except (OSError, AttributeError):
+            pass
+        os.dup2(saved, 1)
+        os.close(saved)
+        os.close(devnull)
+
+
+def _import_coolprop():
+    """CoolProp's package and core module, imported without the eager superancillary build
+    unless CoolProp is already loaded or the variable is already set (module docstring)."""
+    if "CoolProp.CoolProp" in sys.modules or _NO_EAGER_SUPERANC_ENV in os.environ:
+        import CoolProp
+        from CoolProp import CoolProp as core
+
+        return CoolProp, core
+    os.environ[_NO_EAGER_SUPERANC_ENV] = "1"
+    try:
+        with _quiet_stdout():
+            import CoolProp
+            from CoolProp import CoolProp as core
+    finally:
+        os.environ.pop(_NO_EAGER_SUPERANC_ENV, None)
+    return CoolProp, core
+
+
+CoolProp, CP = _import_coolprop()
 
 __all__ = [
     "PropertyError",
@@ -26,6 +91,7 @@ __all__ = [
     "Fluid",
     "get_fluid",
     "coolprop_version",
+    "coolprop_build",
     "coolprop_fluid_names",
     "ideal_gas_enthalpy_J_kg",
     "ideal_gas_entropy_J_kgK",
@@ -80,11 +146,74 @@ _PHASES = {"liquid": CP.iphase_liquid, "gas": CP.iphase_gas}
 _iP, _iT, _iD, _iH, _iS = CP.iP, CP.iT, CP.iDmass, CP.iHmass, CP.iSmass
 
 
+class _SaturationCurves:
+    """Saturation pressure p(T) [Pa] and saturated molar densities rho'(T), rho''(T) [mol/m3] of
+    one fluid: CoolProp's ``SuperAncillary`` built from the coefficients in the fluid's file
+    (module docstring), valid for T_min_K <= T <= T_max_K (triple point to the numerical
+    critical point of the expansions)."""
+
+    __slots__ = ("_eval", "T_min_K", "T_max_K", "p_min_Pa", "p_max_Pa", "T_crit_K", "p_crit_Pa")
+
+    def __init__(self, text: str, data: dict):
+        self._eval = CP.SuperAncillary(text).eval_sat
+        self.T_min_K = max(min(e["xmin"] for e in data[k]) for k in _CURVE_KEYS)
+        self.T_max_K = min(max(e["xmax"] for e in data[k]) for k in _CURVE_KEYS)
+        self.p_min_Pa = self.p(self.T_min_K)
+        self.p_max_Pa = self.p(self.T_max_K)
+        # the critical point as CoolProp 8 reports it with its own superancillaries (checked
+        # equal for all its fluids): the equation of state's numerical critical temperature
+        # and the pressure where the curves end (chlorine's end 1e-4 K below that temperature)
+        self.T_crit_K = float(data.get("meta", {}).get("Tcrittrue / K", self.T_max_K))
+        self.p_crit_Pa = self.p_max_Pa
+
+    @classmethod
+    def of(cls, name: str) -> _SaturationCurves | None:
+        """The curves of CoolProp fluid ``name``, or None where its file has none."""
+        try:
+            text = CP.get_fluid_param_string(name, "JSON")
+            start = text.index("{", text.index('"SUPERANCILLARY"'))
+            data, end = json.JSONDecoder().raw_decode(text, start)
+            return cls(text[start:end], data)
+        except (ValueError, KeyError, TypeError):
+            return None
+
+    def p(self, T_K: float) -> float:
+        return self._eval(T_K, "P", 0)
+
+    def rhoL(self, T_K: float) -> float:
+        return self._eval(T_K, "D", 0)
+
+    def rhoV(self, T_K: float) -> float:
+        return self._eval(T_K, "D", 1)
+
+    def T_K(self, p_Pa: float) -> float:
+        """Saturation temperature [K] at p_Pa [Pa] (p_min_Pa <= p_Pa <= p_max_Pa): the root of
+        ln p(T) = ln p_Pa in x = 1/T, where it is nearly a straight line (Clausius-Clapeyron), by
+        Brent's method (scipy), to a relative 1e-15 in T."""
+        from scipy.optimize import brentq
+
+        if p_Pa <= self.p_min_Pa:
+            return self.T_min_K
+        if p_Pa >= self.p_max_Pa:
+            return self.T_max_K
+        ev, log, ln_p = self._eval, math.log, math.log(p_Pa)
+        x = brentq(lambda x: log(ev(1.0 / x, "P", 0)) - ln_p, 1.0 / self.T_max_K, 1.0 / self.T_min_K,
+                   xtol=1e-300, rtol=8.9e-16, maxiter=200)
+        return 1.0 / x
+
+
+_CURVE_KEYS = ("jexpansions_p", "jexpansions_rhoL", "jexpansions_rhoV")
+
+
+_NOT_BUILT = object()
+
+
 class Fluid:
     """A pure working fluid on one CoolProp backend, with a cached low-level state.
 
-    Constants (read once from the equation of state): T_crit_K, p_crit_Pa, T_min_K (triple
-    point or lowest temperature of the equation), T_max_K, p_max_Pa, M_kg_mol.
+    Constants (read once from the equation of state): T_crit_K, p_crit_Pa (on first use, from
+    the saturation curves), T_min_K (triple point or lowest temperature of the equation),
+    T_max_K, p_max_Pa, M_kg_mol.
     """
 
     def __init__(self, name: str, backend: str = "HEOS"):
@@ -95,13 +224,32 @@ class Fluid:
         except ValueError as exc:
             raise PropertyError(f"CoolProp backend {backend} does not know the fluid {name!r}: {exc}") from None
         AS = self._AS
-        self.T_crit_K = AS.T_critical()
-        self.p_crit_Pa = AS.p_critical()
+        self._critical_in_file = (AS.T_critical(), AS.p_critical())
         self.M_kg_mol = AS.molar_mass()
         self.T_max_K = AS.Tmax()
         self.p_max_Pa = AS.pmax()
         self.T_min_K = max(AS.Ttriple(), AS.Tmin())
         self._sat_cache: dict[float, SatPoint] = {}
+        self._curves = _NOT_BUILT if backend == "HEOS" else None
+
+    def _saturation_curves(self) -> _SaturationCurves | None:
+        if self._curves is _NOT_BUILT:
+            self._curves = _SaturationCurves.of(self.name)
+        return self._curves
+
+    @functools.cached_property
+    def T_crit_K(self) -> float:
+        """Critical temperature [K]: where the saturation curves end (the equation of state's
+        numerical critical point, as CoolProp 8 reports it with its superancillaries), else the
+        value in the fluid's file."""
+        curves = self._saturation_curves()
+        return curves.T_crit_K if curves is not None else self._critical_in_file[0]
+
+    @functools.cached_property
+    def p_crit_Pa(self) -> float:
+        """Critical pressure [Pa], at T_crit_K (see there)."""
+        curves = self._saturation_curves()
+        return curves.p_crit_Pa if curves is not None else self._critical_in_file[1]
 
     def __repr__(self) -> str:
         return f"Fluid({self.name!r}, {self.backend!r})"
@@ -111,37 +259,64 @@ class Fluid:
 
     # -- saturation -------------------------------------------------------------------
     def sat_T(self, T_K: float) -> SatPoint:
-        """Saturation at temperature T_K [K] (T_min_K <= T_K < T_crit_K)."""
+        """Saturation at temperature T_K [K] (T_min_K <= T_K < T_crit_K): superancillary curves
+        where the fluid has them (module docstring), else CoolProp's phase-equilibrium solver."""
         cached = self._sat_cache.get(T_K)
         if cached is not None:
             return cached
-        AS = self._AS
-        try:
-            AS.update(CP.QT_INPUTS, 0.0, T_K)
-            p, hL, sL, rhoL = AS.p(), AS.hmass(), AS.smass(), AS.rhomass()
-            AS.update(CP.QT_INPUTS, 1.0, T_K)
-            sat = SatPoint(T_K, p, hL, AS.hmass(), sL, AS.smass(), 1.0 / rhoL, 1.0 / AS.rhomass())
-        except ValueError as exc:
-            raise PropertyError(
-                f"{self.name}: no saturation state at T = {T_K - 273.15:.2f} °C "
-                f"(critical temperature {self.T_crit_K - 273.15:.2f} °C): {exc}"
-            ) from None
+        curves = self._saturation_curves()
+        if curves is not None and curves.T_min_K <= T_K <= curves.T_max_K:
+            sat = self._sat_from_curves(curves, T_K)
+        else:
+            sat = self.sat_T_solved(T_K)
         if len(self._sat_cache) > 20000:
             self._sat_cache.clear()
         self._sat_cache[T_K] = sat
         return sat
 
+    def _sat_from_curves(self, curves: _SaturationCurves, T_K: float) -> SatPoint:
+        AS = self._AS
+        try:
+            AS.specify_phase(CP.iphase_liquid)
+            AS.update(CP.DmolarT_INPUTS, curves.rhoL(T_K), T_K)
+            hL, sL, rhoL = AS.hmass(), AS.smass(), AS.rhomass()
+            AS.specify_phase(CP.iphase_gas)
+            AS.update(CP.DmolarT_INPUTS, curves.rhoV(T_K), T_K)
+            return SatPoint(T_K, curves.p(T_K), hL, AS.hmass(), sL, AS.smass(), 1.0 / rhoL, 1.0 / AS.rhomass())
+        except ValueError as exc:
+            raise PropertyError(f"{self.name}: no saturation state at T = {T_K - 273.15:.2f} °C: {exc}") from None
+        finally:
+            AS.unspecify_phase()
+
+    def sat_T_solved(self, T_K: float) -> SatPoint:
+        """Saturation at T_K by CoolProp's iterative phase-equilibrium solver, without building
+        the curves (and not cached): for one-off look-ups such as the catalogue's descriptors."""
+        AS = self._AS
+        try:
+            AS.update(CP.QT_INPUTS, 0.0, T_K)
+            p, hL, sL, rhoL = AS.p(), AS.hmass(), AS.smass(), AS.rhomass()
+            AS.update(CP.QT_INPUTS, 1.0, T_K)
+            return SatPoint(T_K, p, hL, AS.hmass(), sL, AS.smass(), 1.0 / rhoL, 1.0 / AS.rhomass())
+        except ValueError as exc:
+            raise PropertyError(
+                f"{self.name}: no saturation state at T = {T_K - 273.15:.2f} °C "
+                f"(critical temperature {self.T_crit_K - 273.15:.2f} °C): {exc}"
+            ) from None
+
     def sat_p(self, p_Pa: float) -> SatPoint:
         """Saturation at pressure p_Pa [Pa] (below the critical pressure)."""
-        try:
-            self._AS.update(CP.PQ_INPUTS, p_Pa, 0.0)
-            T = self._AS.T()
-        except ValueError as exc:
-            raise PropertyError(f"{self.name}: no saturation state at p = {p_Pa / 1e5:.5g} bar: {exc}") from None
-        return self.sat_T(T)
+        return self.sat_T(self.T_sat_K(p_Pa))
 
     def T_sat_K(self, p_Pa: float) -> float:
-        """Saturation temperature [K] at pressure p_Pa [Pa]."""
+        """Saturation temperature [K] at pressure p_Pa [Pa] (curves where available, as sat_T)."""
+        curves = self._saturation_curves()
+        if curves is not None and curves.p_min_Pa <= p_Pa <= curves.p_max_Pa:
+            return curves.T_K(p_Pa)
+        return self.T_sat_solved_K(p_Pa)
+
+    def T_sat_solved_K(self, p_Pa: float) -> float:
+        """Saturation temperature [K] at p_Pa by CoolProp's iterative solver, without building the
+        curves: for one-off look-ups such as the catalogue's normal boiling points."""
         try:
             self._AS.update(CP.PQ_INPUTS, p_Pa, 0.0)
             return self._AS.T()
@@ -189,6 +364,8 @@ class Fluid:
                 r1 = AS.p() - p_Pa
                 r2 = y() - target
                 if abs(r1) <= tol_p and abs(r2) <= tol_y:
+                    if not self._on_its_side(phase, AS.rhomolar(), T_K):
+                        return None  # a spurious root of the equation of state (see below)
                     return State(T_K, p_Pa + r1, AS.hmass(), AS.smass(), 1.0 / rho, math.nan, AS.cpmass())
                 if it % 3 == 0:
                     a, b = d(_iP, _iD, _iT), d(_iP, _iT, _iD)
@@ -205,17 +382,31 @@ class Fluid:
             AS.unspecify_phase()
         return None
 
+    def _on_its_side(self, phase: str, rho_mol_m3: float, T_K: float) -> bool:
+        """False if a converged state is denser than the saturated vapour yet imposed "gas", or
+        lighter than the saturated liquid yet imposed "liquid", at its temperature (1e-7 relative
+        slack): inside the two-phase region a multiparameter equation of state has further
+        roots with dp/drho > 0 (seen: R134a, 30 bar, "liquid" at 334 K and 718 kg/m3, where the
+        liquid has 1066 kg/m3), which a phase-imposed iteration can land on from a far guess."""
+        curves = self._curves
+        if curves is None or curves is _NOT_BUILT or not curves.T_min_K <= T_K <= curves.T_max_K:
+            return True
+        if phase == "liquid":
+            return rho_mol_m3 >= curves.rhoL(T_K) * (1.0 - 1e-7)
+        return rho_mol_m3 <= curves.rhoV(T_K) * (1.0 + 1e-7)
+
     def state_ps(self, p_Pa: float, s: float, phase: str | None = None, T_guess_K: float | None = None, v_guess: float | None = None) -> State:
         """State at pressure p_Pa [Pa] and specific entropy s [J/(kg K)].
 
         With phase ("liquid" or "gas", known to the caller) and a temperature guess, a Newton
         iteration with the phase imposed replaces CoolProp's general flash (several times faster).
+        Without them, the phase comes from the saturated states at p (see :meth:`_flash_py`).
         """
         if phase is not None and T_guess_K is not None:
             st = self._newton_T(p_Pa, s, True, T_guess_K, phase, v_guess)
             if st is not None:
                 return st
-        return self._state(CP.PSmass_INPUTS, p_Pa, s, f"p = {p_Pa / 1e5:.6g} bar, s = {s:.6g} J/(kg K)")
+        return self._flash_py(p_Pa, s, True)
 
     def state_ph(self, p_Pa: float, h: float, phase: str | None = None, T_guess_K: float | None = None, v_guess: float | None = None) -> State:
         """State at pressure p_Pa [Pa] and specific enthalpy h [J/kg] (phase and guess: see state_ps)."""
@@ -223,15 +414,75 @@ class Fluid:
             st = self._newton_T(p_Pa, h, False, T_guess_K, phase, v_guess)
             if st is not None:
                 return st
-        return self._state(CP.HmassP_INPUTS, h, p_Pa, f"p = {p_Pa / 1e5:.6g} bar, h = {h:.6g} J/kg")
+        return self._flash_py(p_Pa, h, False)
+
+    def _flash_py(self, p_Pa: float, y: float, entropy: bool) -> State:
+        """State at p_Pa and y = s (entropy) or h, any phase. Below the critical pressure of a
+        fluid with saturation curves: saturated states at p, then the lever rule inside the
+        two-phase region or a phase-imposed Newton iteration outside it (started from the
+        saturated state of that phase). Otherwise, or if Newton fails, CoolProp's general flash
+        (which, with CoolProp's superancillaries off, brackets the saturation temperature by its
+        ancillary equations and can miss states right at the phase boundary)."""
+        if entropy:
+            pair, a, b, what = CP.PSmass_INPUTS, p_Pa, y, f"p = {p_Pa / 1e5:.6g} bar, s = {y:.6g} J/(kg K)"
+        else:
+            pair, a, b, what = CP.HmassP_INPUTS, y, p_Pa, f"p = {p_Pa / 1e5:.6g} bar, h = {y:.6g} J/kg"
+        curves = self._saturation_curves()
+        if curves is not None and curves.p_min_Pa <= p_Pa < curves.p_max_Pa:
+            sat = self.sat_T(curves.T_K(p_Pa))
+            yL, yV = (sat.sL, sat.sV) if entropy else (sat.hL, sat.hV)
+            if yL <= y <= yV:
+                q = (y - yL) / (yV - yL)
+                h = y if not entropy else sat.hL + q * (sat.hV - sat.hL)
+                s = y if entropy else sat.sL + q * (sat.sV - sat.sL)
+                return State(sat.T_K, sat.p_Pa, h, s, sat.vL + q * (sat.vV - sat.vL), q)
+            liquid = y < yL
+            phase = "liquid" if liquid else "gas"
+            st = self._newton_T(p_Pa, y, entropy, sat.T_K, phase, sat.vL if liquid else sat.vV)
+            if st is not None:
+                return st
+            st = self._bracketed_py(p_Pa, y, entropy, phase, sat.T_K)
+            if st is not None:
+                return st
+        return self._state(pair, a, b, what)
+
+    def _bracketed_py(self, p_Pa: float, y: float, entropy: bool, phase: str, T_sat_K: float) -> State | None:
+        """Single-phase state at p_Pa and y = s or h by Brent's method (scipy) on T along the
+        isobar with the phase imposed, between T_min_K and T_sat_K (liquid) or T_sat_K and
+        T_max_K (gas): h and s rise with T along an isobar, so the root is unique. None if y is
+        outside that range."""
+        from scipy.optimize import brentq
+
+        lo, hi = (self.T_min_K, T_sat_K) if phase == "liquid" else (T_sat_K, self.T_max_K)
+        get = (lambda st: st.s) if entropy else (lambda st: st.h)
+        try:
+            f_lo = get(self.state_pT(p_Pa, lo, phase)) - y
+            f_hi = get(self.state_pT(p_Pa, hi, phase)) - y
+            if f_lo * f_hi > 0.0:
+                return None
+            T = brentq(lambda T: get(self.state_pT(p_Pa, T, phase)) - y, lo, hi, xtol=1e-10, rtol=8.9e-16)
+            return self.state_pT(p_Pa, T, phase)
+        except (PropertyError, ValueError):
+            return None
+
+    def _phase_at(self, p_Pa: float, T_K: float) -> str | None:
+        """"liquid" or "gas" from the saturation temperature at p_Pa (curves only), None above
+        the critical pressure or without curves."""
+        curves = self._saturation_curves()
+        if curves is None or not curves.p_min_Pa <= p_Pa < curves.p_max_Pa:
+            return None
+        return "liquid" if T_K < curves.T_K(p_Pa) else "gas"
 
     def state_pT(self, p_Pa: float, T_K: float, phase: str | None = None) -> State:
         """Single-phase state at pressure p_Pa [Pa] and temperature T_K [K].
 
         phase ("liquid" or "gas"), when the caller knows it, is imposed: this skips the phase
-        search and stays reliable right next to the saturation curve.
+        search and stays reliable right next to the saturation curve. Without it, the phase
+        comes from the saturation temperature at p where the fluid has curves.
         """
         what = f"p = {p_Pa / 1e5:.6g} bar, T = {T_K - 273.15:.6g} °C"
+        if phase is None:
+            phase = self._phase_at(p_Pa, T_K)
         if phase is None:
             return self._state(CP.PT_INPUTS, p_Pa, T_K, what)
         self._AS.specify_phase(_PHASES[phase])
@@ -262,21 +513,27 @@ class Fluid:
         return out
 
     def state_Tq(self, T_K: float, q: float) -> State:
-        """Two-phase state at temperature T_K [K] and quality q [-]."""
-        return self._state(CP.QT_INPUTS, q, T_K, f"T = {T_K - 273.15:.6g} °C, quality {q:.4g}")
+        """Two-phase state at temperature T_K [K] and quality q [-] (0 <= q <= 1), by the lever
+        rule between the saturated states of :meth:`sat_T`."""
+        if not 0.0 <= q <= 1.0:
+            raise PropertyError(f"{self.name}: quality {q:.4g} outside 0-1 at T = {T_K - 273.15:.6g} °C")
+        sat = self.sat_T(T_K)
+        return State(T_K, sat.p_Pa, sat.hL + q * (sat.hV - sat.hL), sat.sL + q * (sat.sV - sat.sL),
+                     sat.vL + q * (sat.vV - sat.vL), q)
 
     def cp_pT(self, p_Pa: float, T_K: float) -> float:
-        """Isobaric specific heat [J/(kg K)] of a single-phase state."""
-        try:
-            self._AS.update(CP.PT_INPUTS, p_Pa, T_K)
-            return self._AS.cpmass()
-        except ValueError as exc:
-            raise PropertyError(f"{self.name}: cp failed at p = {p_Pa / 1e5:.6g} bar, T = {T_K - 273.15:.6g} °C: {exc}") from None
+        """Isobaric specific heat [J/(kg K)] of a single-phase state (phase as in state_pT)."""
+        st = self.state_pT(p_Pa, T_K)
+        if math.isnan(st.cp):
+            raise PropertyError(f"{self.name}: no single-phase cp at p = {p_Pa / 1e5:.6g} bar, T = {T_K - 273.15:.6g} °C")
+        return st.cp
 
-    def saturated_vapour_dTds(self, T_K: float, dT_K: float = 0.05) -> float:
-        """Slope dT/ds [K^2 kg/J] of the saturated-vapour curve at T_K, by central difference."""
-        sa = self.sat_T(T_K - dT_K)
-        sb = self.sat_T(T_K + dT_K)
+    def saturated_vapour_dTds(self, T_K: float, dT_K: float = 0.05, solved: bool = False) -> float:
+        """Slope dT/ds [K^2 kg/J] of the saturated-vapour curve at T_K, by central difference
+        (solved: by CoolProp's iterative solver, see :meth:`sat_T_solved`)."""
+        sat = self.sat_T_solved if solved else self.sat_T
+        sa = sat(T_K - dT_K)
+        sb = sat(T_K + dT_K)
         return (2.0 * dT_K) / (sb.sV - sa.sV)
 
 
@@ -289,6 +546,11 @@ def get_fluid(name: str, backend: str = "HEOS") -> Fluid:
 def coolprop_version() -> str:
     """Version string of the CoolProp library in use."""
     return CoolProp.__version__
+
+
+def coolprop_build() -> str:
+    """Version and source revision of the CoolProp library in use (keys caches)."""
+    return f"{CoolProp.__version__}-{getattr(CoolProp, '__gitrevision__', '')}"
 
 
 @functools.lru_cache(maxsize=1)
@@ -305,7 +567,9 @@ def molar_mass_kg_mol(name: str) -> float:
 def _ideal_gas_state(name: str, T_K: float):
     AS = get_fluid(name)._AS
     # Very low density: the real-gas state tends to the ideal gas; the *_idealgas outputs are
-    # the ideal-gas part of the Helmholtz energy at this (T, rho).
+    # the ideal-gas part of the Helmholtz energy at this (T, rho). The gas phase is imposed: no
+    # phase search (which needs a saturation state, absent below the triple point).
+    AS.specify_phase(CP.iphase_gas)
     AS.update(CP.DmolarT_INPUTS, 1e-6, T_K)
     return AS
 
@@ -316,6 +580,8 @@ def ideal_gas_enthalpy_J_kg(name: str, T_K: float) -> float:
         return _ideal_gas_state(name, T_K).hmass_idealgas()
     except ValueError as exc:
         raise PropertyError(f"{name}: ideal-gas enthalpy failed at T = {T_K - 273.15:.6g} °C: {exc}") from None
+    finally:
+        get_fluid(name)._AS.unspecify_phase()
 
 
 def ideal_gas_entropy_J_kgK(name: str, T_K: float, p_Pa: float) -> float:
@@ -324,7 +590,10 @@ def ideal_gas_entropy_J_kgK(name: str, T_K: float, p_Pa: float) -> float:
         AS = get_fluid(name)._AS
         R = 8.31446261815324 / AS.molar_mass()
         rho = p_Pa / (R * T_K)
+        AS.specify_phase(CP.iphase_gas)  # as in _ideal_gas_state
         AS.update(CP.DmassT_INPUTS, rho, T_K)
         return AS.smass_idealgas()
     except ValueError as exc:
         raise PropertyError(f"{name}: ideal-gas entropy failed at T = {T_K - 273.15:.6g} °C: {exc}") from None
+    finally:
+        get_fluid(name)._AS.unspecify_phase()
