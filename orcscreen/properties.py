@@ -277,12 +277,13 @@ class Fluid:
     def _sat_from_curves(self, curves: _SaturationCurves, T_K: float) -> SatPoint:
         AS = self._AS
         try:
+            ev = curves._eval
             AS.specify_phase(CP.iphase_liquid)
-            AS.update(CP.DmolarT_INPUTS, curves.rhoL(T_K), T_K)
+            AS.update(CP.DmolarT_INPUTS, ev(T_K, "D", 0), T_K)
             hL, sL, rhoL = AS.hmass(), AS.smass(), AS.rhomass()
             AS.specify_phase(CP.iphase_gas)
-            AS.update(CP.DmolarT_INPUTS, curves.rhoV(T_K), T_K)
-            return SatPoint(T_K, curves.p(T_K), hL, AS.hmass(), sL, AS.smass(), 1.0 / rhoL, 1.0 / AS.rhomass())
+            AS.update(CP.DmolarT_INPUTS, ev(T_K, "D", 1), T_K)
+            return SatPoint(T_K, ev(T_K, "P", 0), hL, AS.hmass(), sL, AS.smass(), 1.0 / rhoL, 1.0 / AS.rhomass())
         except ValueError as exc:
             raise PropertyError(f"{self.name}: no saturation state at T = {T_K - 273.15:.2f} °C: {exc}") from None
         finally:
@@ -392,8 +393,8 @@ class Fluid:
         if curves is None or curves is _NOT_BUILT or not curves.T_min_K <= T_K <= curves.T_max_K:
             return True
         if phase == "liquid":
-            return rho_mol_m3 >= curves.rhoL(T_K) * (1.0 - 1e-7)
-        return rho_mol_m3 <= curves.rhoV(T_K) * (1.0 + 1e-7)
+            return rho_mol_m3 >= curves._eval(T_K, "D", 0) * (1.0 - 1e-7)
+        return rho_mol_m3 <= curves._eval(T_K, "D", 1) * (1.0 + 1e-7)
 
     def state_ps(self, p_Pa: float, s: float, phase: str | None = None, T_guess_K: float | None = None, v_guess: float | None = None) -> State:
         """State at pressure p_Pa [Pa] and specific entropy s [J/(kg K)].
