@@ -21,12 +21,14 @@ EXIT_INTERNAL = 1
 EXIT_BAD_INPUT = 2
 EXIT_INTERRUPTED = 130
 
-#: Measured cost of one case in a batch on one core of the 2-core benchmark machine, store
-#: writes included (benchmarks/bench_scaling.py: 6-8 ms); an optimised superheat costs about
-#: 25 times more (a search over the superheat, each point with its own evaporation optimum).
-SECONDS_PER_CASE_PER_CORE = 0.008
+#: Measured cost of one case in a batch on one core of the 2-core benchmark machines, store
+#: writes included (benchmarks/bench_scaling.py: 6-8 ms on 2026-12-01, 11-12 ms on the slower
+#: machine of 2026-12-02); an optimised superheat costs about 25 times more (a search over the
+#: superheat, each point with its own evaporation optimum). Start-up: imports, validation and
+#: the output files, about 1-2.5 s for 2,000 cases (bench_scaling: wall minus batch time).
+SECONDS_PER_CASE_PER_CORE = 0.010
 SUPERHEAT_SEARCH_FACTOR = 25
-START_UP_S = 2.5
+START_UP_S = 2.0
 """Rough cost of one case [s] on one core, for the estimate of ``orcscreen check``: measured
 with the engine of 2026-12 on the 2-core development machine, the 154 cases of studies/demo.toml
 took 7.2 s in one process (about 45 ms per case; cases range from a few ms to a few hundred)."""
