@@ -492,12 +492,12 @@ def _refine_zone_pinch(fluid, source, s, p_Pa, h_out, hs_in, T_a, T_b, phase, xa
     from scipy.optimize import minimize_scalar
 
     def bound(T):
-        h = float(fluid.h_pT_array(p_Pa, (T,), phase)[0])
+        h = fluid.h_pT(p_Pa, T, phase)
         return source.m_kg_s * (hs_in - float(source.h_J_kg(T + s.pinch_evaporator_K))) / (h_out - h)
 
     res = minimize_scalar(bound, bounds=(float(T_a), float(T_b)), method="bounded", options={"xatol": xatol_K})
     T = float(res.x)
-    return float(res.fun), T, float(fluid.h_pT_array(p_Pa, (T,), phase)[0])
+    return float(res.fun), T, fluid.h_pT(p_Pa, T, phase)
 
 
 def evaluate(

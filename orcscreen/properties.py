@@ -492,6 +492,19 @@ class Fluid:
         finally:
             self._AS.unspecify_phase()
 
+    def h_pT(self, p_Pa: float, T_K: float, phase: str) -> float:
+        """Specific enthalpy [J/kg] at p_Pa [Pa] and T_K [K], phase ("liquid" or "gas") imposed:
+        the one-point case of :meth:`h_pT_array` without the array (same CoolProp calls)."""
+        AS = self._AS
+        AS.specify_phase(_PHASES[phase])
+        try:
+            AS.update(CP.PT_INPUTS, p_Pa, T_K)
+            return AS.hmass()
+        except ValueError as exc:
+            raise PropertyError(f"{self.name}: {phase} enthalpy failed at p = {p_Pa / 1e5:.6g} bar: {exc}") from None
+        finally:
+            AS.unspecify_phase()
+
     def h_pT_array(self, p_Pa: float, T_K, phase: str):
         """Specific enthalpies [J/kg] at pressure p_Pa [Pa] and each temperature of T_K [K].
 
