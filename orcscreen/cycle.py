@@ -388,7 +388,7 @@ def _solve_condenser(fluid, sink, s, recuperated, sat_e, st3, exact, T_guess_K=N
     dT_pinch = s.pinch_condenser_K
     T_floor = sink.T_in_K + dT_pinch + s.subcooling_K
     if s.min_condensing_pressure_Pa is not None:
-        T_floor = max(T_floor, fluid.T_sat_K(s.min_condensing_pressure_Pa))
+        T_floor = max(T_floor, fluid.T_sat_floor_K(s.min_condensing_pressure_Pa))
     T_floor = max(T_floor, fluid.T_min_K + s.subcooling_K + 0.01)
     if T_floor >= sat_e.T_K:
         raise CycleInfeasible(

@@ -58,7 +58,7 @@ def evaporation_window_K(fluid: Fluid, source, sink, s: CycleSettings, superheat
     T_lo = sink.T_out_K + s.pinch_condenser_K + 1.0
     T_lo = max(T_lo, fluid.T_min_K + 1.0)
     if s.min_condensing_pressure_Pa is not None and s.min_condensing_pressure_Pa < fluid.p_crit_Pa:
-        T_lo = max(T_lo, fluid.T_sat_K(s.min_condensing_pressure_Pa) + 1.0)
+        T_lo = max(T_lo, fluid.T_sat_floor_K(s.min_condensing_pressure_Pa) + 1.0)
     p_lim = s.max_evaporation_pressure_Pa(fluid)
     limits = [(fluid.T_sat_K(p_lim), "max pressure" if s.max_pressure_Pa is not None and s.max_pressure_Pa < s.max_reduced_pressure * fluid.p_crit_Pa else "max reduced pressure")]
     limits.append((source.T_in_K - s.pinch_evaporator_K - superheat_K, "hot-end approach"))

@@ -315,6 +315,17 @@ class Fluid:
             return curves.T_K(p_Pa)
         return self.T_sat_solved_K(p_Pa)
 
+    def T_sat_floor_K(self, p_Pa: float) -> float:
+        """Saturation temperature [K] at p_Pa [Pa] as a lower bound: T_min_K where p_Pa lies
+        below the saturation pressure at T_min_K (below the triple-point pressure there is no
+        liquid, so such a pressure floor never binds inside the equation's range)."""
+        try:
+            if p_Pa <= self.sat_T(self.T_min_K).p_Pa:
+                return self.T_min_K
+        except PropertyError:
+            pass
+        return self.T_sat_K(p_Pa)
+
     def T_sat_solved_K(self, p_Pa: float) -> float:
         """Saturation temperature [K] at p_Pa by CoolProp's iterative solver, without building the
         curves: for one-off look-ups such as the catalogue's normal boiling points."""

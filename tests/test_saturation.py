@@ -209,3 +209,20 @@ def test_general_ph_and_ps_flashes_agree_with_coolprop_loaded_the_default_way():
         compared += 1
         assert T == pytest.approx(T_ref, abs=1e-6), point
     assert compared >= 0.9 * len(points)
+
+
+@pytest.mark.parametrize("name", ["CycloHexane", "Neopentane", "CycloPropane"])
+def test_a_pressure_floor_below_the_lowest_saturation_pressure_does_not_bind(name):
+    """Below the saturation pressure at the equation's lowest temperature (the triple point for
+    cyclohexane and neopentane) there is no liquid, so a minimum condensing pressure there is
+    no floor: T_sat_floor_K gives T_min_K, while T_sat_K itself refuses the pressure
+    (phase-diagram fact, common practice). 0.05 bar is the floor of studies/thermal-oil-loop.toml,
+    whose cases with these fluids failed on it once."""
+    fluid = P.get_fluid(name)
+    p_lowest = fluid.sat_T(fluid.T_min_K).p_Pa
+    assert p_lowest > 5000.0
+    assert fluid.T_sat_floor_K(5000.0) == fluid.T_min_K
+    with pytest.raises(P.PropertyError):
+        fluid.T_sat_K(5000.0)
+    p = 2.0 * p_lowest
+    assert fluid.T_sat_floor_K(p) == fluid.T_sat_K(p) > fluid.T_min_K
