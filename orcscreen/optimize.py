@@ -60,7 +60,7 @@ def evaporation_window_K(fluid: Fluid, source, sink, s: CycleSettings, superheat
     if s.min_condensing_pressure_Pa is not None and s.min_condensing_pressure_Pa < fluid.p_crit_Pa:
         T_lo = max(T_lo, fluid.T_sat_floor_K(s.min_condensing_pressure_Pa) + 1.0)
     p_lim = s.max_evaporation_pressure_Pa(fluid)
-    limits = [(fluid.T_sat_K(p_lim), "max pressure" if s.max_pressure_Pa is not None and s.max_pressure_Pa < s.max_reduced_pressure * fluid.p_crit_Pa else "max reduced pressure")]
+    limits = [(fluid.T_sat_floor_K(p_lim), "max pressure" if s.max_pressure_Pa is not None and s.max_pressure_Pa < s.max_reduced_pressure * fluid.p_crit_Pa else "max reduced pressure")]
     limits.append((source.T_in_K - s.pinch_evaporator_K - superheat_K, "hot-end approach"))
     if s.max_turbine_inlet_temperature_K is not None:
         limits.append((s.max_turbine_inlet_temperature_K - superheat_K, "thermal stability"))

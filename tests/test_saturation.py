@@ -226,3 +226,20 @@ def test_a_pressure_floor_below_the_lowest_saturation_pressure_does_not_bind(nam
         fluid.T_sat_K(5000.0)
     p = 2.0 * p_lowest
     assert fluid.T_sat_floor_K(p) == fluid.T_sat_K(p) > fluid.T_min_K
+
+
+def test_a_pressure_limit_below_the_lowest_saturation_pressure_is_infeasible_not_failed():
+    """A maximum pressure of 0.5 bar is below the lowest pressure of cyclopropane's equation
+    (3.4 bar at 273 K): no evaporation is possible, which is an infeasible case with its reason,
+    not a property failure (common practice: a limit that cannot be met is infeasibility)."""
+    from orcscreen.api import run_case
+    from orcscreen.study import study_from_dict
+
+    raw = {"source": {"kind": "water", "inlet_temperature_C": 160.0, "mass_flow_kg_s": 10.0, "pressure_bar": 10.0},
+           "sink": {"kind": "water", "inlet_temperature_C": 20.0, "temperature_rise_K": 8.0},
+           "cycle": {"layouts": ["basic"]}, "limits": {"max_pressure_bar": 0.5},
+           "fluids": {"include": ["CycloPropane"]}}
+    (case,) = list(study_from_dict(raw).cases())
+    row = run_case(case)["row"]
+    assert row["status"] == "infeasible", row.get("reason")
+    assert "max pressure" in row["reason"]
