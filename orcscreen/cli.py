@@ -29,9 +29,6 @@ EXIT_INTERRUPTED = 130
 SECONDS_PER_CASE_PER_CORE = 0.010
 SUPERHEAT_SEARCH_FACTOR = 25
 START_UP_S = 2.0
-"""Rough cost of one case [s] on one core, for the estimate of ``orcscreen check``: measured
-with the engine of 2026-12 on the 2-core development machine, the 154 cases of studies/demo.toml
-took 7.2 s in one process (about 45 ms per case; cases range from a few ms to a few hundred)."""
 
 CAUTION_LINE = "Preliminary screening, not a design: see README Cautions."
 

@@ -22,7 +22,7 @@ from typing import Any, Callable
 __all__ = ["CACHE_DIR_ENV", "ConstantsCache", "cache_dir"]
 
 CACHE_DIR_ENV = "ORCSCREEN_CACHE_DIR"
-FORMAT = 1  # raise when the meaning of a cached value changes
+FORMAT = 2  # raise when the meaning of a cached value changes (2: saturation from the curves)
 
 
 def cache_dir() -> Path:

@@ -202,7 +202,7 @@ def vapour_curve_slope(coolprop_name: str) -> float:
     fluid = get_fluid(coolprop_name)
     T_K = max(CURVE_REDUCED_TEMPERATURE * fluid.T_crit_K, fluid.T_min_K + 1.0)
     R_J_kgK = R_UNIVERSAL_J_molK / fluid.M_kg_mol
-    dTds = fluid.saturated_vapour_dTds(T_K, solved=True)  # no curves built for the catalogue
+    dTds = fluid.saturated_vapour_dTds(T_K)
     return fluid.T_crit_K / (R_J_kgK * dTds)
 
 
@@ -211,12 +211,12 @@ def _normal_boiling_point_K(fluid) -> float | None:
     if fluid.p_crit_Pa <= P_NORMAL_Pa:
         return None
     try:
-        p_lowest_Pa = fluid.sat_T_solved(fluid.T_min_K).p_Pa
+        p_lowest_Pa = fluid.sat_T(fluid.T_min_K).p_Pa
     except PropertyError:
         p_lowest_Pa = None
     if p_lowest_Pa is not None and p_lowest_Pa > P_NORMAL_Pa:
         return None  # 1 atm is below the triple-point pressure (e.g. carbon dioxide)
-    return fluid.T_sat_solved_K(P_NORMAL_Pa)
+    return fluid.T_sat_K(P_NORMAL_Pa)
 
 
 @functools.lru_cache(maxsize=1)

@@ -17,11 +17,11 @@ own phase equilibrium to about 1e-12. CoolProp 8 builds them for all of its ~120
 is imported (about 2 s of every process start). orcscreen imports it with that build switched
 off (the environment variable ``COOLPROP_DISABLE_SUPERANCILLARIES_ENTIRELY``, which CoolProp 8
 reads when it loads and names in its notice; set only for the import and removed again) and
-evaluates the same coefficients itself, read from the fluid's file per fluid on first use (a
-few ms each). A saturated state is the equation of state evaluated at (T, rho') and (T, rho''),
-as in CoolProp's own superancillary path. Fluids without expansions, and temperatures outside
-them, use CoolProp's iterative phase-equilibrium solver; so do CoolProp's general flashes,
-which orcscreen uses only as a fall-back. If the host program imported CoolProp first, it stays
+builds CoolProp's own ``SuperAncillary`` object from the coefficients in the fluid's file, per
+fluid on first use (about 20 ms each). A saturated state is the equation of state evaluated at
+(T, rho') and (T, rho''), as in CoolProp's own superancillary path. Fluids without expansions,
+and temperatures outside them, use CoolProp's iterative phase-equilibrium solver; so do
+CoolProp's general flashes, which orcscreen uses only as a fall-back. If the host program imported CoolProp first, it stays
 as it was loaded.
 """
 
@@ -152,10 +152,11 @@ class _SaturationCurves:
     (module docstring), valid for T_min_K <= T <= T_max_K (triple point to the numerical
     critical point of the expansions)."""
 
-    __slots__ = ("_eval", "T_min_K", "T_max_K", "p_min_Pa", "p_max_Pa", "T_crit_K", "p_crit_Pa")
+    __slots__ = ("eval_sat", "T_min_K", "T_max_K", "p_min_Pa", "p_max_Pa", "T_crit_K", "p_crit_Pa")
 
     def __init__(self, text: str, data: dict):
-        self._eval = CP.SuperAncillary(text).eval_sat
+        #: eval_sat(T [K], "P" or "D", 0 liquid / 1 vapour): p [Pa] or molar density [mol/m3]
+        self.eval_sat = CP.SuperAncillary(text).eval_sat
         self.T_min_K = max(min(e["xmin"] for e in data[k]) for k in _CURVE_KEYS)
         self.T_max_K = min(max(e["xmax"] for e in data[k]) for k in _CURVE_KEYS)
         self.p_min_Pa = self.p(self.T_min_K)
@@ -178,13 +179,7 @@ class _SaturationCurves:
             return None
 
     def p(self, T_K: float) -> float:
-        return self._eval(T_K, "P", 0)
-
-    def rhoL(self, T_K: float) -> float:
-        return self._eval(T_K, "D", 0)
-
-    def rhoV(self, T_K: float) -> float:
-        return self._eval(T_K, "D", 1)
+        return self.eval_sat(T_K, "P", 0)
 
     def T_K(self, p_Pa: float) -> float:
         """Saturation temperature [K] at p_Pa [Pa] (p_min_Pa <= p_Pa <= p_max_Pa): the root of
@@ -196,7 +191,7 @@ class _SaturationCurves:
             return self.T_min_K
         if p_Pa >= self.p_max_Pa:
             return self.T_max_K
-        ev, log, ln_p = self._eval, math.log, math.log(p_Pa)
+        ev, log, ln_p = self.eval_sat, math.log, math.log(p_Pa)
         x = brentq(lambda x: log(ev(1.0 / x, "P", 0)) - ln_p, 1.0 / self.T_max_K, 1.0 / self.T_min_K,
                    xtol=1e-300, rtol=8.9e-16, maxiter=200)
         return 1.0 / x
@@ -277,7 +272,7 @@ class Fluid:
     def _sat_from_curves(self, curves: _SaturationCurves, T_K: float) -> SatPoint:
         AS = self._AS
         try:
-            ev = curves._eval
+            ev = curves.eval_sat
             AS.specify_phase(CP.iphase_liquid)
             AS.update(CP.DmolarT_INPUTS, ev(T_K, "D", 0), T_K)
             hL, sL, rhoL = AS.hmass(), AS.smass(), AS.rhomass()
@@ -290,8 +285,8 @@ class Fluid:
             AS.unspecify_phase()
 
     def sat_T_solved(self, T_K: float) -> SatPoint:
-        """Saturation at T_K by CoolProp's iterative phase-equilibrium solver, without building
-        the curves (and not cached): for one-off look-ups such as the catalogue's descriptors."""
+        """Saturation at T_K by CoolProp's iterative phase-equilibrium solver (not cached): the
+        fall-back of :meth:`sat_T` outside the curves, and an independent reference for tests."""
         AS = self._AS
         try:
             AS.update(CP.QT_INPUTS, 0.0, T_K)
@@ -327,8 +322,8 @@ class Fluid:
         return self.T_sat_K(p_Pa)
 
     def T_sat_solved_K(self, p_Pa: float) -> float:
-        """Saturation temperature [K] at p_Pa by CoolProp's iterative solver, without building the
-        curves: for one-off look-ups such as the catalogue's normal boiling points."""
+        """Saturation temperature [K] at p_Pa by CoolProp's iterative solver: the fall-back of
+        :meth:`T_sat_K` outside the curves, and an independent reference for tests."""
         try:
             self._AS.update(CP.PQ_INPUTS, p_Pa, 0.0)
             return self._AS.T()
@@ -404,8 +399,8 @@ class Fluid:
         if curves is None or curves is _NOT_BUILT or not curves.T_min_K <= T_K <= curves.T_max_K:
             return True
         if phase == "liquid":
-            return rho_mol_m3 >= curves._eval(T_K, "D", 0) * (1.0 - 1e-7)
-        return rho_mol_m3 <= curves._eval(T_K, "D", 1) * (1.0 + 1e-7)
+            return rho_mol_m3 >= curves.eval_sat(T_K, "D", 0) * (1.0 - 1e-7)
+        return rho_mol_m3 <= curves.eval_sat(T_K, "D", 1) * (1.0 + 1e-7)
 
     def state_ps(self, p_Pa: float, s: float, phase: str | None = None, T_guess_K: float | None = None, v_guess: float | None = None) -> State:
         """State at pressure p_Pa [Pa] and specific entropy s [J/(kg K)].
@@ -432,9 +427,10 @@ class Fluid:
         """State at p_Pa and y = s (entropy) or h, any phase. Below the critical pressure of a
         fluid with saturation curves: saturated states at p, then the lever rule inside the
         two-phase region or a phase-imposed Newton iteration outside it (started from the
-        saturated state of that phase). Otherwise, or if Newton fails, CoolProp's general flash
-        (which, with CoolProp's superancillaries off, brackets the saturation temperature by its
-        ancillary equations and can miss states right at the phase boundary)."""
+        saturated state of that phase), else a bracketed solve (:meth:`_bracketed_py`).
+        Otherwise, or if both fail, CoolProp's general flash (which, with CoolProp's
+        superancillaries off, brackets the saturation temperature by its ancillary equations and
+        can miss states right at the phase boundary)."""
         if entropy:
             pair, a, b, what = CP.PSmass_INPUTS, p_Pa, y, f"p = {p_Pa / 1e5:.6g} bar, s = {y:.6g} J/(kg K)"
         else:
@@ -553,12 +549,10 @@ class Fluid:
             raise PropertyError(f"{self.name}: no single-phase cp at p = {p_Pa / 1e5:.6g} bar, T = {T_K - 273.15:.6g} °C")
         return st.cp
 
-    def saturated_vapour_dTds(self, T_K: float, dT_K: float = 0.05, solved: bool = False) -> float:
-        """Slope dT/ds [K^2 kg/J] of the saturated-vapour curve at T_K, by central difference
-        (solved: by CoolProp's iterative solver, see :meth:`sat_T_solved`)."""
-        sat = self.sat_T_solved if solved else self.sat_T
-        sa = sat(T_K - dT_K)
-        sb = sat(T_K + dT_K)
+    def saturated_vapour_dTds(self, T_K: float, dT_K: float = 0.05) -> float:
+        """Slope dT/ds [K^2 kg/J] of the saturated-vapour curve at T_K, by central difference."""
+        sa = self.sat_T(T_K - dT_K)
+        sb = self.sat_T(T_K + dT_K)
         return (2.0 * dT_K) / (sb.sV - sa.sV)
 
 
