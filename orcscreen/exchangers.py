@@ -31,7 +31,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .paths import FluidPath, condensing_path, flash_ph, isobar_temperatures, state_from_ph, supercritical_phase
+from .paths import FluidPath, condensing_path, flash_ph, isobar_temperatures, state_from_ph
 from .states import CycleInfeasible, SatPoint, State
 
 __all__ = [
@@ -320,7 +320,7 @@ def recuperate(fluid, sat_c: SatPoint, p_cold_Pa: float, st2: State, st4: State,
         h2r_max = fluid.state_pT(p_e, T2r_max, "liquid").h if T2r_max < cold_sat.T_K else cold_sat.hL
         q = min(q, min(h2r_max, cold_sat.hL) - st2.h)
     else:
-        q = min(q, fluid.state_pT(p_e, T2r_max, supercritical_phase(fluid, T2r_max)).h - st2.h)
+        q = min(q, fluid.state_pT(p_e, T2r_max).h - st2.h)
     if q <= 0.0:
         return 0.0, st2, st4, False, None
     cold = _cold_outlet(fluid, p_e, st2, cold_sat)

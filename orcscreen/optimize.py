@@ -278,14 +278,37 @@ def _optimise_nested(layout: Layout, ctx: CycleContext, variables: tuple[Variabl
             return inner(v)
         point = {**fixed, outer.name: v}
         wi = layout.window(ctx, iv.name, point)
-        a, b = max(wi.lo, known[0][1] - iv.near_half_width), min(wi.hi, known[0][1] + iv.near_half_width)
+        x0 = known[0][1]
+        a, b = max(wi.lo, x0 - iv.near_half_width), min(wi.hi, x0 + iv.near_half_width)
         obj = _Objective(layout, ctx, iv, point, exact=False)
-        if b - a < iv.near_min_width or not (obj(a).ok and obj(b).ok):
+        if b - a < iv.near_min_width or not a < x0 < b:
             total += obj.n
             return inner(v)
+        edge_a = edge_b = False
+        if not obj(a).ok or not obj(b).ok:
+            # an edge of the feasible region inside the bracket: from the nearest optimum,
+            # which is feasible here too or the full search decides, to each infeasible end
+            if not obj(x0).ok:
+                total += obj.n
+                return inner(v)
+            if not obj(a).ok:
+                a, edge_a = _feasible_edge(obj, x0, a)[0], True
+            if not obj(b).ok:
+                b, edge_b = _feasible_edge(obj, x0, b)[0], True
         x = _refine(obj.power, a, b, iv.xatol)
+        for _ in range(2):
+            # an optimum at a bracket end that is no edge: walk the bracket that way, twice at most
+            if b - x < 10 * iv.xatol and not edge_b and b < wi.hi:
+                a, b = x - 0.5 * iv.near_half_width, min(wi.hi, x + iv.near_half_width)
+            elif x - a < 10 * iv.xatol and not edge_a and a > wi.lo:
+                a, b = max(wi.lo, x - iv.near_half_width), x + 0.5 * iv.near_half_width
+            else:
+                break
+            if not (obj(a).ok and obj(b).ok):
+                break
+            x = _refine(obj.power, a, b, iv.xatol)
         total += obj.n
-        if x - a < 10 * iv.xatol or b - x < 10 * iv.xatol:
+        if (x - a < 10 * iv.xatol and not edge_a and a > wi.lo) or (b - x < 10 * iv.xatol and not edge_b and b < wi.hi):
             return inner(v)
         memo[v] = (obj(x), "none (interior optimum)", obj.n, ([], [], []))
         return memo[v]
@@ -298,15 +321,23 @@ def _optimise_nested(layout: Layout, ctx: CycleContext, variables: tuple[Variabl
         grid = np.array([w.lo])
     else:
         grid = np.linspace(w.lo, w.hi, outer.scan_points)
-    W = [power(float(g)) for g in grid]
+    if outer.scan_from_top:
+        # the full inner search at the top of the grid, then each lower point warm-started
+        # from its neighbour (a full search wherever that cannot be trusted, see inner_near)
+        W = [power(float(g), near=True) for g in grid[::-1]][::-1]
+    else:
+        W = [power(float(g)) for g in grid]
     if not np.any(np.isfinite(W)):
         return None, inner(float(grid[0]))[1], total, ([], [], [])
     i = int(np.argmax(W))
     best = float(grid[i])
     if len(grid) > 1:
         a, b = float(grid[max(i - 1, 0)]), float(grid[min(i + 1, len(grid) - 1)])
-        x = _refine(lambda v: power(v, near=True), a, b, outer.xatol)
-        best = max([float(grid[i]), x], key=lambda v: power(v, near=True))
+        near_power = lambda v: power(v, near=True)  # noqa: E731
+        x = _at_bound(near_power, grid, i, outer.xatol) if outer.scan_from_top else None
+        if x is None:
+            x = _refine(near_power, a, b, outer.xatol)
+        best = max([float(grid[i]), x], key=near_power)
     if not polish:
         r, limit, _, scan = inner_near(best)
         return r, limit, total, scan
@@ -315,7 +346,27 @@ def _optimise_nested(layout: Layout, ctx: CycleContext, variables: tuple[Variabl
     total += n
     if r is None:
         return None, limit, total, scan
-    return r, limit, total, scan
+    return r, _with_bound(limit, outer, w, best), total, scan
+
+
+def _at_bound(power, grid, i: int, xatol: float) -> float | None:
+    """The window's end when the best scan point is that end and the objective still rises into
+    it over the last xatol (the optimum sits on the bound: no search needed), else None."""
+    for end, inward in ((len(grid) - 1, -xatol), (0, xatol)):
+        if i == end and len(grid) > 1:
+            x = float(grid[end])
+            if power(x) > power(x + inward):
+                return x
+    return None
+
+
+def _with_bound(limit: str, var: Variable, w: Window, x: float) -> str:
+    """The binding limit of an inner optimum, with the outer variable's bound if it sits on one."""
+    if w.hi > w.lo:
+        bound = w.hi_name if x >= w.hi - 10 * var.xatol else w.lo_name if x <= w.lo + 10 * var.xatol else ""
+        if bound:
+            return bound if limit.startswith("none") else f"{limit}; {bound}"
+    return limit
 
 
 def optimise(layout: Layout, ctx: CycleContext) -> Optimum | tuple[None, str, int]:

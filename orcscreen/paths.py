@@ -30,10 +30,10 @@ __all__ = [
     "state_from_ph",
     "flash_ph",
     "isobar_temperatures",
-    "supercritical_phase",
     "heating_path",
     "supercritical_heating_path",
     "condensing_path",
+    "reheating_path",
 ]
 
 
@@ -154,13 +154,6 @@ def isobar_temperatures(fluid, p_Pa: float, h: np.ndarray, start: State, phase: 
     return T
 
 
-def supercritical_phase(fluid, T_K: float) -> str:
-    """Phase to impose on a state above the critical pressure: "liquid" below the critical
-    temperature (a compressed, liquid-like fluid), "gas" above it (CoolProp then treats the
-    state as supercritical)."""
-    return "liquid" if T_K < fluid.T_crit_K else "gas"
-
-
 def add_zone(fluid, p_Pa: float, T_a: float, T_b: float, n: int, phase: str, label: str, h: list, T: list, labels: list) -> None:
     """Append the n - 1 interior points of a single-phase zone from T_a to T_b [K] on one isobar."""
     Tz = np.linspace(T_a, T_b, n + 1)[1:-1]
@@ -211,7 +204,7 @@ def supercritical_heating_path(fluid, p_Pa: float, st_in: State, st3: State, n: 
     a check of the two ends alone overestimates the flow).
     """
     T = list(np.linspace(st_in.T_K, st3.T_K, n + 1))
-    h = [st_in.h] + [fluid.h_pT(p_Pa, float(t), supercritical_phase(fluid, float(t))) for t in T[1:-1]] + [st3.h]
+    h = [st_in.h] + [fluid.h_pT(p_Pa, float(t), None) for t in T[1:-1]] + [st3.h]
     for _ in range(rounds):
         dh_mean = (h[-1] - h[0]) / (len(h) - 1)
         split = [i for i in range(len(h) - 1) if h[i + 1] - h[i] > 2.0 * dh_mean]
@@ -220,10 +213,10 @@ def supercritical_heating_path(fluid, p_Pa: float, st_in: State, st3: State, n: 
         for i in reversed(split):
             t = 0.5 * (T[i] + T[i + 1])
             T.insert(i + 1, t)
-            h.insert(i + 1, fluid.h_pT(p_Pa, t, supercritical_phase(fluid, t)))
+            h.insert(i + 1, fluid.h_pT(p_Pa, t, None))
     labels = ("heater inlet",) + ("supercritical heater",) * (len(T) - 2) + ("hot end",)
     zone = Zone(0, len(T) - 1, "supercritical heater",
-                lambda T_K: fluid.h_pT(p_Pa, T_K, supercritical_phase(fluid, T_K)))
+                lambda T_K: fluid.h_pT(p_Pa, T_K, None))
     return FluidPath(np.array(h), np.array(T), labels, (zone,))
 
 
@@ -303,3 +296,25 @@ def _composite_h(paths: Sequence[FluidPath], weights: Sequence[float]) -> Callab
         return sum(w * path.h_range_at(T_K)[0] for path, w in zip(paths, weights))
 
     return h_of_T
+
+
+def reheating_path(fluid, sat: SatPoint, st_in: State, st_out: State, n: int, exact: bool) -> FluidPath:
+    """Heating path of a reheater on the subcritical isobar of sat, from st_in (two-phase or
+    vapour) to the superheated st_out: the rest of the evaporation plateau, then a vapour zone
+    (n segments when exact)."""
+    h, T, labels = [st_in.h], [st_in.T_K], ["reheater inlet"]
+    T_from = st_in.T_K
+    if st_in.h < sat.hV - 1e-9:
+        h.append(sat.hV)
+        T.append(sat.T_K)
+        labels.append("reheater dew point")
+        T_from = sat.T_K
+    first = len(h) - 1
+    if exact:
+        add_zone(fluid, sat.p_Pa, T_from, st_out.T_K, n, "gas", "reheater", h, T, labels)
+    h.append(st_out.h)
+    T.append(st_out.T_K)
+    labels.append("reheater outlet")
+    p = sat.p_Pa
+    zone = Zone(first, len(h) - 1, "reheater", lambda T_K: fluid.h_pT(p, T_K, "gas"))
+    return FluidPath(np.array(h), np.array(T), tuple(labels), (zone,))

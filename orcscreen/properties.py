@@ -490,18 +490,23 @@ class Fluid:
         finally:
             self._AS.unspecify_phase()
 
-    def h_pT(self, p_Pa: float, T_K: float, phase: str) -> float:
+    def h_pT(self, p_Pa: float, T_K: float, phase: str | None) -> float:
         """Specific enthalpy [J/kg] at p_Pa [Pa] and T_K [K], phase ("liquid" or "gas") imposed:
-        the one-point case of :meth:`h_pT_array` without the array (same CoolProp calls)."""
+        the one-point case of :meth:`h_pT_array` without the array (same CoolProp calls). With
+        phase None, CoolProp finds the phase (above the critical pressure it knows the fluid is
+        supercritical and this costs no more than an imposed phase)."""
         AS = self._AS
-        AS.specify_phase(_PHASES[phase])
+        if phase is not None:
+            AS.specify_phase(_PHASES[phase])
         try:
             AS.update(CP.PT_INPUTS, p_Pa, T_K)
             return AS.hmass()
         except ValueError as exc:
-            raise PropertyError(f"{self.name}: {phase} enthalpy failed at p = {p_Pa / 1e5:.6g} bar: {exc}") from None
+            raise PropertyError(f"{self.name}: {phase or 'single-phase'} enthalpy failed at p = {p_Pa / 1e5:.6g} bar, "
+                                f"T = {T_K - 273.15:.6g} °C: {exc}") from None
         finally:
-            AS.unspecify_phase()
+            if phase is not None:
+                AS.unspecify_phase()
 
     def h_pT_array(self, p_Pa: float, T_K, phase: str):
         """Specific enthalpies [J/kg] at pressure p_Pa [Pa] and each temperature of T_K [K].

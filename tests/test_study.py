@@ -25,8 +25,9 @@ TWO = {"include": ["R245fa", "n-Pentane"]}
 
 
 def make(**sections):
-    """A study dict with a hot-water source and two fluids unless the caller says otherwise."""
-    d = {"source": dict(SOURCE), "fluids": dict(TWO)}
+    """A study dict with a hot-water source, two fluids and the two subcritical layouts unless the
+    caller says otherwise."""
+    d = {"source": dict(SOURCE), "fluids": dict(TWO), "cycle": {"layouts": ["basic", "recuperated"]}}
     d.update(sections)
     return study_from_dict(d, origin="t.toml")
 
@@ -55,18 +56,18 @@ CONTRACT_DEFAULTS = {
              "pressure_bar": 2.0, "aux_power_per_kW_rejected": 0.0},
     "exchangers": {"pinch_evaporator_K": 10.0, "pinch_condenser_K": 5.0, "pinch_recuperator_K": 10.0,
                    "recuperator_effectiveness": 0.8},
-    "machines": {"turbine_efficiency": 0.80, "pump_efficiency": 0.70, "generator_efficiency": 1.0,
-                 "motor_efficiency": 1.0},
-    "limits": {"max_pressure_bar": None, "max_reduced_pressure": 0.9, "min_turbine_outlet_quality": 0.9,
-               "min_condensing_pressure_bar": None},
-    "cycle": {"superheat_K": 0.0, "max_superheat_K": 50.0, "subcooling_K": 0.0},
+    "machines": {"turbine_model": "constant", "turbine_efficiency": 0.80, "pump_efficiency": 0.70,
+                 "generator_efficiency": 1.0, "motor_efficiency": 1.0},
+    "limits": {"max_pressure_bar": None, "max_reduced_pressure": 0.9, "max_supercritical_reduced_pressure": 1.3,
+               "min_turbine_outlet_quality": 0.9, "min_condensing_pressure_bar": None},
+    "cycle": {"superheat_K": 0.0, "max_superheat_K": 50.0, "subcooling_K": 0.0, "reheat_temperature_C": None},
 }
 
 
 def test_every_default_of_the_contract_is_filled_in_the_case():
     s = study_from_dict({"source": SOURCE, "fluids": {"include": ["R245fa"]}})
     cases = [c.as_dict() for c in s.cases()]
-    assert [c["layout"] for c in cases] == ["basic", "recuperated"]  # default layouts
+    assert [c["layout"] for c in cases] == ["basic", "recuperated", "transcritical"]  # default layouts
     case = cases[0]
     assert set(case) == {"study", "source", "sink", "exchangers", "machines", "limits", "cycle",
                          "fluid", "layout", "sweep"}

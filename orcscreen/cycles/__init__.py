@@ -9,7 +9,10 @@ charts and the report all read :data:`LAYOUTS`; adding a layout is one module pl
 from __future__ import annotations
 
 from .base import CycleContext, CycleInfeasible, CycleResult, CycleSettings, Layout, Variable, Window, reset_guesses, saturation_dome
+from .bleed import BLEED_REGENERATIVE
+from .reheat import REHEAT
 from .subcritical import BASIC, RECUPERATED
+from .transcritical import TRANSCRITICAL, TRANSCRITICAL_RECUPERATED
 
 __all__ = [
     "LAYOUTS",
@@ -26,7 +29,11 @@ __all__ = [
 ]
 
 #: The layouts by name, in the order the outputs list them.
-LAYOUTS: dict[str, Layout] = {layout.name: layout for layout in (BASIC, RECUPERATED)}
+LAYOUTS: dict[str, Layout] = {
+    layout.name: layout
+    for layout in (BASIC, RECUPERATED, TRANSCRITICAL, TRANSCRITICAL_RECUPERATED, BLEED_REGENERATIVE, REHEAT)
+}
 
-#: Layouts a study screens when it names none.
-DEFAULT_LAYOUTS: tuple[str, ...] = ("basic", "recuperated")
+#: Layouts a study screens when it names none: the subcritical pair and the transcritical layout,
+#: so that a hot source shows its supercritical candidates without being asked.
+DEFAULT_LAYOUTS: tuple[str, ...] = ("basic", "recuperated", "transcritical")

@@ -114,7 +114,9 @@ class Variable:
     display unit of its column; scale, offset: display value = SI value * scale + offset;
     scan_points: points of the bracketing scan; xatol: tolerance of the refinement [SI];
     near_half_width: half width [SI] of the warm-started bracket when an outer variable moves;
-    near_min_width: a warm-started bracket narrower than this [SI] uses the full search instead.
+    near_min_width: a warm-started bracket narrower than this [SI] uses the full search instead;
+    scan_from_top: as an outer variable, scan from the top of its window down, each point's inner
+    optimum warm-started from the point above (one full inner search instead of one per point).
     """
 
     name: str
@@ -126,6 +128,7 @@ class Variable:
     xatol: float = 2e-3
     near_half_width: float = 3.0
     near_min_width: float = 1.0
+    scan_from_top: bool = False
 
     def display(self, value: float) -> float:
         return value * self.scale + self.offset

@@ -92,6 +92,38 @@ class ColdSide:
     def condenser_inlet(self) -> State:
         return self.s4r
 
+    @property
+    def heater_inlet(self) -> State:
+        return self.s2r
+
+    @property
+    def turbine_outlet(self) -> State:
+        return self.s4
+
+    def w_turbine(self, st3: State) -> float:
+        """Turbine work per kg through the heater [J/kg]."""
+        return st3.h - self.s4.h
+
+    def w_pump(self) -> float:
+        """Pump work per kg through the heater [J/kg]."""
+        return self.s2.h - self.s1.h
+
+    def q_rejected(self) -> float:
+        """Heat rejected in the condenser per kg through the heater [J/kg]."""
+        return self.s4r.h - self.s1.h
+
+    #: flow through the condenser per kg through the heater [-]
+    condenser_share = 1.0
+
+    def turbine_figures(self, st3: State) -> tuple[State, State, float]:
+        """(inlet, isentropic outlet, outlet flow per kg through the heater) of the expansion
+        whose size parameter and volume ratio are reported."""
+        return st3, self.s4s, 1.0
+
+    def figures(self) -> dict:
+        """The layout's own output figures (column name -> value)."""
+        return {}
+
 
 def evaporation_window(ctx: CycleContext, superheat_K: float, supercritical_ok: bool = False) -> Window:
     """Range of evaporation temperatures [K] worth searching at one superheat, and its limits.
@@ -154,13 +186,15 @@ class Subcritical(Layout):
         superheat_K = self._superheat(ctx, x)
         known = {"layout": self.name, "variables": dict(x), "T_evap_K": T_evap_K, "superheat_K": superheat_K}
         try:
-            return self._evaluate(ctx, T_evap_K, superheat_K, exact, T_cond_guess_K, known, T_cond_K, m_wf_kg_s,
+            return self._evaluate(ctx, x, T_evap_K, superheat_K, exact, T_cond_guess_K, known, T_cond_K, m_wf_kg_s,
                                   COND_TOL_FAST_K if cond_tol_K is None else cond_tol_K)
         except CycleInfeasible as exc:
             return infeasible(exc.limit, exc.reason, exc.margin, **known)
 
-    def cold_side(self, ctx: CycleContext, sat_e: SatPoint, st3: State, T_cond_K: float, exact: bool) -> ColdSide:
-        """Condenser outlet, pump, expansion and recuperator at condensing temperature T_cond_K [K]."""
+    def cold_side(self, ctx: CycleContext, x: Mapping[str, float], sat_e: SatPoint, st3: State, T_cond_K: float,
+                  exact: bool) -> ColdSide:
+        """Condenser outlet, pump, expansion and recuperator at condensing temperature T_cond_K [K]
+        (x: the free variables, for layouts whose cold side has some)."""
         fluid, s = ctx.fluid, ctx.settings
         sat_c = fluid.sat_T(T_cond_K)
         st1 = condenser_outlet(fluid, sat_c, s.subcooling_K)
@@ -174,7 +208,7 @@ class Subcritical(Layout):
             q_rec, st2r, st4r, active, rec_prof = 0.0, st2, st4, False, None
         return ColdSide(T_cond_K, sat_c.p_Pa, sat_c, st1, st2, ex.st_out_s, st4, ex.eta, st2r, st4r, q_rec, active, rec_prof)
 
-    def _evaluate(self, ctx, T_evap_K, superheat_K, exact, T_cond_guess_K, known, T_cond_fixed_K, m_wf_fixed, cond_tol_K) -> CycleResult:
+    def _evaluate(self, ctx, x, T_evap_K, superheat_K, exact, T_cond_guess_K, known, T_cond_fixed_K, m_wf_fixed, cond_tol_K) -> CycleResult:
         fluid, source, sink, s = ctx.fluid, ctx.source, ctx.sink, ctx.settings
         if T_evap_K >= fluid.T_crit_K:
             raise CycleInfeasible("critical point", f"evaporation temperature {C(T_evap_K)} is not below the critical temperature of {fluid.name} ({C(fluid.T_crit_K)})")
@@ -193,7 +227,7 @@ class Subcritical(Layout):
             st3 = State(T_evap_K, sat_e.p_Pa, sat_e.hV, sat_e.sV, sat_e.vV, 1.0)
 
         def cold_side(T, ex):
-            return self.cold_side(ctx, sat_e, st3, T, ex)
+            return self.cold_side(ctx, x, sat_e, st3, T, ex)
 
         if T_cond_fixed_K is None:
             cs = solve_condensing_temperature(fluid, sink, cold_side, s.pinch_condenser_K, condensing_floor_K(fluid, sink, s),
@@ -201,40 +235,30 @@ class Subcritical(Layout):
         else:
             cs = cold_side(T_cond_fixed_K, exact)
         known.update(T_cond_K=cs.T_cond_K, p_cond_Pa=cs.p_cond_Pa, p_evap_Pa=sat_e.p_Pa)
-        st1, st2, st2r, st4, st4r = cs.s1, cs.s2, cs.s2r, cs.s4, cs.s4r
-        if st2r.h > sat_e.hL + 1e-6:  # the recuperator may heat the liquid up to saturation, no further
-            raise CycleInfeasible("recuperator", "the recuperator would boil the working fluid")
-        if not math.isnan(st4.q) and st4.q < s.min_turbine_outlet_quality:
-            raise CycleInfeasible(
-                "turbine outlet quality",
-                f"turbine outlet quality {st4.q:.3f} is below the limit {s.min_turbine_outlet_quality:.3f} (a wet expansion; superheat may help)",
-                st4.q - s.min_turbine_outlet_quality,
-            )
+        self._check_cold_side(ctx, sat_e, cs)
 
         # evaporator: the largest flow that keeps the pinch and the source outlet limit
         n = s.n_zone_segments
-        path = heating_path(fluid, sat_e, st2r, st3, n, exact)
+        path, h_out, fast_interior = self.heater_path(ctx, sat_e, cs, st3, n, exact)
         if m_wf_fixed is not None:
             return self._fixed_flow_result(ctx, sat_e, cs, st3, m_wf_fixed, known)
         hs_in = float(source.h_in_J_kg)
-        m_wf, location, path = heater_flow(
-            path, st3.h, source, s.pinch_evaporator_K, exact,
-            fast_interior=lambda: _fast_interior_pinch(fluid, source, s, sat_e, st2r, st3, hs_in),
-        )
+        m_wf, location, path = heater_flow(path, h_out, source, s.pinch_evaporator_K, exact, fast_interior=fast_interior)
         if not m_wf > 0.0:
             raise CycleInfeasible("evaporator pinch", f"the source is too cold for evaporation at {C(T_evap_K)} with a {s.pinch_evaporator_K:g} K pinch")
 
-        q_in = st3.h - st2r.h
+        q_in = h_out - path.h[0]
         Q_in = m_wf * q_in
         hs_out = hs_in - Q_in / source.m_kg_s
         T_s_out = float(source.T_K(hs_out))
-        W_t = m_wf * (st3.h - st4.h)
-        W_p = m_wf * (st2.h - st1.h)
-        Q_out = m_wf * (st4r.h - st1.h)
+        W_t = m_wf * cs.w_turbine(st3)
+        W_p = m_wf * cs.w_pump()
+        Q_out = m_wf * cs.q_rejected()
         W_aux = s.aux_power_per_W_rejected * Q_out
         W_net = s.generator_efficiency * W_t - W_p / s.motor_efficiency - W_aux
         dh_sink = float(sink.h_J_kg(sink.T_out_K) - sink.h_in_J_kg)
-        V4s = m_wf * cs.s4s.v
+        st_t, st_ts, share = cs.turbine_figures(st3)
+        V4s = m_wf * share * st_ts.v if share != 1.0 else m_wf * st_ts.v
         if W_net <= 0.0:
             return infeasible("net power", f"net power {W_net / 1e3:.3g} kW is not positive", W_net, **known)
         return CycleResult(
@@ -260,16 +284,41 @@ class Subcritical(Layout):
             T_source_out_K=T_s_out,
             pinch_location=location,
             eta_turbine=cs.eta_t,
-            size_parameter_m=size_parameter_m(V4s, st3.h - cs.s4s.h),
-            volume_ratio=volume_ratio(cs.s4s.v, st3.v),
-            profiles=self._profiles(fluid, source, sink, cs, path, m_wf, st3, n) if exact else {},
+            size_parameter_m=size_parameter_m(V4s, st_t.h - st_ts.h),
+            volume_ratio=volume_ratio(st_ts.v, st_t.v),
+            figures=cs.figures(),
+            profiles=self._profiles(fluid, source, sink, cs, path, m_wf, h_out, n) if exact else {},
         )
 
-    def _profiles(self, fluid, source, sink, cs: ColdSide, path: FluidPath, m_wf, st3, n) -> dict[str, Profile]:
+    def _check_cold_side(self, ctx: CycleContext, sat_e: SatPoint, cs) -> None:
+        """Limits on the cold side: the heater inlet stays liquid, the turbine outlet dry enough."""
+        s = ctx.settings
+        st4 = cs.turbine_outlet
+        if cs.heater_inlet.h > sat_e.hL + 1e-6:  # the recuperator may heat the liquid up to saturation, no further
+            raise CycleInfeasible("recuperator", "the recuperator would boil the working fluid")
+        if not math.isnan(st4.q) and st4.q < s.min_turbine_outlet_quality:
+            raise CycleInfeasible(
+                "turbine outlet quality",
+                f"turbine outlet quality {st4.q:.3f} is below the limit {s.min_turbine_outlet_quality:.3f} (a wet expansion; superheat may help)",
+                st4.q - s.min_turbine_outlet_quality,
+            )
+
+    def heater_path(self, ctx: CycleContext, sat_e: SatPoint, cs, st3: State, n: int, exact: bool):
+        """(heating path from the heater inlet, outlet enthalpy [J/kg], fast interior-pinch test)."""
+        fluid, source, s = ctx.fluid, ctx.source, ctx.settings
+        st_in = cs.heater_inlet
+        path = heating_path(fluid, sat_e, st_in, st3, n, exact)
+        if source is None:
+            return path, st3.h, None
+        hs_in = float(source.h_in_J_kg)
+        return path, st3.h, lambda: _fast_interior_pinch(fluid, source, s, sat_e, st_in, st3, hs_in)
+
+    def _profiles(self, fluid, source, sink, cs: ColdSide, path: FluidPath, m_wf, h_out, n) -> dict[str, Profile]:
         """Discretised T-Q profiles of every exchanger of an evaluated cycle (exact mode)."""
-        out = {"evaporator": heater_profile(path, m_wf, st3.h, source)}
+        out = {"evaporator": heater_profile(path, m_wf, h_out, source)}
         h, T, T_sink = condenser_approach(fluid, sink, cs, n, True)[2]
-        out["condenser"] = Profile(m_wf * (h - h[0]), T, np.asarray(T_sink, dtype=float))
+        m_c = m_wf if cs.condenser_share == 1.0 else m_wf * cs.condenser_share
+        out["condenser"] = Profile(m_c * (h - h[0]), T, np.asarray(T_sink, dtype=float))
         if cs.recuperator_active:
             prof = cs.rec_profile
             out["recuperator"] = Profile(m_wf * prof.Q_W, prof.T_hot_K, prof.T_cold_K)
@@ -284,14 +333,15 @@ class Subcritical(Layout):
     def _fixed_flow_result(self, ctx, sat_e, cs: ColdSide, st3: State, m_wf: float, known) -> CycleResult:
         """Cycle with a given working-fluid flow and no source stream (exploring by hand)."""
         s, sink = ctx.settings, ctx.sink
-        st1, st2, st2r, st4, st4r = cs.s1, cs.s2, cs.s2r, cs.s4, cs.s4r
-        W_t = m_wf * (st3.h - st4.h)
-        W_p = m_wf * (st2.h - st1.h)
-        Q_out = m_wf * (st4r.h - st1.h)
+        W_t = m_wf * cs.w_turbine(st3)
+        W_p = m_wf * cs.w_pump()
+        Q_out = m_wf * cs.q_rejected()
         W_aux = s.aux_power_per_W_rejected * Q_out
         m_sink = math.nan
         if sink is not None:
             m_sink = Q_out / float(sink.h_J_kg(sink.T_out_K) - sink.h_in_J_kg)
+        path, h_out, _ = self.heater_path(ctx, sat_e, cs, st3, s.n_zone_segments, False)
+        st_t, st_ts, share = cs.turbine_figures(st3)
         return CycleResult(
             status="ok",
             layout=self.name,
@@ -308,12 +358,13 @@ class Subcritical(Layout):
             W_pump_W=W_p,
             W_aux_W=W_aux,
             W_net_W=s.generator_efficiency * W_t - W_p / s.motor_efficiency - W_aux,
-            Q_in_W=m_wf * (st3.h - st2r.h),
+            Q_in_W=m_wf * (h_out - path.h[0]),
             Q_out_W=Q_out,
             Q_rec_W=m_wf * cs.q_rec,
             eta_turbine=cs.eta_t,
-            size_parameter_m=size_parameter_m(m_wf * cs.s4s.v, st3.h - cs.s4s.h),
-            volume_ratio=volume_ratio(cs.s4s.v, st3.v),
+            size_parameter_m=size_parameter_m(m_wf * share * st_ts.v, st_t.h - st_ts.h),
+            volume_ratio=volume_ratio(st_ts.v, st_t.v),
+            figures=cs.figures(),
         )
 
     def ts_path(self, fluid, r: CycleResult, n: int = 8) -> tuple[list[float], list[float]]:
