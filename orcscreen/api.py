@@ -24,7 +24,7 @@ from .cycles import LAYOUTS, CycleContext, CycleSettings
 from .figures import ROW_COLUMNS, case_detail, empty_row, energy_figures, result_row
 from .optimize import optimise
 from .properties import PropertyError, get_fluid
-from .turbine import ConstantEfficiency
+from .turbine import TURBINE_MODELS, ConstantEfficiency
 
 __all__ = ["screen", "run_case", "evaluate_cycle", "settings_from_case", "case_context", "ROW_COLUMNS"]
 
@@ -42,7 +42,7 @@ def settings_from_case(case, info=None) -> CycleSettings:
         pinch_recuperator_K=ex.pinch_recuperator_K,
         recuperator_effectiveness=ex.recuperator_effectiveness,
         pump_efficiency=ma.pump_efficiency,
-        turbine=ConstantEfficiency(ma.turbine_efficiency),
+        turbine=TURBINE_MODELS[ma.turbine_model].from_settings(ma),
         generator_efficiency=ma.generator_efficiency,
         motor_efficiency=ma.motor_efficiency,
         aux_power_per_W_rejected=sk.aux_power_per_kW_rejected or 0.0,

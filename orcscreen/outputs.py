@@ -541,7 +541,7 @@ def _top_text(summary: RankingSummary, n: int) -> str:
     columns["layout"] = best["layout"]
     spec = [("net kW", "net_power_kW", ".1f"), ("eta_th %", "thermal_efficiency", ".2%"),
             ("eta_II %", "exergy_efficiency", ".2%"), ("T_evap C", "evaporation_temperature_C", ".1f"),
-            ("p_evap bar", "evaporation_pressure_bar", ".2f"),
+            ("p_high bar", "turbine_inlet_pressure_bar", ".2f"),
             ("p_cond bar", "condensing_pressure_bar", ".3f"), ("SP m", "size_parameter_m", ".3f"),
             ("VR", "volume_ratio", ".1f")]
     for title, col, fmt in spec:

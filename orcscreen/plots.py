@@ -285,14 +285,14 @@ def tq_diagram(detail: Mapping, row: Mapping | None = None, ax: Axes | None = No
 # --------------------------------------------------------------------------- T-s diagram
 
 _STATE_OFFSETS = {"1": (-12, -10), "2": (-12, 6), "2r": (-14, 4), "3": (8, 4), "4": (8, -4),
-                  "4r": (8, -8)}
+                  "4r": (8, -8), "2f": (-14, 4), "2h": (-14, 8), "3b": (10, 0), "3e": (10, -2), "3r": (8, 6)}
 
 
 def ts_diagram(detail: Mapping, row: Mapping | None = None, ax: Axes | None = None,
                title: str | None = None) -> Axes:
     """Temperature [°C] against specific entropy [kJ/(kg·K)]: saturation dome, cycle path, states.
 
-    States are drawn as numbered points (names 1, 2, 2r, 3, 4, 4r of the detail).
+    States are drawn as numbered points (the names of the detail: 1, 2, 3, 4 and the layout's own).
     """
     states = detail.get("states") or []
     if not states:

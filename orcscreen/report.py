@@ -26,6 +26,7 @@ from typing import Any, Callable, Iterable, Mapping, Sequence
 import pandas as pd
 
 from orcscreen import plots, rank
+from orcscreen.figures import LAYOUT_COLUMNS
 from orcscreen.outputs import ranking_table
 from orcscreen.store import RunStore
 
@@ -89,12 +90,12 @@ REPORT_COLUMNS = (
     "fluid", "display_name", "layout", "status", "reason", "net_power_kW", "turbine_power_kW",
     "pump_power_kW", "aux_power_kW", "heat_input_kW", "thermal_efficiency", "exergy_efficiency",
     "evaporation_pressure_bar", "evaporation_temperature_C", "condensing_pressure_bar",
-    "condensing_temperature_C", "superheat_K", "turbine_inlet_temperature_C",
+    "condensing_temperature_C", "superheat_K", "turbine_inlet_pressure_bar", "turbine_inlet_temperature_C",
     "turbine_outlet_temperature_C", "turbine_outlet_quality", "wf_mass_flow_kg_s",
     "source_outlet_temperature_C", "pinch_location", "ua_total_kW_K", "size_parameter_m",
     "volume_ratio", "turbine_efficiency", "binding_limit", "sub_atmospheric_condenser",
     "family", "safety_class", "gwp100", "odp", "curve_type",
-)
+) + LAYOUT_COLUMNS
 
 
 def _load(out_dir: Path, top_n: int,
@@ -377,7 +378,7 @@ _RANK_COLUMNS = [
     ("thermal_efficiency", "thermal efficiency [-]", ".4f"),
     ("exergy_efficiency", "exergy efficiency [-]", ".4f"),
     ("evaporation_temperature_C", "evaporation T [°C]", ".1f"),
-    ("evaporation_pressure_bar", "evaporation p [bar]", ".2f"),
+    ("turbine_inlet_pressure_bar", "turbine inlet p [bar]", ".2f"),
     ("condensing_temperature_C", "condensing T [°C]", ".1f"),
     ("superheat_K", "superheat [K]", ".1f"),
     ("wf_mass_flow_kg_s", "fluid flow [kg/s]", ".2f"),
@@ -596,8 +597,11 @@ def _card(n: int, row: Mapping, detail: Mapping | None, figs: list[FigureRecord]
         ("inlet / outlet T [°C]", f"{_fmt(row.get('turbine_inlet_temperature_C'), '.1f')} / "
                                   f"{_fmt(row.get('turbine_outlet_temperature_C'), '.1f')}"),
         ("outlet quality [-]", _fmt(row.get("turbine_outlet_quality"), ".3f") or "superheated"),
+        ("turbine inlet p [bar]", _fmt(row.get("turbine_inlet_pressure_bar"), ".2f")),
+        *[(plots.axis_label(c), _fmt(row.get(c), ".4g")) for c in LAYOUT_COLUMNS if _fmt(row.get(c), ".4g")],
         ("evaporation p / T", f"{_fmt(row.get('evaporation_pressure_bar'), '.2f')} bar / "
-                              f"{_fmt(row.get('evaporation_temperature_C'), '.1f')} °C"),
+                              f"{_fmt(row.get('evaporation_temperature_C'), '.1f')} °C"
+         if _fmt(row.get("evaporation_temperature_C"), ".1f") else "none (supercritical heater)"),
         ("condensing p / T", f"{_fmt(row.get('condensing_pressure_bar'), '.3f')} bar / "
                              f"{_fmt(row.get('condensing_temperature_C'), '.1f')} °C"),
     ]

@@ -44,6 +44,11 @@ class TurbineModel(Protocol):
         """Isentropic efficiency [-] for the given size parameter [m] and volume ratio [-]."""
         ...
 
+    @classmethod
+    def from_settings(cls, machines) -> TurbineModel:
+        """The model built from a study's [machines] section (typed section model)."""
+        ...
+
 
 @dataclass(frozen=True)
 class ConstantEfficiency:
@@ -59,6 +64,12 @@ class ConstantEfficiency:
     def efficiency(self, size_parameter_m: float = math.nan, volume_ratio: float = math.nan) -> float:
         return self.value
 
+    @classmethod
+    def from_settings(cls, machines) -> ConstantEfficiency:
+        """The model of a study's [machines] section: its turbine_efficiency."""
+        return cls(machines.turbine_efficiency)
 
-#: Registry of turbine efficiency models by name (one place; dispatch and listing use it).
+
+#: Registry of turbine efficiency models by name (one place: the study's machines.turbine_model
+#: allows these names, and the engine builds the model with the class's from_settings).
 TURBINE_MODELS = {"constant": ConstantEfficiency}
