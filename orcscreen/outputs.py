@@ -33,6 +33,7 @@ from typing import TYPE_CHECKING, Any
 
 from orcscreen.api import ROW_COLUMNS  # the engine's row columns, contract section 2
 from orcscreen import store as _store
+from orcscreen.safe_files import atomic_write, atomic_writer
 from orcscreen.store import (
     ColumnKinds,
     RunStore,
@@ -329,9 +330,9 @@ def _stream_ranking(store: RunStore, meta: dict, target: Path | None,
 
     # Pass 2: whole operating points, about ROWS_CHUNK rows at a time, in ranking order.
     tally = _Tally(sweep_cols, keep)
-    tmp = None if target is None else target.with_name(f".{target.name}.tmp")
-    out = None if tmp is None else open(tmp, "w", encoding="utf-8", newline="")
-    try:
+    with contextlib.ExitStack() as stack:
+        # written to a temporary file created without following links, renamed at the end
+        out = None if target is None else stack.enter_context(atomic_writer(target))
         first = True
         for part in _point_slices(order):
             indexes = part["case_index"].to_numpy(dtype="int64")
@@ -358,15 +359,6 @@ def _stream_ranking(store: RunStore, meta: dict, target: Path | None,
                              lineterminator="\n")
             first = False
             tally.add(table)
-        if out is not None:
-            out.close()
-            out = None
-            os.replace(tmp, target)
-    finally:
-        if out is not None:
-            out.close()
-            with contextlib.suppress(OSError):
-                os.unlink(tmp)
     return tally.summary(target or store.directory / RANKING_FILE, store.path, out_columns)
 
 
@@ -477,9 +469,7 @@ def ranking_sweep_columns(table: pd.DataFrame) -> list[str]:
 
 
 def _atomic_write(path: Path, text: str) -> None:
-    tmp = path.with_name(f".{path.name}.tmp")
-    tmp.write_text(text, encoding="utf-8")
-    os.replace(tmp, path)
+    atomic_write(path, text)
 
 
 def _fmt(value, spec: str) -> str:
