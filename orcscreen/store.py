@@ -370,14 +370,19 @@ class RunStore:
     ``RunStore(path)`` opens (and by default creates) ``path/run.sqlite``; ``path`` may also name
     the ``.sqlite`` file itself. With ``lock=True`` the run lock is taken first and held until
     :meth:`close` (or the end of the ``with`` block); a run that finds it taken raises
-    :class:`StoreLockedError`. Readers need no lock. Use as a context manager::
+    :class:`StoreLockedError` (``purpose`` "report" marks a report's hold, which another report
+    waits up to ``wait_s`` [s] for). With ``create=False`` the store must exist and nothing is
+    written on opening (a reader). With ``salvage=True`` (and the lock) a file that SQLite
+    cannot open as a database is set aside and rebuilt from its readable rows
+    (``salvage_report`` says what was kept). Readers need no lock. Use as a context manager::
 
         with RunStore(out_dir, lock=True) as store:
             store.put(key, index, {"row": row, "detail": detail}, sweep={...})
     """
 
     def __init__(self, path: str | os.PathLike[str], *, lock: bool = False,
-                 create: bool = True, purpose: str = "run", wait_s: float = 0.0) -> None:
+                 create: bool = True, purpose: str = "run", wait_s: float = 0.0,
+                 salvage: bool = False) -> None:
         path = Path(path)
         if path.suffix == ".sqlite":
             self.directory, self.path = path.parent, path
@@ -385,6 +390,7 @@ class RunStore:
             self.directory, self.path = path, path / STORE_FILE
         self._lock_fd: int | None = None
         self._conn: sqlite3.Connection | None = None
+        self.salvage_report: SalvageReport | None = None
         if not create and not self.path.exists():
             raise StoreNotFoundError(
                 f"no run store at {self.path}; run a study into {self.directory} first "
@@ -399,7 +405,17 @@ class RunStore:
             raise StoreError(str(exc)) from None
         if lock:
             self._acquire_lock(purpose, wait_s)
-        self._connect(create)
+        try:
+            try:
+                self._connect(create)
+            except StoreDamagedError:
+                if not (salvage and lock):
+                    raise
+                self.salvage_report = salvage_store(self.path)  # under the lock
+                self._connect(create)
+        except BaseException:
+            self.close()
+            raise
 
     def _connect(self, create: bool = True) -> None:
         """Open the SQLite connection; with ``create`` also the schema and meta (a writer),
@@ -414,7 +430,10 @@ class RunStore:
             else:
                 self._check_schema_version()
         except BaseException as exc:
-            self.close()
+            if self._conn is not None:
+                with contextlib.suppress(sqlite3.Error):
+                    self._conn.close()
+                self._conn = None
             if isinstance(exc, sqlite3.DatabaseError):
                 raise self.error_for(exc) from None
             if isinstance(exc, OSError):
