@@ -88,6 +88,8 @@ MAX_CHUNK = 50
 FIRST_CHUNK = 4
 DEFAULT_TIME_LIMIT_S = 60.0
 PLAIN_PROGRESS_EVERY_S = 5.0
+REPORT_WAIT_S = 120.0
+"""How long [s] a run waits for an ``orcscreen report`` that holds the folder's lock."""
 STATUSES = ("ok", "infeasible", "failed")
 CHUNKS_IN_FLIGHT_PER_WORKER = 2
 
@@ -847,7 +849,8 @@ def run_study(study: Any, out_dir: str | os.PathLike[str], jobs: int | None = No
         pool = None
         if cluster is None and n_cases >= 1 and fork_workers_available():
             pool = stack.enter_context(_ForkPool(min(jobs, n_cases)))
-        store = stack.enter_context(RunStore(out_dir, lock=True, salvage=True))
+        store = stack.enter_context(RunStore(out_dir, lock=True, salvage=True,
+                                             wait_s=REPORT_WAIT_S))
         damage = _salvage(store)
         keys: list[str] = []
         layouts: list[tuple[str, str]] = []  # (fluid, layout) per case: a cheap order check

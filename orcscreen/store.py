@@ -692,6 +692,8 @@ class RunStore:
                                            indexes=indexes)
         except sqlite3.DatabaseError as exc:
             raise self.error_for(exc) from None
+        except StoreDamagedError as exc:
+            raise StoreDamagedError(f"{self.path}: {exc}") from None
 
     def _record_chunks(self, *, include_stale: bool = False, chunk: int | None = None,
                        indexes: Iterable[int] | None = None) -> Iterator[list[tuple]]:
