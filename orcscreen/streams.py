@@ -942,7 +942,7 @@ class FluidSource(_CurveStream):
                 f"usable states along this pressure between {T_low - ZERO_CELSIUS_K:.1f} and "
                 f"{T_in_C:.1f} °C (below its triple point, or too close to its critical point); "
                 f"allowed: another pressure, or a source.min_outlet_temperature_C inside the fluid's "
-                f"range (from {fl.T_min_K - ZERO_CELSIUS_K:.1f} °C)") from None
+                f"range (from {fl.T_min_K - ZERO_CELSIUS_K:.2f} °C)") from None
         if x is None:
             self._set_curve(curve)
         else:

@@ -60,6 +60,8 @@ MAX_CASE_TIME_LIMIT_S = 1_000_000.0
 """Longest case time limit [s] (about 11.6 days): beyond it the per-case timers cannot be set."""
 MAX_NESTING = 20
 """Deepest nesting of tables and arrays accepted in a study (the schema needs 4)."""
+STREAM_POINTS_EXACT = 2_000
+"""Sweeps of up to this many operating points have the stream models checked at every point."""
 _SHOWN_CHARS = 80
 """Longest value text shown in a message; longer values are cut with "..."."""
 
@@ -1013,24 +1015,37 @@ def _check_points(study: Study, specs: dict[str, Any], origin: str, errors: list
     else:
         axes = [_axis_values(specs[p]) for p in swept]
         exact = True
+    # The stream models (a table per source and sink setting) are built at every point of a
+    # sweep of at most STREAM_POINTS_EXACT points, else at the corners of the sweep box only.
+    streams_exact = n_total <= STREAM_POINTS_EXACT
     seen: dict[str, tuple[str, dict[str, Any], int]] = {}
     n_points = 0
     for combo in itertools.product(*axes):
         n_points += 1
         values = dict(fixed)
         values.update(zip(swept, combo))
-        for check, path, message in _point_problems(study, base, values, with_streams):
+        for check, path, message in _point_problems(study, base, values, with_streams and streams_exact):
             if check in seen:
                 first = seen[check]
                 seen[check] = (first[0], first[1], first[2] + 1)
             else:
                 seen[check] = (message, dict(zip(swept, combo)), 1)
+    at_corners: dict[str, tuple[str, dict[str, Any]]] = {}
+    if with_streams and not streams_exact and not seen:
+        for combo in itertools.product(*(_axis_bounds(specs[p]) for p in swept)):
+            values = dict(fixed)
+            values.update(zip(swept, combo))
+            for check, path, message in _point_problems(study, base, values, True):
+                at_corners.setdefault(check, (message, dict(zip(swept, combo))))
     for message, point, count in seen.values():
         where = ""
         if point:
             where = " (at sweep point " + ", ".join(f"{p} = {_show(x)}" for p, x in point.items())
             where += f"; {count} of {n_points} points)" if exact else "; a corner of the sweep)"
         errors.append(f"{origin}: {message}{where}")
+    for message, point in at_corners.values():
+        where = ", ".join(f"{p} = {_show(x)}" for p, x in point.items())
+        errors.append(f"{origin}: {message} (at sweep point {where}; a corner of the sweep)")
 
 
 def _axis_bounds(spec: Any) -> list[Any]:
@@ -1173,7 +1188,9 @@ def load_study(path: str | Path, *, allow_huge: bool = False) -> Study:
     try:
         text = raw_bytes.decode("utf-8")
     except UnicodeDecodeError as exc:
-        raise StudyError(f"{origin}: not UTF-8 text (byte {exc.start}); allowed: a UTF-8 TOML file") from None
+        line = raw_bytes.count(b"\n", 0, exc.start) + 1
+        raise StudyError(f"{origin}: line {line}: not UTF-8 text (byte {exc.start}); allowed: a UTF-8 TOML "
+                         f"file") from None
     text = text.removeprefix("\ufeff")  # a UTF-8 byte-order mark, as some editors write, is accepted
     try:
         data = tomllib.loads(text)
