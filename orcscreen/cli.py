@@ -349,6 +349,12 @@ def _user_fixable_environment_error(exc: BaseException) -> str | None:
         return str(exc)
     if isinstance(exc, OSError) and exc.errno in {getattr(errno_module, n, None) for n in _FIXABLE_ERRNOS}:
         return describe_os_error(exc, exc.filename)
+    from orcscreen.store import is_damage
+
+    if is_damage(exc):
+        return (f"the run store is damaged ({exc}); run the study again into the same output "
+                "folder: orcscreen sets the damaged file aside, keeps the readable cases and "
+                "recomputes the rest")
     if isinstance(exc, sqlite3.OperationalError):
         from orcscreen.store import _environment_error
 

@@ -27,6 +27,7 @@ import contextlib
 import json
 import math
 import os
+import sqlite3
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
@@ -424,6 +425,8 @@ def write_outputs(out_dir: str | os.PathLike[str],
             summary = _stream_ranking(store, meta, ranking_path)
         else:
             summary = _whole_ranking(store, meta, ranking_path)
+    except sqlite3.DatabaseError as exc:  # a damaged file: say so, with what to do
+        raise store.error_for(exc) from None
     finally:
         if own:
             store.close()

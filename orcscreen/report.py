@@ -18,6 +18,7 @@ import html
 import logging
 import math
 import os
+import sqlite3
 from dataclasses import dataclass, field
 from datetime import datetime, timezone
 from itertools import combinations
@@ -836,7 +837,10 @@ def build_report(out_dir: str | os.PathLike[str], top_n: int = 5) -> Path:
     # and one read transaction: the report shows one consistent state of the store.
     with RunStore(out_dir, create=False, lock=True, purpose="report",
                   wait_s=REPORT_LOCK_WAIT_S) as store, store.snapshot():
-        data = _load(out_dir, max(0, int(top_n)), store=store)
+        try:
+            data = _load(out_dir, max(0, int(top_n)), store=store)
+        except sqlite3.DatabaseError as exc:  # a damaged file: say so, with what to do
+            raise store.error_for(exc) from None
         records = make_figures(data, out_dir / FIGURES_DIR)
         page = render_report(data, records)
         atomic_write(path, page)  # temporary file without following links, then rename
