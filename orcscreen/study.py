@@ -18,6 +18,7 @@ import hashlib
 import itertools
 import json
 import math
+import re
 import tomllib
 from collections.abc import Iterator, Mapping
 from importlib import metadata
@@ -93,8 +94,22 @@ class StudyError(ValueError):
     """A study is invalid. ``errors`` holds one message line per fault; str() joins them."""
 
     def __init__(self, errors: list[str] | str):
-        self.errors = [errors] if isinstance(errors, str) else list(errors)
+        self.errors = [_one_line(e) for e in ([errors] if isinstance(errors, str) else errors)]
         super().__init__("\n".join(self.errors))
+
+
+def _one_line(text: str) -> str:
+    """``text`` with control and line-breaking characters escaped, so one fault stays one line."""
+    return "".join(c if c.isprintable() else c.encode("unicode_escape").decode("ascii") for c in text)
+
+
+_BARE_KEY = re.compile(r"[A-Za-z0-9_-]+")
+
+
+def _key_text(key: Any) -> str:
+    """A key as TOML writes it: bare when it can be, else quoted (with escapes)."""
+    text = str(key)
+    return text if _BARE_KEY.fullmatch(text) else json.dumps(text)
 
 
 # ---------------------------------------------------------------------------------------------
@@ -544,7 +559,7 @@ def _loc_path(loc: tuple[Any, ...]) -> tuple[str, str]:
             continue
         fields = {(fi.alias or name): name for name, fi in model.model_fields.items()}
         if item not in fields and item not in model.model_fields:
-            parts.append(str(item))
+            parts.append(_key_text(item))
             model = None
             continue
         name = fields.get(item, item)
@@ -571,9 +586,9 @@ def _format_validation_errors(exc: ValidationError, origin: str, prefix: str = "
     suggested = set()
     for path, errs in grouped.items():
         if errs[0]["type"] == "extra_forbidden":
-            section, _, key = path.rpartition(".")
+            section, _, key = path.partition(".")
             model = _SECTION_MODELS.get(section)
-            guess = _nearest(key, list(model.model_fields)) if model is not None else None
+            guess = _nearest(key, list(model.model_fields)) if model is not None and key else None
             if guess:
                 suggested.add(f"{section}.{guess}")
     lines = []
@@ -621,11 +636,15 @@ def _error_line(origin: str, path: str, field_path: str, errs: list[dict[str, An
 
 
 def _unknown_key_line(origin: str, path: str, value: Any) -> str:
-    section, _, key = path.rpartition(".")
+    section, _, key = path.partition(".")
+    if not key:
+        section, key = "", section
+    if key.startswith('"'):
+        key = json.loads(key)
     if not section:
         guess = _nearest(key, _TOP_KEYS)
         hint = f"; did you mean [{guess}]?" if guess else ""
-        return f"{origin}: [{key}]: unknown section{hint} allowed: {', '.join(_TOP_KEYS)}"
+        return f"{origin}: [{_key_text(key)}]: unknown section{hint} allowed: {', '.join(_TOP_KEYS)}"
     model = _SECTION_MODELS.get(section)
     choices = list(model.model_fields) if model is not None else []
     guess = _nearest(key, choices)
@@ -670,7 +689,7 @@ def _flatten_sweep(raw: Any, origin: str, errors: list[str]) -> dict[str, tuple[
     def walk(prefix: str, table: Mapping[str, Any], where: str) -> None:
         for key, value in table.items():
             path = f"{prefix}.{key}" if prefix else key
-            file_path = f'{where}."{key}"' if "." in key else f"{where}.{key}"
+            file_path = f"{where}.{_key_text(key)}"
             is_range = isinstance(value, Mapping) and any(k in value for k in _RANGE_KEYS)
             if isinstance(value, Mapping) and not is_range:
                 if path.count(".") >= 1:
@@ -1195,7 +1214,8 @@ def load_study(path: str | Path, *, allow_huge: bool = False) -> Study:
     try:
         data = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
-        raise StudyError(f"{origin}: TOML syntax error: {exc}") from None
+        where = "" if " line " in str(exc) else f" (line {_line_of(text, len(text))}, the last line)"
+        raise StudyError(f"{origin}: TOML syntax error: {exc}{where}") from None
     except RecursionError:
         raise StudyError(_deep_text_message(origin, text)) from None
     except ValueError as exc:  # e.g. an integer literal beyond Python's digit limit
