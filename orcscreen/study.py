@@ -1211,6 +1211,10 @@ def load_study(path: str | Path, *, allow_huge: bool = False) -> Study:
         raise StudyError(f"{origin}: line {line}: not UTF-8 text (byte {exc.start}); allowed: a UTF-8 TOML "
                          f"file") from None
     text = text.removeprefix("\ufeff")  # a UTF-8 byte-order mark, as some editors write, is accepted
+    too_long = _long_dotted_key(text)
+    if too_long is not None:  # the TOML parser's time and memory grow with its square
+        raise StudyError(f"{origin}: line {too_long}: a key of more than {MAX_NESTING} dotted parts; "
+                         f"allowed: at most {MAX_NESTING} levels (a study needs 4)")
     try:
         data = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
@@ -1221,6 +1225,18 @@ def load_study(path: str | Path, *, allow_huge: bool = False) -> Study:
     except ValueError as exc:  # e.g. an integer literal beyond Python's digit limit
         raise StudyError(_long_literal_message(origin, text, exc)) from None
     return study_from_dict(data, origin=origin, allow_huge=allow_huge)
+
+
+_KEY_PART = re.compile(r"^[ \t]*\[*([^=\]\n#]*)", re.MULTILINE)
+
+
+def _long_dotted_key(text: str) -> int | None:
+    """The line of the first key or table header with more than :data:`MAX_NESTING` dots in
+    it (the text before "=" or inside the brackets), or None."""
+    for match in _KEY_PART.finditer(text):
+        if match.group(1).count(".") > MAX_NESTING:
+            return _line_of(text, match.start())
+    return None
 
 
 def _line_of(text: str, pos: int) -> int:
@@ -1301,12 +1317,16 @@ def _time_limit_problems(study: Study, specs: Mapping[str, Any], origin: str, er
 
 def _sweep_override_warnings(raw: Mapping[str, Any], flat: Mapping[str, tuple[str, Any]],
                              specs: Mapping[str, Any], origin: str) -> tuple[str, ...]:
-    """One warning per swept setting that is also written in its section: the sweep wins."""
+    """One warning per swept setting that is also written in its section: the sweep wins. A
+    required key (no default, e.g. source.inlet_temperature_C) must be written even when swept,
+    so it gets no warning (there would be no way to silence it)."""
     lines = []
     for path in specs:
         section, _, key = path.partition(".")
         table = raw.get(section)
-        if isinstance(table, Mapping) and key in table:
+        model = _SECTION_MODELS.get(section)
+        required = model is not None and key in model.model_fields and model.model_fields[key].is_required()
+        if isinstance(table, Mapping) and key in table and not required:
             lines.append(f"{origin}: warning: {flat[path][0]} overrides {path} = {_show(table[key])} "
                          f"written in [{section}]; the swept values are used, the written one is "
                          f"ignored; remove one of the two to silence this warning")

@@ -335,12 +335,16 @@ def test_a_second_report_waits_for_the_first(reference, tmp_path, capsys):
 # -- study messages ---------------------------------------------------------------------------
 
 def test_a_sweep_overriding_a_written_value_warns_in_check_and_run(tmp_path, capsys):
-    path = _toml(tmp_path)
+    path = tmp_path / "override.toml"
+    path.write_text(STUDY_TOML.replace('[fluids]', '[sink]\ninlet_temperature_C = 20\n\n[fluids]')
+                    .replace('[110.0, 120.0]', '[110.0, 120.0]\n"sink.inlet_temperature_C" = [15, 25]'))
     for argv in (["check", path], ["run", path, "--out", tmp_path / "out", "--no-report", "--jobs", "1"]):
         code, _, err = run_cli(capsys, *argv)
         assert code == 0
-        assert (f'{path}: warning: sweep."source.inlet_temperature_C" overrides '
-                "source.inlet_temperature_C = 120.0 written in [source]") in err
+        assert (f'{path}: warning: sweep."sink.inlet_temperature_C" overrides '
+                "sink.inlet_temperature_C = 20 written in [sink]") in err
+        # a required key must be written even when swept: no warning that could not be silenced
+        assert "source.inlet_temperature_C" not in err
 
 
 def test_a_byte_order_mark_is_accepted(tmp_path):
