@@ -84,6 +84,7 @@ EXPECTED = {
                                                "source.inlet_quality"],
     "hot-water-above-critical-temperature": ["source.inlet_temperature_C = 999", "critical temperature",
                                              'kind = "fluid"'],
+    "dotted-key-5000-parts": ["line 6", "more than 20 dotted parts"],
     "nesting-10000-deep": ["line 8", "nested more than 20 levels"],
     "nul-byte": ["TOML syntax error", "line 4, column 26"],
     "number-literal-10000-digits": ["line 4", "10,001 digits"],

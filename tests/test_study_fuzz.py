@@ -189,7 +189,7 @@ def mutated_bytes(draw) -> bytes:
     data = bytearray(draw(st.sampled_from(SHIPPED_BYTES)))
     for _ in range(draw(st.integers(1, 3))):
         op = draw(st.sampled_from(["bom", "insert", "truncate", "flip", "digits", "brackets",
-                                   "duplicate-line"]))
+                                   "dotted", "duplicate-line"]))
         at = draw(st.integers(0, len(data)))
         if op == "bom":
             data[0:0] = b"\xef\xbb\xbf"
@@ -204,6 +204,9 @@ def mutated_bytes(draw) -> bytes:
         elif op == "brackets":
             n = draw(st.integers(10, 5000))
             data += f"\nx = {'[' * n}{']' * n}\n".encode()
+        elif op == "dotted":
+            n = draw(st.integers(2, 5000))
+            data += f"\n{'.'.join(['k'] * n)} = 1\n".encode()
         elif op == "duplicate-line":
             lines = bytes(data).split(b"\n")
             i = draw(st.integers(0, len(lines) - 1))
