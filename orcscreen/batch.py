@@ -648,7 +648,8 @@ def _pool_results(pool: _ForkPool, tasks: Iterable[tuple[int, str, dict]], sizer
     in_flight: dict = {}
     deaths: dict[int, int] = {}  # case index -> unattributed deaths while it was in flight
 
-    def top_up() -> None:
+    def top_up() -> bool:
+        """Submit chunks up to the window; True when the executor turned out to be broken."""
         nonlocal chunks
         while len(in_flight) < window:
             chunk = next(chunks, None)
@@ -656,57 +657,76 @@ def _pool_results(pool: _ForkPool, tasks: Iterable[tuple[int, str, dict]], sizer
                 chunks = sizer.chunks(feed)
                 chunk = next(chunks, None)
             if chunk is None:
-                return
-            in_flight[pool.submit(_run_chunk, chunk, time_limit_s)] = chunk
-
-    top_up()
-    while in_flight:
-        done, _ = wait(in_flight, return_when=FIRST_COMPLETED)
-        finished, broken = [], False
-        for future in done:
+                return False
             try:
-                records = future.result()
+                future = pool.submit(_run_chunk, chunk, time_limit_s)
+            except BrokenProcessPool:  # a worker died since the last look: back in the queue
+                feed.front.extendleft(reversed(chunk))
+                sizer.dispatched -= len(chunk)
+                return True
+            in_flight[future] = chunk
+        return False
+
+    def recover(finished: list) -> None:
+        """After a worker died: keep the chunks that finished, fail the case the dead worker
+        ran, put the other cases back in front of the queue and fork new workers."""
+        lost: list[tuple[int, str, dict]] = []
+        for future, chunk in list(in_flight.items()):
+            try:
+                records = future.result()  # finished before the break: kept
             except BrokenProcessPool:
-                broken = True
-                continue
-            in_flight.pop(future)
-            sizer.observe(rec.elapsed_s or 0.0 for rec in records)
-            finished.append(records)
-        if broken:
-            lost: list[tuple[int, str, dict]] = []
-            for future, chunk in list(in_flight.items()):
-                try:
-                    records = future.result()  # finished before the break: kept
-                except BrokenProcessPool:
-                    lost.extend(chunk)
-                else:
-                    finished.append(records)
-            in_flight.clear()
-            blamed = {index: code for index, code in pool.dead_workers() if index >= 0}
-            failed, again = [], []
-            for task in lost:
-                index, key, case = task
-                if index in blamed:
-                    how = describe_exit(blamed[index])
-                elif not blamed:
-                    deaths[index] = deaths.get(index, 0) + 1
-                    if deaths[index] < WORKER_DEATHS_PER_CASE:
-                        again.append(task)
-                        continue
-                    how = f"{deaths[index]} worker deaths while it was running or queued"
-                else:
+                lost.extend(chunk)
+            else:
+                sizer.observe(rec.elapsed_s or 0.0 for rec in records)
+                finished.append(records)
+        in_flight.clear()
+        blamed = {index: code for index, code in pool.dead_workers() if index >= 0}
+        failed, again = [], []
+        for task in lost:
+            index, key, case = task
+            if index in blamed:
+                how = describe_exit(blamed[index])
+            elif not blamed:
+                deaths[index] = deaths.get(index, 0) + 1
+                if deaths[index] < WORKER_DEATHS_PER_CASE:
                     again.append(task)
                     continue
-                failed.append(encode_case(key, index, {"row": worker_died_row(case, how),
-                                                       "detail": None},
-                                          case.get("sweep") or {}, None))
-            if failed:
-                finished.append(failed)
-            feed.front.extendleft(reversed(again))
-            sizer.dispatched -= len(again)
-            pool.restart(inherited_fds)
-        top_up()
+                how = f"{deaths[index]} worker deaths while it was running or queued"
+            else:
+                again.append(task)
+                continue
+            failed.append(encode_case(key, index, {"row": worker_died_row(case, how), "detail": None},
+                                      _sweep_of(case), None))
+        if failed:
+            finished.append(failed)
+        feed.front.extendleft(reversed(again))
+        sizer.dispatched -= len(again)
+        pool.restart(inherited_fds)
+
+    broken = top_up()
+    while in_flight or broken:
+        finished: list = []
+        if not broken:
+            done, _ = wait(in_flight, return_when=FIRST_COMPLETED)
+            for future in done:
+                try:
+                    records = future.result()
+                except BrokenProcessPool:
+                    broken = True
+                    continue
+                in_flight.pop(future)
+                sizer.observe(rec.elapsed_s or 0.0 for rec in records)
+                finished.append(records)
+        if broken:
+            recover(finished)
+        broken = top_up()
         yield from finished
+
+
+def _sweep_of(case: Any) -> Mapping[str, Any]:
+    """The swept values of a case (a case dictionary or a typed case)."""
+    sweep = case.get("sweep") if isinstance(case, Mapping) else getattr(case, "sweep", None)
+    return sweep or {}
 
 
 def _joblib_results(cluster: str | None, n_jobs: int, chunks: Iterable[list],
