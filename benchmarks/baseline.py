@@ -1,7 +1,7 @@
 """A straightforward baseline of orcscreen's subcritical cycle model, written by hand.
 
 This is what a competent engineer writes in an afternoon to answer the same question, and the
-yardstick of ``bench_baseline.py``: same model as DESIGN section 3 and ``orcscreen/cycle.py``,
+yardstick of ``bench_baseline.py``: same model as DESIGN section 3 and ``orcscreen/cycles/subcritical.py``,
 none of orcscreen's numerics. It is the one place outside ``orcscreen/properties.py`` that
 imports CoolProp, on purpose: every property comes from CoolProp's high-level ``PropsSI``
 (string parsing and a fresh state on every call), with the default HEOS backend.
@@ -30,7 +30,7 @@ Model (one cycle at a given evaporation temperature T_evap, fixed superheat):
 * W_net = eta_gen W_t - W_p / eta_motor - aux Q_out.
 
 Optimisation: a coarse uniform scan of the evaporation temperature (default 10 points) over the
-same window as orcscreen (``orcscreen.optimize.evaporation_window_K``, passed in by the caller),
+same window as orcscreen (``orcscreen.cycles.subcritical.evaporation_window``, passed in by the caller),
 then ``scipy.optimize.minimize_scalar(method="bounded")`` between the neighbours of the best
 scan point, infeasible points penalised with a large value; the better of the scan's best and
 Brent's answer is kept. Bounded Brent alone on the whole window can stop in the wrong branch of

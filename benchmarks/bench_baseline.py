@@ -40,7 +40,8 @@ def main(argv=None) -> int:
     ap.add_argument("--csv", metavar="PATH", help="write the per-case figures to a CSV file")
     args = ap.parse_args(argv)
 
-    from orcscreen.optimize import evaporation_window_K, optimise
+    from orcscreen.cycles.subcritical import evaporation_window
+    from orcscreen.optimize import optimise
     from orcscreen.study import load_study
 
     bl.print_header("bench_baseline (b): orcscreen against a hand-written PropsSI baseline")
@@ -48,7 +49,7 @@ def main(argv=None) -> int:
     supported, skipped = [], Counter()
     for c in study.cases():
         try:
-            base.inputs_from_case(c, c["fluid"])
+            base.inputs_from_case(c.as_dict(), c.fluid)
             supported.append(c)
         except base.Unsupported as exc:
             skipped[str(exc).split(":")[0]] += 1
@@ -67,10 +68,10 @@ def main(argv=None) -> int:
     # baseline: inputs and window outside the timer; one untimed evaluation per fluid to warm PropsSI
     prepared = []
     for c in cases:
-        info, fluid, source, sink, settings, layout, sh, _ = bl.case_objects(c)
-        inp = base.inputs_from_case(c, info.coolprop_name, info.max_temperature_C)
-        T_lo, T_hi, _ = evaporation_window_K(fluid, source, sink, settings, float(sh))
-        prepared.append((inp, T_lo, T_hi))
+        info, layout, ctx = bl.case_objects(c)
+        inp = base.inputs_from_case(c.as_dict(), info.coolprop_name, info.max_temperature_C)
+        w = evaporation_window(ctx, float(ctx.settings.superheat_K))
+        prepared.append((inp, w.lo, w.hi))
     warmed = set()
     for inp, T_lo, T_hi in prepared:
         if inp.fluid not in warmed and T_hi > T_lo:
@@ -82,10 +83,10 @@ def main(argv=None) -> int:
     for k, (inp, T_lo, T_hi) in enumerate(prepared):
         # orcscreen again on this case right before the baseline: the machine's speed drifts over
         # the minutes the baseline takes, and a ratio of neighbours in time is immune to that
-        _, fluid, source, sink, settings, layout, sh, max_sh = objects[k]
+        _, layout, ctx = objects[k]
         w0 = time.perf_counter()
         try:
-            optimise(fluid, source, sink, settings, layout, sh, max_sh)
+            optimise(layout, ctx)
         except Exception:  # noqa: BLE001 - an infeasible or failed case is timed as it is
             pass
         o_wall_here.append(time.perf_counter() - w0)

@@ -37,8 +37,8 @@ def main(argv=None) -> int:
     bl.print_header("bench_screen (a): whole-catalogue screen, warm, one core")
     study = load_study(args.study)
     cases = bl.evenly_spaced(list(study.cases()), args.limit)
-    n_fluids = len({c["fluid"] for c in cases})
-    layouts = sorted({c["layout"] for c in cases})
+    n_fluids = len({c.fluid for c in cases})
+    layouts = sorted({c.layout for c in cases})
     print(f"study     {args.study}: {len(cases)} cases ({n_fluids} fluids; layouts {', '.join(layouts)}"
           f"{'' if args.limit is None else f'; evenly spread subsample of {study.n_cases}'})")
     res = bl.time_orcscreen(cases, passes=args.passes, clear_memo=args.clear_memo)
@@ -53,7 +53,7 @@ def main(argv=None) -> int:
     print()
     by_layout: dict[str, list[int]] = {}
     for i, c in enumerate(cases):
-        by_layout.setdefault(c["layout"], []).append(i)
+        by_layout.setdefault(c.layout, []).append(i)
     for key, label in (("opt", "optimise()"), ("run", "run_case()")):
         print(bl.spread_line(f"{label} per case, wall", res[f"{key}_wall"]))
         print(bl.spread_line(f"{label} per case, CPU (process_time)", res[f"{key}_cpu"]))

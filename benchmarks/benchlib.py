@@ -239,19 +239,14 @@ def memory_kB(pid: int) -> tuple[int, int]:
 
 # -- orcscreen in this process ------------------------------------------------------------------
 
-def case_objects(case: dict):
-    """The engine objects of a case, built as run_case builds them: (info, fluid, source, sink,
-    settings, layout, superheat_K, max_superheat_K)."""
-    from orcscreen import fluids, streams
-    from orcscreen.api import settings_from_case
-    from orcscreen.cycle import LAYOUTS
-    from orcscreen.properties import get_fluid
+def case_objects(case):
+    """The engine objects of a typed case, built as run_case builds them: (info, layout, context)."""
+    from orcscreen import fluids
+    from orcscreen.api import case_context
+    from orcscreen.cycles import LAYOUTS
 
-    info = fluids.get_info(case["fluid"])
-    cy = case["cycle"]
-    return (info, get_fluid(info.coolprop_name), streams.source_from_settings(case["source"]),
-            streams.sink_from_settings(case["sink"]), settings_from_case(case, info),
-            LAYOUTS[case["layout"]], cy.get("superheat_K", 0.0), cy.get("max_superheat_K", 50.0))
+    info = fluids.get_info(case.fluid)
+    return info, LAYOUTS[case.layout], case_context(case, info)
 
 
 def _clear_saturation_memo(fluid) -> None:
@@ -290,7 +285,7 @@ def time_orcscreen(cases: list[dict], passes: int = 1, clear_memo: bool = False)
         t_pass = time.perf_counter()
         for i, c in enumerate(cases):
             if clear_memo:
-                _clear_saturation_memo(objs[i][1])
+                _clear_saturation_memo(objs[i][2].fluid)
             w0, c0 = time.perf_counter(), time.process_time()
             run_case(c)
             run_c[i].append(time.process_time() - c0)
@@ -299,11 +294,11 @@ def time_orcscreen(cases: list[dict], passes: int = 1, clear_memo: bool = False)
     for _ in range(passes):
         t_pass = time.perf_counter()
         for i, o in enumerate(objs):
-            info, fluid, source, sink, settings, layout, sh, max_sh = o
+            info, layout, ctx = o
             if clear_memo:
-                _clear_saturation_memo(fluid)
+                _clear_saturation_memo(ctx.fluid)
             w0, c0 = time.perf_counter(), time.process_time()
-            optimise(fluid, source, sink, settings, layout, sh, max_sh)
+            optimise(layout, ctx)
             opt_c[i].append(time.process_time() - c0)
             opt_w[i].append(time.perf_counter() - w0)
         opt_pass_wall.append(time.perf_counter() - t_pass)

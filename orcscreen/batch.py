@@ -155,9 +155,15 @@ class RunSummary:
 _ENGINE_LOCK = threading.Lock()  # one case at a time per process when workers are threads
 
 
-def failed_row(case: Mapping[str, Any], reason: str, elapsed_s: float | None = None) -> dict:
+def _plain(case) -> Mapping[str, Any]:
+    """A case's plain form (a typed study case, or a case dictionary as given)."""
+    return case.as_dict() if hasattr(case, "as_dict") else case
+
+
+def failed_row(case, reason: str, elapsed_s: float | None = None) -> dict:
     """A contract row (section 2) for a case that could not be computed."""
     row = dict.fromkeys(ROW_COLUMNS)
+    case = _plain(case)
     row.update(fluid=case.get("fluid"), layout=case.get("layout"), status="failed",
                reason=reason, elapsed_s=elapsed_s)
     try:  # the catalogue facts of the fluid, so that a failed row still shows them
@@ -276,16 +282,16 @@ def _run_chunk_cases(tasks: list[tuple[int, str, dict]],
         _mark_running(index)
         limit = time_limit_s
         if limit is None:
-            limit = float(case.get("study", {}).get("case_time_limit_s", DEFAULT_TIME_LIMIT_S))
+            limit = float(case.study.case_time_limit_s)
         # The property layer caches one CoolProp state per process: not for concurrent threads.
         with _ENGINE_LOCK if threaded else contextlib.nullcontext():
             result, elapsed = _run_one(case, limit)
         try:
-            records.append(encode_case(key, index, result, case.get("sweep") or {}, elapsed))
+            records.append(encode_case(key, index, result, case.sweep, elapsed))
         except TypeError as exc:  # a value without a JSON form: record it, do not lose the chunk
             result = {"row": failed_row(case, f"result cannot be stored: {exc}", elapsed),
                       "detail": None}
-            records.append(encode_case(key, index, result, case.get("sweep") or {}, elapsed))
+            records.append(encode_case(key, index, result, case.sweep, elapsed))
     return records
 
 
@@ -877,9 +883,9 @@ def run_study(study: Any, out_dir: str | os.PathLike[str], jobs: int | None = No
         name = None
         for case in study.cases():
             if name is None:
-                name = case.get("study", {}).get("name")
+                name = case.study.name
             keys.append(case_key(case))
-            layouts.append((case.get("fluid"), case.get("layout")))
+            layouts.append((case.fluid, case.layout))
         store.set_plan(keys)
         store.set_meta(orcscreen_version=orcscreen_version(), coolprop_version=coolprop_version(),
                        study_hash=study_hash(study), study_name=name or getattr(study, "name", None),
@@ -898,7 +904,7 @@ def run_study(study: Any, out_dir: str | os.PathLike[str], jobs: int | None = No
             n = -1
             for n, case in enumerate(study.cases()):
                 key = keys[n] if n < len(keys) else None
-                if key is None or (case.get("fluid"), case.get("layout")) != layouts[n]:
+                if key is None or (case.fluid, case.layout) != layouts[n]:
                     raise BatchError("the study yielded other cases the second time; case "
                                      "expansion must be deterministic")
                 if key in todo and key not in seen:

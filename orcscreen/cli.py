@@ -42,11 +42,12 @@ class UsageError(Exception):
 # ---------------------------------------------------------------------------------------------
 
 def _cmd_run(args: argparse.Namespace) -> int:
-    from orcscreen import batch, outputs
     from orcscreen.study import load_study
 
     study = load_study(args.study, allow_huge=args.yes)
     _print_warnings(study)
+    from orcscreen import batch, outputs  # after validation: batch loads the engine
+
     out_dir = Path(args.out) if args.out else Path("out") / Path(args.study).stem
     print(f"study {study.study.name!r}: {study.n_cases} cases -> {out_dir}", file=sys.stderr)
     summary = batch.run_study(study, out_dir=out_dir, jobs=args.jobs, cluster=args.cluster, progress=True,
@@ -317,16 +318,17 @@ def build_parser() -> argparse.ArgumentParser:
 # ---------------------------------------------------------------------------------------------
 
 def _bad_input_types() -> tuple[type[BaseException], ...]:
-    """Our exceptions that mean bad input (exit 2); imported lazily, missing modules skipped."""
+    """Our exceptions that mean bad input (exit 2). Those of other modules are looked up only in
+    modules already loaded: an exception of a module that was never imported cannot have been
+    raised, and importing orcscreen.fluids or orcscreen.batch here would load the engine."""
     from orcscreen.study import StudyError
 
     found: list[type[BaseException]] = [StudyError, UsageError]
     for module, names in (("orcscreen.fluids", ("UnknownFluidError",)),
                           ("orcscreen.store", ("StoreError",)),
                           ("orcscreen.batch", ("ClusterError",))):
-        try:
-            mod = __import__(module, fromlist=list(names))
-        except ImportError:
+        mod = sys.modules.get(module)
+        if mod is None:
             continue
         found.extend(getattr(mod, n) for n in names if isinstance(getattr(mod, n, None), type))
     return tuple(found)

@@ -1,8 +1,17 @@
-"""Counter-current heat exchangers on temperature-duty (T-Q) profiles.
+"""Counter-current heat exchangers: T-Q profiles and the closure of every exchanger's pinch.
 
-Exchangers work on profiles (arrays of duty and of hot and cold temperatures at the same duty
-points), never on the assumption of isothermal evaporation, so that superheating, temperature
-glides and transcritical heating use the same code.
+Exchangers work on working-fluid paths (:mod:`orcscreen.paths`: arrays of h and T) and on
+profiles (arrays of duty and of hot and cold temperatures at the same duty points), never on the
+assumption of isothermal evaporation, so that superheating, temperature glides and transcritical
+heating use the same code. This module owns every pinch closure of a cycle:
+
+* heater (evaporator or supercritical heater): the largest working-fluid flow that keeps the
+  pinch against the source everywhere and the source outlet limit (:func:`heater_flow`);
+* condenser: the lowest condensing temperature that keeps the pinch against the sink
+  (:func:`solve_condensing_temperature`);
+* recuperator: duty from the effectiveness, cut to keep its pinch (:func:`recuperate`);
+* open feed heater: the bled fraction that brings the feed liquid to saturation
+  (:func:`open_heater_bleed_fraction`).
 
 Conventions: the duty coordinate Q_W runs from the cold end of the exchanger (0, where the cold
 stream enters and the hot stream leaves) to the hot end (the full duty).
@@ -16,11 +25,29 @@ Sources:
 
 from __future__ import annotations
 
+import math
+from collections.abc import Callable
 from dataclasses import dataclass
 
 import numpy as np
 
-__all__ = ["Profile", "lmtd_K", "ua_W_K", "max_flow_for_pinch"]
+from .paths import FluidPath, condensing_path, flash_ph, isobar_temperatures, state_from_ph
+from .states import CycleInfeasible, SatPoint, State
+
+__all__ = [
+    "Profile",
+    "lmtd_K",
+    "ua_W_K",
+    "max_flow_for_pinch",
+    "refine_zone_pinch",
+    "heater_flow",
+    "heater_profile",
+    "condenser_approach",
+    "solve_condensing_temperature",
+    "COND_TOL_FAST_K",
+    "recuperate",
+    "open_heater_bleed_fraction",
+]
 
 
 @dataclass(frozen=True)
@@ -110,3 +137,244 @@ def max_flow_for_pinch(
     bounds[usable] = m_source_kg_s * (h_source_in_J_kg - np.asarray(h_source_at_J_kg)[usable]) / dh[usable]
     j = int(np.argmin(bounds))
     return float(bounds[j]), j
+
+
+def _C(T_K: float) -> str:
+    return f"{T_K - 273.15:.1f} °C"
+
+
+# ---------------------------------------------------------------------------------------------
+# heater: pinch-limited working-fluid flow
+# ---------------------------------------------------------------------------------------------
+def refine_zone_pinch(h_of_T, source, pinch_K, h_out, hs_in, T_a, T_b, xatol_K=1e-5):
+    """Pinch-limited flow inside one zone of a heating path, between two discretisation points.
+
+    The flow bound m(T) = m_s (h_s,in - h_s(T + pinch)) / (h_out - h_wf(T)) is minimised over
+    the working-fluid temperature T in [T_a, T_b] by a bounded Brent search (xatol_K [K]; the
+    bound is flat at its minimum, so 1e-3 K already gives the flow to about 1e-8); h_wf comes
+    from the zone's h_of_T. Returns (flow [kg/s], T [K], h [J/kg]) at the pinch.
+    """
+    from scipy.optimize import minimize_scalar
+
+    def bound(T):
+        h = h_of_T(T)
+        return source.m_kg_s * (hs_in - float(source.h_J_kg(T + pinch_K))) / (h_out - h)
+
+    res = minimize_scalar(bound, bounds=(float(T_a), float(T_b)), method="bounded", options={"xatol": xatol_K})
+    T = float(res.x)
+    return float(res.fun), T, h_of_T(T)
+
+
+def heater_flow(path: FluidPath, h_out: float, source, pinch_K: float, exact: bool,
+                fast_interior: Callable[[], tuple[float, str]] | None = None, xatol_fast_K: float = 1e-3):
+    """Largest working-fluid flow [kg/s] through a heater, where it binds, and the path checked.
+
+    path: the working fluid's heating path, inlet first; h_out [J/kg]: its outlet enthalpy. The
+    flow keeps the source at least pinch_K above every point of the path and, when the source
+    has one, its outlet at or above its limit. Between two points of a zone the pinch is
+    searched (:func:`refine_zone_pinch`) around the discrete minimum: to 1e-5 K when exact (and
+    the pinch point is added to the returned path), else by fast_interior() when the layout
+    gives one (a cheaper test; returns (bound, zone name)) or to xatol_fast_K.
+    Returns (flow, pinch location, path); raises :class:`CycleInfeasible` when no flow is possible.
+    """
+    hs_in = float(source.h_in_J_kg)
+    hs_at = source.h_J_kg(path.T_K + pinch_K)
+    m_wf, j = max_flow_for_pinch(path.h, path.T_K, h_out, hs_in, hs_at, source.m_kg_s)
+    location = path.labels[j]
+    if exact or fast_interior is None:
+        # the pinch may lie between two points of a single-phase zone: search between the
+        # neighbours of the discrete minimum, inside its zone
+        zone = path.zone_at(j)
+        if zone is not None:
+            a, b = max(j - 1, zone.first), min(j + 1, zone.last)
+            if b > a and path.T_K[b] > path.T_K[a]:
+                m_ref, T_j, h_j = refine_zone_pinch(zone.h_of_T, source, pinch_K, h_out, hs_in, path.T_K[a], path.T_K[b],
+                                                    1e-5 if exact else xatol_fast_K)
+                if m_ref < m_wf:
+                    m_wf, location = m_ref, zone.name
+                    if exact:
+                        path = path.with_point(h_j, T_j, location)
+    else:
+        m_int, where = fast_interior()
+        if m_int < m_wf:
+            m_wf, location = m_int, where
+    if source.T_out_min_K is not None:
+        m_lim = source.m_kg_s * (hs_in - float(source.h_J_kg(source.T_out_min_K))) / (h_out - path.h[0])
+        if m_lim < m_wf:
+            m_wf, location = m_lim, "source outlet limit"
+    return m_wf, location, path
+
+
+def heater_profile(path: FluidPath, m_wf: float, h_out: float, source) -> Profile:
+    """T-Q profile of a heater: working-fluid path (per kg) at flow m_wf [kg/s] against the source."""
+    hs_in = float(source.h_in_J_kg)
+    Q = m_wf * (path.h - path.h[0])
+    T_src = source.T_K(hs_in - m_wf * (h_out - path.h) / source.m_kg_s)
+    return Profile(Q, np.asarray(T_src, dtype=float), path.T_K)
+
+
+# ---------------------------------------------------------------------------------------------
+# condenser: lowest condensing temperature against the sink
+# ---------------------------------------------------------------------------------------------
+#: Tolerance [K] on the condensing temperature of the closed-form (fast) model.
+COND_TOL_FAST_K = 2e-4
+
+
+def condenser_approach(fluid, sink, cs, n: int, exact: bool):
+    """Minimum working fluid - sink temperature difference [K], where it occurs, and the points.
+
+    cs is a layout's cold side at one condensing temperature: it has sat (saturation at the
+    condensing pressure), s1 (condenser outlet), condenser_inlet and a cond_check slot, where
+    the exact (discretised) result is kept, so the reported profile is the one that was checked.
+    Returns (approach [K], location, (h, T_wf, T_sink) arrays).
+    """
+    if exact and cs.cond_check is not None:
+        return cs.cond_check
+    path = condensing_path(fluid, cs.sat, cs.s1, cs.condenser_inlet, n, exact)
+    h, T, labels = path.h, path.T_K, path.labels
+    frac = (h - h[0]) / (h[-1] - h[0])
+    hs_in = sink.h_in_J_kg
+    hs_out = sink.h_J_kg(sink.T_out_K)
+    T_sink = sink.T_K(hs_in + frac * (hs_out - hs_in))
+    dT = T - T_sink
+    j = int(np.argmin(dT))
+    out = float(dT[j]), labels[j], (h, T, T_sink)
+    if exact:
+        cs.cond_check = out
+    return out
+
+
+def solve_condensing_temperature(fluid, sink, cold_side, pinch_K: float, T_floor_K: float, T_ceiling_K: float,
+                                 n: int, exact: bool, T_guess_K: float | None = None, tol_K: float = COND_TOL_FAST_K,
+                                 ceiling_what: str = "the evaporation temperature"):
+    """Lowest condensing temperature [K] that keeps the condenser pinch; returns that cold side.
+
+    cold_side(T_cond_K, exact) builds a layout's cold side (condenser outlet, pumps, expansion,
+    recuperator...) at one condensing temperature. The sink rises by a fixed amount, so the
+    residual r(T) = min approach - pinch increases with T_cond with a slope close to 1: secant
+    (fixed-point) iterations from T_guess_K, never below T_floor_K and only below T_ceiling_K
+    (the evaporation temperature, or the critical temperature above which nothing condenses).
+    exact: converge on the closed-form candidates first (to 1e-9 K), then on the discretised
+    profile; else on the candidates to tol_K. ceiling_what names the ceiling in the reasons.
+    """
+    if T_floor_K >= T_ceiling_K:
+        raise CycleInfeasible("sink", f"the condensing temperature would be {_C(T_floor_K)}, not below {ceiling_what} {_C(T_ceiling_K)}")
+    T = T_guess_K if T_guess_K is not None else sink.T_out_K + pinch_K
+    T = max(T, T_floor_K)
+    args = (fluid, sink, cold_side, pinch_K, T_floor_K, T_ceiling_K, ceiling_what, n)
+    if exact:
+        T = _condenser_iterations(*args, T, False, 1e-9).T_cond_K
+        return _condenser_iterations(*args, T, True, 1e-9)
+    return _condenser_iterations(*args, T, False, tol_K)
+
+
+def _condenser_iterations(fluid, sink, cold_side, pinch_K, T_floor, T_ceiling, ceiling_what, n, T, exact, tol):
+    """Secant iterations on r(T_cond) = min approach - pinch, which increases with T_cond."""
+    prev = None
+    for _ in range(60):
+        if T >= T_ceiling:
+            raise CycleInfeasible("sink", f"the sink and its pinch need a condensing temperature at or above {ceiling_what} {_C(T_ceiling)}")
+        cs = cold_side(T, exact)
+        approach, _, _ = condenser_approach(fluid, sink, cs, n, exact)
+        r = approach - pinch_K
+        if abs(r) < tol or (r > 0 and T <= T_floor + 1e-12):
+            return cs
+        if prev is not None and prev[1] != r:
+            slope = (r - prev[1]) / (T - prev[0])
+            slope = min(max(slope, 0.5), 1.5)
+        else:
+            slope = 1.0
+        prev = (T, r)
+        T = max(T - r / slope, T_floor)
+    raise CycleInfeasible("condenser", "the condensing temperature did not converge")
+
+
+# ---------------------------------------------------------------------------------------------
+# recuperator and open feed heater
+# ---------------------------------------------------------------------------------------------
+def recuperate(fluid, sat_c: SatPoint, p_cold_Pa: float, st2: State, st4: State, pinch_K: float, effectiveness: float,
+               n: int, exact: bool, cold_sat: SatPoint | None):
+    """Recuperator duty per unit mass [J/kg] and outlet states (2r, 4r) under its effectiveness and pinch.
+
+    Hot side: the turbine outlet st4 on the condensing isobar (sat_c), kept vapour. Cold side: the
+    pump outlet st2 at p_cold_Pa; below the critical pressure (cold_sat, its saturation) it stays
+    liquid (at most saturated), above it (cold_sat None) it may pass the pseudo-critical region.
+    Duty eps * (h4 - h(p4, T2)) (the vapour side has the smaller capacity), cut so that both ends
+    keep the pinch and, exact, so that the discretised profile does too.
+    Returns (q, st2r, st4r, active, profile per kg or None).
+    """
+    dT = pinch_K
+    if st4.T_K <= st2.T_K + dT:
+        return 0.0, st2, st4, False, None
+    p_c, p_e = sat_c.p_Pa, p_cold_Pa
+    # hot side cooled to the cold inlet temperature: the ideal duty (vapour side is C_min)
+    h4_at_T2 = fluid.state_pT(p_c, st2.T_K, "gas").h if st2.T_K > sat_c.T_K + 1e-6 else sat_c.hV
+    q = effectiveness * (st4.h - max(h4_at_T2, sat_c.hV))
+    # cold end: hot outlet at least T2 + pinch, and not below the dew point (no condensing here)
+    T4r_min = st2.T_K + dT
+    h4r_min = fluid.state_pT(p_c, T4r_min, "gas").h if T4r_min > sat_c.T_K else sat_c.hV
+    q = min(q, st4.h - max(h4r_min, sat_c.hV))
+    # hot end: cold outlet at most T4 - pinch, and below the critical pressure still liquid
+    T2r_max = st4.T_K - dT
+    if cold_sat is not None:
+        h2r_max = fluid.state_pT(p_e, T2r_max, "liquid").h if T2r_max < cold_sat.T_K else cold_sat.hL
+        q = min(q, min(h2r_max, cold_sat.hL) - st2.h)
+    else:
+        q = min(q, fluid.state_pT(p_e, T2r_max).h - st2.h)
+    if q <= 0.0:
+        return 0.0, st2, st4, False, None
+    cold = _cold_outlet(fluid, p_e, st2, cold_sat)
+    st2r = cold(q)
+    st4r = state_from_ph(fluid, sat_c, st4.h - q, st4)
+    if exact:
+        prof = _recuperator_profile(fluid, sat_c, p_e, st2, st4, q, n, cold_sat)
+        if prof.min_approach_K < dT - 1e-9:
+            # an interior pinch: shrink the duty until the discretised profile respects it
+            lo, hi = 0.0, 1.0
+            for _ in range(50):
+                mid = 0.5 * (lo + hi)
+                if _recuperator_profile(fluid, sat_c, p_e, st2, st4, q * mid, n, cold_sat).min_approach_K >= dT:
+                    lo = mid
+                else:
+                    hi = mid
+            q *= lo
+            if q <= 0.0:
+                return 0.0, st2, st4, False, None
+            st2r = cold(q)
+            st4r = state_from_ph(fluid, sat_c, st4.h - q, st4)
+            prof = _recuperator_profile(fluid, sat_c, p_e, st2, st4, q, n, cold_sat)
+        return q, st2r, st4r, True, prof
+    return q, st2r, st4r, True, None
+
+
+def _cold_outlet(fluid, p_Pa: float, st2: State, cold_sat: SatPoint | None):
+    """State of the recuperator's cold side after taking q [J/kg]: a phase-imposed liquid flash
+    below the critical pressure, the general flash above it (the phase changes on the way)."""
+    if cold_sat is not None:
+        return lambda q: flash_ph(fluid, p_Pa, st2.h + q, "liquid", st2)
+    return lambda q: fluid.state_ph(p_Pa, st2.h + q)
+
+
+def _recuperator_profile(fluid, sat_c, p_e_Pa, st2, st4, q, n, cold_sat) -> Profile:
+    frac = np.linspace(0.0, 1.0, n + 1)
+    h_cold = st2.h + frac * q
+    h_hot = st4.h - q + frac * q
+    if cold_sat is not None:
+        T_cold = isobar_temperatures(fluid, p_e_Pa, h_cold, st2, "liquid")
+    else:
+        T_cold = np.array([fluid.state_ph(p_e_Pa, float(h)).T_K for h in h_cold])
+    T_hot = isobar_temperatures(fluid, sat_c.p_Pa, h_hot[::-1], st4, "gas")[::-1]
+    return Profile(frac * q, T_hot, T_cold)
+
+
+def open_heater_bleed_fraction(h_feed_in: float, h_bleed: float, h_out: float) -> float:
+    """Bled fraction y [-] of the flow leaving an open feed heater (a mixing chamber).
+
+    Energy balance of the adiabatic mixing of y kg of bled vapour (h_bleed [J/kg]) with 1 - y kg
+    of feed liquid (h_feed_in) into 1 kg leaving at h_out (saturated liquid at the bleed
+    pressure): y = (h_out - h_feed_in) / (h_bleed - h_feed_in) (e.g. Moran, Shapiro, Boettner,
+    Bailey, *Fundamentals of Engineering Thermodynamics*, 8th ed., section 8.4.1).
+    """
+    if not h_bleed > h_out > h_feed_in - 1e-9:
+        raise CycleInfeasible("feed heater", "the bled vapour cannot bring the feed liquid to saturation")
+    return (h_out - h_feed_in) / (h_bleed - h_feed_in)

@@ -1,11 +1,12 @@
 """The fluid catalogue: data file, loading, look-up, filtering and the vapour-curve type.
 
 Typed-in data (family, ASHRAE 34 safety class, GWP100, ODP, thermal-stability limit, each with
-its source) come from ``fluids/catalogue.csv`` (override with the environment variable
-``ORCSCREEN_CATALOGUE``). Everything else is computed from the equation of state through
-:mod:`orcscreen.properties` (critical temperature and pressure, normal boiling point, molar mass
-and the vapour-curve type) once per CoolProp build and kept in an on-disk cache
-(:mod:`orcscreen.constants_cache`).
+its source) come from the repository's ``fluids/catalogue.csv``, which the wheel carries as
+``orcscreen/catalogue/catalogue.csv`` (override with the environment variable
+``ORCSCREEN_CATALOGUE``; see :func:`catalogue_path`). Everything else is computed from the
+equation of state through :mod:`orcscreen.properties` (critical temperature and pressure,
+normal boiling point, molar mass and the vapour-curve type) once per CoolProp build and kept in
+an on-disk cache (:mod:`orcscreen.constants_cache`).
 
 Vapour-curve criterion (dry / wet / isentropic)
     sigma = (T_c / R) * (ds/dT) of the saturated vapour at T_r = T/T_c = 0.7 [-],
@@ -29,6 +30,7 @@ import functools
 import math
 import os
 from dataclasses import dataclass
+from importlib import resources
 from pathlib import Path
 from typing import TYPE_CHECKING
 
@@ -59,7 +61,20 @@ __all__ = [
 ]
 
 CATALOGUE_ENV = "ORCSCREEN_CATALOGUE"
-DEFAULT_CATALOGUE = Path(__file__).resolve().parent.parent / "fluids" / "catalogue.csv"
+
+
+def _shipped_catalogue() -> Path:
+    """The catalogue that comes with orcscreen. An install from the wheel holds it as package
+    data, ``orcscreen/catalogue/catalogue.csv`` (pyproject.toml maps the repository's ``fluids/``
+    folder to ``orcscreen.catalogue``); a source tree or an editable install reads the
+    repository's ``fluids/catalogue.csv`` beside the package."""
+    packaged = resources.files("orcscreen") / "catalogue" / "catalogue.csv"
+    if isinstance(packaged, Path) and packaged.is_file():
+        return packaged
+    return Path(__file__).resolve().parent.parent / "fluids" / "catalogue.csv"
+
+
+DEFAULT_CATALOGUE = _shipped_catalogue()
 
 FAMILIES = (
     "hfc", "hfo", "hcfo", "hydrocarbon", "siloxane", "aromatic", "perfluorocarbon",
@@ -246,7 +261,8 @@ def _compute(coolprop_name: str) -> dict:
 
 # -- the data file -------------------------------------------------------------------------
 def catalogue_path() -> Path:
-    """The catalogue file in use: $ORCSCREEN_CATALOGUE if set, else fluids/catalogue.csv."""
+    """The catalogue file in use: $ORCSCREEN_CATALOGUE if set, else the shipped one
+    (:data:`DEFAULT_CATALOGUE`: the wheel's package data or the repository's fluids/catalogue.csv)."""
     override = os.environ.get(CATALOGUE_ENV)
     return Path(override).expanduser().resolve() if override else DEFAULT_CATALOGUE
 

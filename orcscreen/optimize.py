@@ -1,152 +1,154 @@
-"""Choice of the free variables of one fluid and layout: evaporation temperature and superheat.
+"""Choice of a layout's free variables: the best cycle of one fluid and layout for net power.
 
-The objective (net power) can have kinks where the binding constraint changes (bubble-point
-pinch, source outlet limit, turbine outlet quality, pressure limit), so unimodality is not
-assumed over the whole range: a uniform scan of the evaporation temperature brackets the best
-feasible region first, the edge of the feasible region is located by bisection where the best
-scan point borders an infeasible one, and a bounded Brent search (scipy ``minimize_scalar``,
-method "bounded") refines inside the bracket. The scan and the search use the closed-form pinch
-candidates (``exact=False``); the optimum is then evaluated on the discretised profiles
-(``exact=True``) and, if the discretised pinch moves the answer, refined again on that model.
+Generic over the variables a layout declares (:meth:`orcscreen.cycles.base.Layout.variables`,
+innermost first) and their bounds (:meth:`~orcscreen.cycles.base.Layout.window`).
+
+Innermost variable (e.g. the evaporation temperature, or a supercritical heater's pressure):
+the objective can have kinks where the binding constraint changes (pinch location, source
+outlet limit, turbine outlet quality, pressure limit), so unimodality is not assumed over the
+whole range: a uniform scan brackets the best feasible region first, the edge of the feasible
+region is located where the best scan point borders an infeasible one (false position on the
+turbine-outlet quality margin, else bisection), and a bounded Brent search (scipy
+``minimize_scalar``, method "bounded") refines inside the bracket. The scan and the search use
+the layout's closed-form pinch candidates (``exact=False``); the optimum is then evaluated on
+the discretised profiles (``exact=True``) and, if the discretised pinch moves the answer,
+refined again on that model.
+
+Outer variables (e.g. an optimised superheat, a supercritical turbine inlet temperature, a bleed
+or reheat pressure): a uniform scan of the outer variable, each point with its own inner
+optimum, brackets the best; a bounded Brent search refines it, each trial warm-started from the
+nearest inner optimum already found (a narrow bracket around it; the full inner search when an
+edge is near); the best outer value is polished with the full inner search. With more than two
+variables the same scheme nests.
 
 Sources: Brent, R. P., *Algorithms for Minimization without Derivatives*, Prentice-Hall 1973
-(the bounded scalar search as implemented in SciPy).
+(the bounded scalar search as implemented in SciPy); Dowell and Jarratt, BIT 11 (1971) 168-174
+(false position with the Illinois modification).
 """
 
 from __future__ import annotations
 
 import math
+from collections.abc import Mapping
 from dataclasses import dataclass, field
 
 import numpy as np
-from scipy.optimize import minimize_scalar
 
-from .cycle import CycleResult, CycleSettings, Layout, evaluate, reset_guesses
-from .properties import Fluid
+from .cycles import CycleContext, CycleResult, Layout, Variable, Window, reset_guesses
 
-__all__ = ["Optimum", "optimise", "evaporation_window_K"]
+__all__ = ["Optimum", "optimise", "COND_TOL_SEARCH_K"]
 
-#: Number of evaporation temperatures in the bracketing scan.
-N_SCAN = 10
-#: Tolerance of the refinement on the evaporation temperature [K].
-XATOL_K = 2e-3
 #: Tolerance on the condensing temperature during the scan and the search [K]: it moves the net
-#: power by a few 1e-5 at most, which shifts the located optimum by far less than XATOL_K allows
-#: to matter; the optimum itself is re-evaluated tightly (fast and exact).
+#: power by a few 1e-5 at most, which shifts the located optimum by far less than the variables'
+#: tolerances allow to matter; the optimum itself is re-evaluated tightly (fast and exact).
 COND_TOL_SEARCH_K = 2e-3
+#: Relative difference between the closed-form and the discretised model at the optimum above
+#: which the optimum is searched again on the discretised model.
+EXACT_REFINE_RTOL = 2e-5
 
 
 @dataclass
 class Optimum:
-    """Result of one fluid-layout optimisation."""
+    """Result of one fluid-layout optimisation.
 
-    cycle: CycleResult  # the optimum, evaluated on the discretised profiles
+    cycle: the optimum, evaluated on the discretised profiles; binding_limit: the limit the
+    optimum sits on, in words; evaluations: cycle evaluations spent. scan_*: the bracketing scan
+    of the innermost variable at the optimum's outer values (SI values, net power [W], limit).
+    """
+
+    cycle: CycleResult
     binding_limit: str
     evaluations: int
-    scan_T_K: list = field(default_factory=list)
+    scan_variable: Variable | None = None
+    scan_x: list = field(default_factory=list)
     scan_W: list = field(default_factory=list)
     scan_limit: list = field(default_factory=list)
 
 
-def evaporation_window_K(fluid: Fluid, source, sink, s: CycleSettings, superheat_K: float) -> tuple[float, float, str]:
-    """Range of evaporation temperatures [K] worth searching, and the name of the upper limit.
-
-    Lower end: 1 K above the hottest condensing temperature the sink can need (sink outlet plus
-    pinch). Upper end: the smallest of the pressure limit (subcritical, DESIGN section 3), the
-    source inlet minus pinch and superheat (hot end), and the thermal-stability limit.
-    """
-    T_lo = sink.T_out_K + s.pinch_condenser_K + 1.0
-    T_lo = max(T_lo, fluid.T_min_K + 1.0)
-    if s.min_condensing_pressure_Pa is not None and s.min_condensing_pressure_Pa < fluid.p_crit_Pa:
-        T_lo = max(T_lo, fluid.T_sat_floor_K(s.min_condensing_pressure_Pa) + 1.0)
-    p_lim = s.max_evaporation_pressure_Pa(fluid)
-    limits = [(fluid.T_sat_floor_K(p_lim), "max pressure" if s.max_pressure_Pa is not None and s.max_pressure_Pa < s.max_reduced_pressure * fluid.p_crit_Pa else "max reduced pressure")]
-    limits.append((source.T_in_K - s.pinch_evaporator_K - superheat_K, "hot-end approach"))
-    if s.max_turbine_inlet_temperature_K is not None:
-        limits.append((s.max_turbine_inlet_temperature_K - superheat_K, "thermal stability"))
-    T_hi, name = min(limits)
-    return T_lo, T_hi, name
-
-
 class _Objective:
-    """Counts evaluations and keeps a warm start for the condensing temperature."""
+    """One variable of a layout at fixed outer values: counts evaluations, caches results and
+    predicts the condensing temperature of the next point from the nearest solved ones."""
 
-    def __init__(self, fluid, source, sink, s, layout, superheat_K, exact, cond_tol_K=COND_TOL_SEARCH_K):
-        self.args = (fluid, source, sink, s, layout)
-        self.superheat_K = superheat_K
+    def __init__(self, layout: Layout, ctx: CycleContext, var: Variable, fixed: Mapping[str, float], exact: bool,
+                 cond_tol_K: float = COND_TOL_SEARCH_K):
+        self.layout, self.ctx, self.var, self.fixed = layout, ctx, var, dict(fixed)
         self.exact = exact
         self.cond_tol_K = cond_tol_K
         self.n = 0
         self.T_cond_guess = None
         self.cache: dict[float, CycleResult] = {}
-        self._solved: list[tuple[float, float]] = []  # (T_evap, T_cond) of feasible points
+        self._solved: list[tuple[float, float]] = []  # (x, T_cond) of feasible points
 
-    def _predict_T_cond(self, T_evap_K: float) -> float | None:
+    def _predict_T_cond(self, x: float) -> float | None:
         """Condensing temperature predicted from the two nearest solved points (linear)."""
         pts = self._solved
         if len(pts) < 2:
             return self.T_cond_guess
-        (x1, y1), (x2, y2) = sorted(pts, key=lambda p: abs(p[0] - T_evap_K))[:2]
+        (x1, y1), (x2, y2) = sorted(pts, key=lambda p: abs(p[0] - x))[:2]
         if x1 == x2:
             return y1
-        return y1 + (y2 - y1) * (T_evap_K - x1) / (x2 - x1)
+        return y1 + (y2 - y1) * (x - x1) / (x2 - x1)
 
-    def __call__(self, T_evap_K: float) -> CycleResult:
-        hit = self.cache.get(T_evap_K)
+    def point(self, x: float) -> dict[str, float]:
+        return {self.var.name: x, **self.fixed}
+
+    def __call__(self, x: float) -> CycleResult:
+        hit = self.cache.get(x)
         if hit is not None:
             return hit
         self.n += 1
-        guess = self._predict_T_cond(T_evap_K)
-        r = evaluate(*self.args, T_evap_K, self.superheat_K, exact=self.exact, T_cond_guess_K=guess, cond_tol_K=self.cond_tol_K)
+        guess = self._predict_T_cond(x)
+        r = self.layout.evaluate(self.ctx, self.point(x), exact=self.exact, T_cond_guess_K=guess, cond_tol_K=self.cond_tol_K)
         if r.ok:
             self.T_cond_guess = r.T_cond_K
-            self._solved.append((T_evap_K, r.T_cond_K))
-        self.cache[T_evap_K] = r
+            self._solved.append((x, r.T_cond_K))
+        self.cache[x] = r
         return r
 
-    def power(self, T_evap_K: float) -> float:
-        r = self(T_evap_K)
+    def power(self, x: float) -> float:
+        r = self(x)
         return r.W_net_W if r.ok else -math.inf
 
 
 def _quality_margin(r: CycleResult, x_min: float) -> float:
     if r.ok:
-        q = r.states["4"].q
+        q = r.turbine_outlet_quality
         return math.inf if math.isnan(q) else q - x_min
     return r.margin if r.limit == "turbine outlet quality" else math.nan
 
 
-def _feasible_edge(obj: _Objective, T_ok: float, T_bad: float, tol_K: float = 1e-4) -> tuple[float, str]:
+def _feasible_edge(obj: _Objective, x_ok: float, x_bad: float) -> tuple[float, str]:
     """Edge of the feasible region between a feasible and an infeasible point.
 
     Where the broken limit has a continuous margin (the turbine outlet quality), false position
-    with the Illinois modification (Dowell and Jarratt, BIT 11 (1971) 168-174) on that margin;
-    otherwise bisection. Always returns a feasible point within tol_K of the edge.
+    with the Illinois modification on that margin; otherwise bisection. Always returns a
+    feasible point within tol of the edge (tol: 1/20 of the variable's tolerance).
     """
-    limit = obj(T_bad).limit
-    x_min = obj.args[3].min_turbine_outlet_quality
-    m_ok, m_bad = _quality_margin(obj(T_ok), x_min), _quality_margin(obj(T_bad), x_min)
+    tol = obj.var.xatol / 20.0
+    limit = obj(x_bad).limit
+    x_min = obj.ctx.settings.min_turbine_outlet_quality
+    m_ok, m_bad = _quality_margin(obj(x_ok), x_min), _quality_margin(obj(x_bad), x_min)
     side = 0
-    while abs(T_bad - T_ok) > tol_K:
+    while abs(x_bad - x_ok) > tol:
         use_secant = limit == "turbine outlet quality" and math.isfinite(m_ok) and math.isfinite(m_bad) and m_ok > 0 > m_bad
-        mid = T_ok + (T_bad - T_ok) * m_ok / (m_ok - m_bad) if use_secant else 0.5 * (T_ok + T_bad)
+        mid = x_ok + (x_bad - x_ok) * m_ok / (m_ok - m_bad) if use_secant else 0.5 * (x_ok + x_bad)
         # keep the trial point strictly inside, and not glued to one end
-        lo, hi = sorted((T_ok, T_bad))
+        lo, hi = sorted((x_ok, x_bad))
         span = hi - lo
-        mid = min(max(mid, lo + 0.02 * span if span > 4 * tol_K else lo + 0.5 * tol_K), hi - (0.02 * span if span > 4 * tol_K else 0.5 * tol_K))
+        mid = min(max(mid, lo + 0.02 * span if span > 4 * tol else lo + 0.5 * tol), hi - (0.02 * span if span > 4 * tol else 0.5 * tol))
         r = obj(mid)
         m = _quality_margin(r, x_min)
         if r.ok:
-            T_ok, m_ok = mid, m
+            x_ok, m_ok = mid, m
             if side == 1:
                 m_bad *= 0.5
             side = 1
         else:
-            T_bad, m_bad, limit = mid, m, r.limit
+            x_bad, m_bad, limit = mid, m, r.limit
             if side == -1:
                 m_ok *= 0.5
             side = -1
-    return T_ok, limit
+    return x_ok, limit
 
 
 def _penalised(W: float) -> float:
@@ -154,19 +156,21 @@ def _penalised(W: float) -> float:
     return -W if math.isfinite(W) else 1e30
 
 
-def _refine(obj: _Objective, a: float, b: float) -> float:
-    """Bounded Brent search for the largest net power in [a, b]; returns the best point seen."""
-    if b - a <= XATOL_K:
-        return a if obj.power(a) >= obj.power(b) else b
-    res = minimize_scalar(lambda T: _penalised(obj.power(T)), bounds=(a, b), method="bounded", options={"xatol": XATOL_K})
-    best = max([a, b, float(res.x)], key=obj.power)
-    return best
+def _refine(power, a: float, b: float, xatol: float) -> float:
+    """Bounded Brent search for the largest power(x) in [a, b]; returns the best point seen."""
+    from scipy.optimize import minimize_scalar
+
+    if b - a <= xatol:
+        return a if power(a) >= power(b) else b
+    res = minimize_scalar(lambda x: _penalised(power(x)), bounds=(a, b), method="bounded", options={"xatol": xatol})
+    return max([a, b, float(res.x)], key=power)
 
 
-def _optimise_T_evap(obj: _Objective, T_lo: float, T_hi: float, T_hi_name: str, n_scan: int):
-    """Scan, bracket, refine. Returns (T_opt, binding limit name, scan) or (None, reason, scan)."""
-    grid = np.linspace(T_lo, T_hi, n_scan)
-    results = [obj(float(T)) for T in grid]
+def _scan_and_refine(obj: _Objective, w: Window, n_scan: int):
+    """Scan, bracket, refine one variable. Returns (x_opt, binding limit, scan) or (None, results, scan)."""
+    xatol = obj.var.xatol
+    grid = np.linspace(w.lo, w.hi, n_scan)
+    results = [obj(float(x)) for x in grid]
     W = np.array([r.W_net_W if r.ok else -np.inf for r in results])
     scan = (list(grid), list(W), [r.limit for r in results])
     if not np.any(np.isfinite(W)):
@@ -179,136 +183,202 @@ def _optimise_T_evap(obj: _Objective, T_lo: float, T_hi: float, T_hi_name: str, 
         a, lower_edge = _feasible_edge(obj, float(grid[i]), a)
     if i < n_scan - 1 and not results[i + 1].ok:
         b, upper_edge = _feasible_edge(obj, float(grid[i]), b)
-    T_opt = _refine(obj, a, b)
-    if upper_edge is not None and T_opt >= b - 10 * XATOL_K:
+    x_opt = _refine(obj.power, a, b, xatol)
+    if upper_edge is not None and x_opt >= b - 10 * xatol:
         limit = upper_edge
-    elif lower_edge is not None and T_opt <= a + 10 * XATOL_K:
+    elif lower_edge is not None and x_opt <= a + 10 * xatol:
         limit = lower_edge
-    elif T_opt >= T_hi - 10 * XATOL_K:
-        limit = T_hi_name
-    elif T_opt <= T_lo + 10 * XATOL_K:
-        limit = "lowest evaporation temperature"
+    elif x_opt >= w.hi - 10 * xatol:
+        limit = w.hi_name
+    elif x_opt <= w.lo + 10 * xatol:
+        limit = w.lo_name
     else:
         limit = "none (interior optimum)"
-    return T_opt, limit, scan
+    return x_opt, limit, scan
 
 
-def _no_feasible_reason(results: list[CycleResult], T_lo: float, T_hi: float) -> str:
+def _no_room_reason(var: Variable, w: Window) -> str:
+    return (f"no room for the {var.label}: the upper limit ({w.hi_name}, {var.display(w.hi):.4g} {var.unit}) is not "
+            f"above the lower one ({w.lo_name}, {var.display(w.lo):.4g} {var.unit})")
+
+
+def _no_feasible_reason(var: Variable, results: list[CycleResult], w: Window) -> str:
     reasons = [r.reason for r in results if r.reason]
     common = max(set(reasons), key=reasons.count) if reasons else "no feasible point"
-    return f"no feasible evaporation temperature between {T_lo - 273.15:.1f} and {T_hi - 273.15:.1f} °C: e.g. {common}"
+    return (f"no feasible {var.label} between {var.display(w.lo):.4g} and {var.display(w.hi):.4g} {var.unit}: "
+            f"e.g. {common}")
 
 
-def _optimise_fixed_superheat(fluid, source, sink, s, layout, superheat_K, n_scan, polish=True):
-    """Best evaporation temperature at one superheat: (result, limit, evaluations, scan).
+def _optimise_innermost(layout: Layout, ctx: CycleContext, var: Variable, fixed: Mapping[str, float], polish: bool = True):
+    """Best value of the innermost variable at fixed outer values: (result, limit, evaluations, scan).
 
-    polish=False returns the closed-form model's optimum without the discretised
-    re-evaluation (used inside the superheat search, whose objective must be one model).
+    polish=False returns the closed-form model's optimum without the discretised re-evaluation
+    (used inside an outer search, whose objective must be one model). result is None when
+    nothing is feasible; limit is then the reason.
     """
-    T_lo, T_hi, T_hi_name = evaporation_window_K(fluid, source, sink, s, superheat_K)
-    if T_hi <= T_lo:
-        reason = (
-            f"no room for evaporation: the upper limit ({T_hi_name}, {T_hi - 273.15:.1f} °C) is not above "
-            f"the lowest useful evaporation temperature ({T_lo - 273.15:.1f} °C)"
-        )
-        return None, reason, 0, ([], [], [])
-    fast = _Objective(fluid, source, sink, s, layout, superheat_K, exact=False)
-    T_opt, info, scan = _optimise_T_evap(fast, T_lo, T_hi, T_hi_name, n_scan)
-    if T_opt is None:
-        return None, _no_feasible_reason(info, T_lo, T_hi), fast.n, scan
+    n_scan = var.scan_points
+    w = layout.window(ctx, var.name, fixed)
+    if w.hi <= w.lo:
+        return None, _no_room_reason(var, w), 0, ([], [], [])
+    fast = _Objective(layout, ctx, var, fixed, exact=False)
+    x_opt, info, scan = _scan_and_refine(fast, w, n_scan)
+    if x_opt is None:
+        return None, _no_feasible_reason(var, info, w), fast.n, scan
     if not polish:
-        return fast(T_opt), info, fast.n, scan
-    exact = _Objective(fluid, source, sink, s, layout, superheat_K, exact=True)
-    exact.T_cond_guess = fast(T_opt).T_cond_K
-    r = exact(T_opt)
-    fr = evaluate(fluid, source, sink, s, layout, T_opt, superheat_K, exact=False, T_cond_guess_K=r.T_cond_K if r.ok else None, cond_tol_K=1e-9)
+        return fast(x_opt), info, fast.n, scan
+    exact = _Objective(layout, ctx, var, fixed, exact=True)
+    exact.T_cond_guess = fast(x_opt).T_cond_K
+    r = exact(x_opt)
+    fr = layout.evaluate(ctx, fast.point(x_opt), exact=False, T_cond_guess_K=r.T_cond_K if r.ok else None, cond_tol_K=1e-9)
     limit = info
-    if not r.ok or abs(r.W_net_W - fr.W_net_W) > 2e-5 * abs(fr.W_net_W):
+    if not r.ok or abs(r.W_net_W - fr.W_net_W) > EXACT_REFINE_RTOL * abs(fr.W_net_W):
         # the discretised profiles bind somewhere the closed-form candidates do not see:
         # refine again on the discretised model around the fast optimum
-        step = (T_hi - T_lo) / (n_scan - 1)
-        a, b = max(T_lo, T_opt - step), min(T_hi, T_opt + step)
-        T2 = _refine(exact, a, b)
-        if exact.power(T2) > -math.inf:
-            r = exact(T2)
-            limit = info if abs(T2 - T_opt) < 10 * XATOL_K else "evaporator pinch (discretised)"
+        step = (w.hi - w.lo) / (n_scan - 1)
+        a, b = max(w.lo, x_opt - step), min(w.hi, x_opt + step)
+        x2 = _refine(exact.power, a, b, var.xatol)
+        if exact.power(x2) > -math.inf:
+            r = exact(x2)
+            where = "heater" if layout.supercritical else "evaporator"
+            limit = info if abs(x2 - x_opt) < 10 * var.xatol else f"{where} pinch (discretised)"
     if not r.ok:
         return None, r.reason, fast.n + exact.n, scan
     return r, limit, fast.n + exact.n + 1, scan
 
 
-def optimise(
-    fluid: Fluid,
-    source,
-    sink,
-    settings: CycleSettings,
-    layout: Layout,
-    superheat_K: float | str = 0.0,
-    max_superheat_K: float = 50.0,
-    n_scan: int = N_SCAN,
-) -> Optimum | tuple[None, str, int]:
-    """Best cycle of one fluid and layout for net power.
-
-    superheat_K: a fixed superheat [K], or "optimise" to choose it in [0, max_superheat_K].
-    Returns an :class:`Optimum`, or (None, reason, evaluations) when nothing is feasible.
-    The result depends only on the arguments: guesses carried between evaluations are reset
-    first, so the same case gives the same bits in any process and after any other case.
-    """
-    reset_guesses()
-    if superheat_K != "optimise":
-        r, limit, n, scan = _optimise_fixed_superheat(fluid, source, sink, settings, layout, float(superheat_K), n_scan)
-        if r is None:
-            return None, limit, n
-        return Optimum(r, limit, n, *scan)
-
+def _optimise_nested(layout: Layout, ctx: CycleContext, variables: tuple[Variable, ...], fixed: Mapping[str, float],
+                     polish: bool = True):
+    """Best values of variables (innermost first) at fixed outer values: (result, limit, evaluations, scan)."""
+    if len(variables) == 1:
+        return _optimise_innermost(layout, ctx, variables[0], fixed, polish)
+    inner_vars, outer = variables[:-1], variables[-1]
+    w = layout.window(ctx, outer.name, fixed)
     total = 0
     memo: dict[float, tuple] = {}
 
-    def inner(sh: float):
+    def inner(v: float):
         nonlocal total
-        if sh not in memo:
-            out = _optimise_fixed_superheat(fluid, source, sink, settings, layout, sh, max(10, n_scan // 2), polish=False)
+        if v not in memo:
+            out = _optimise_nested(layout, ctx, inner_vars, {**fixed, outer.name: v}, polish=False)
             total += out[2]
-            memo[sh] = out
-        return memo[sh]
+            memo[v] = out
+        return memo[v]
 
-    def inner_near(sh: float):
-        """Inner optimum started from the nearest superheat already solved: a bracket of
-        +-3 K around its evaporation temperature; the full search when an edge is near."""
+    def inner_near(v: float):
+        """Inner optimum started from the nearest outer value already solved: a bracket of
+        +- near_half_width around its inner optimum; the full search when an edge is near."""
         nonlocal total
-        if sh in memo:
-            return memo[sh]
-        known = sorted((abs(k - sh), v[0].T_evap_K) for k, v in memo.items() if v[0] is not None)
-        T_lo, T_hi, _ = evaporation_window_K(fluid, source, sink, settings, sh)
+        if v in memo:
+            return memo[v]
+        if len(inner_vars) > 1:
+            return inner(v)
+        iv = inner_vars[0]
+        known = sorted((abs(k - v), res[0].variables[iv.name]) for k, res in memo.items() if res[0] is not None)
         if not known:
-            return inner(sh)
-        a, b = max(T_lo, known[0][1] - 3.0), min(T_hi, known[0][1] + 3.0)
-        obj = _Objective(fluid, source, sink, settings, layout, sh, exact=False)
-        if b - a < 1.0 or not (obj(a).ok and obj(b).ok):
+            return inner(v)
+        point = {**fixed, outer.name: v}
+        wi = layout.window(ctx, iv.name, point)
+        x0 = known[0][1]
+        a, b = max(wi.lo, x0 - iv.near_half_width), min(wi.hi, x0 + iv.near_half_width)
+        obj = _Objective(layout, ctx, iv, point, exact=False)
+        if b - a < iv.near_min_width or not a < x0 < b:
             total += obj.n
-            return inner(sh)
-        T = _refine(obj, a, b)
+            return inner(v)
+        edge_a = edge_b = False
+        if not obj(a).ok or not obj(b).ok:
+            # an edge of the feasible region inside the bracket: from the nearest optimum,
+            # which is feasible here too or the full search decides, to each infeasible end
+            if not obj(x0).ok:
+                total += obj.n
+                return inner(v)
+            if not obj(a).ok:
+                a, edge_a = _feasible_edge(obj, x0, a)[0], True
+            if not obj(b).ok:
+                b, edge_b = _feasible_edge(obj, x0, b)[0], True
+        x = _refine(obj.power, a, b, iv.xatol)
+        for _ in range(2):
+            # an optimum at a bracket end that is no edge: walk the bracket that way, twice at most
+            if b - x < 10 * iv.xatol and not edge_b and b < wi.hi:
+                a, b = x - 0.5 * iv.near_half_width, min(wi.hi, x + iv.near_half_width)
+            elif x - a < 10 * iv.xatol and not edge_a and a > wi.lo:
+                a, b = max(wi.lo, x - iv.near_half_width), x + 0.5 * iv.near_half_width
+            else:
+                break
+            if not (obj(a).ok and obj(b).ok):
+                break
+            x = _refine(obj.power, a, b, iv.xatol)
         total += obj.n
-        if T - a < 10 * XATOL_K or b - T < 10 * XATOL_K:
-            return inner(sh)
-        memo[sh] = (obj(T), "none (interior optimum)", obj.n, ([], [], []))
-        return memo[sh]
+        if (x - a < 10 * iv.xatol and not edge_a and a > wi.lo) or (b - x < 10 * iv.xatol and not edge_b and b < wi.hi):
+            return inner(v)
+        memo[v] = (obj(x), "none (interior optimum)", obj.n, ([], [], []))
+        return memo[v]
 
-    def power(sh: float, near: bool = False) -> float:
-        r = (inner_near(sh) if near else inner(sh))[0]
+    def power(v: float, near: bool = False) -> float:
+        r = (inner_near(v) if near else inner(v))[0]
         return r.W_net_W if r is not None else -math.inf
 
-    grid = np.linspace(0.0, max_superheat_K, 6)
-    W = [power(float(g)) for g in grid]
+    if w.hi <= w.lo:
+        grid = np.array([w.lo])
+    else:
+        grid = np.linspace(w.lo, w.hi, outer.scan_points)
+    if outer.scan_from_top:
+        # the full inner search at the top of the grid, then each lower point warm-started
+        # from its neighbour (a full search wherever that cannot be trusted, see inner_near)
+        W = [power(float(g), near=True) for g in grid[::-1]][::-1]
+    else:
+        W = [power(float(g)) for g in grid]
     if not np.any(np.isfinite(W)):
-        return None, inner(0.0)[1], total
+        return None, inner(float(grid[0]))[1], total, ([], [], [])
     i = int(np.argmax(W))
-    a, b = float(grid[max(i - 1, 0)]), float(grid[min(i + 1, len(grid) - 1)])
-    res = minimize_scalar(lambda sh: _penalised(power(sh, near=True)), bounds=(a, b), method="bounded", options={"xatol": 0.1})
-    best = max([float(grid[i]), float(res.x)], key=lambda sh: power(sh, near=True))
-    # polish at the best superheat with the full scan
-    r, limit, n, scan = _optimise_fixed_superheat(fluid, source, sink, settings, layout, best, n_scan)
+    best = float(grid[i])
+    if len(grid) > 1:
+        a, b = float(grid[max(i - 1, 0)]), float(grid[min(i + 1, len(grid) - 1)])
+        near_power = lambda v: power(v, near=True)  # noqa: E731
+        x = _at_bound(near_power, grid, i, outer.xatol) if outer.scan_from_top else None
+        if x is None:
+            x = _refine(near_power, a, b, outer.xatol)
+        best = max([float(grid[i]), x], key=near_power)
+    if not polish:
+        r, limit, _, scan = inner_near(best)
+        return r, limit, total, scan
+    # polish at the best outer value with the full inner search
+    r, limit, n, scan = _optimise_nested(layout, ctx, inner_vars, {**fixed, outer.name: best}, polish=True)
     total += n
     if r is None:
-        return None, limit, total
-    return Optimum(r, limit, total, *scan)
+        return None, limit, total, scan
+    return r, _with_bound(limit, outer, w, best), total, scan
+
+
+def _at_bound(power, grid, i: int, xatol: float) -> float | None:
+    """The window's end when the best scan point is that end and the objective still rises into
+    it over the last xatol (the optimum sits on the bound: no search needed), else None."""
+    for end, inward in ((len(grid) - 1, -xatol), (0, xatol)):
+        if i == end and len(grid) > 1:
+            x = float(grid[end])
+            if power(x) > power(x + inward):
+                return x
+    return None
+
+
+def _with_bound(limit: str, var: Variable, w: Window, x: float) -> str:
+    """The binding limit of an inner optimum, with the outer variable's bound if it sits on one."""
+    if w.hi > w.lo:
+        bound = w.hi_name if x >= w.hi - 10 * var.xatol else w.lo_name if x <= w.lo + 10 * var.xatol else ""
+        if bound:
+            return bound if limit.startswith("none") else f"{limit}; {bound}"
+    return limit
+
+
+def optimise(layout: Layout, ctx: CycleContext) -> Optimum | tuple[None, str, int]:
+    """Best cycle of one fluid and layout for net power, over the layout's free variables.
+
+    Returns an :class:`Optimum`, or (None, reason, evaluations) when nothing is feasible. The
+    result depends only on the arguments: guesses carried between evaluations are reset first,
+    so the same case gives the same bits in any process and after any other case.
+    """
+    reset_guesses()
+    variables = layout.variables(ctx)
+    r, limit, n, scan = _optimise_nested(layout, ctx, variables, {}, polish=True)
+    if r is None:
+        return None, limit, n
+    return Optimum(r, limit, n, variables[0], *scan)

@@ -32,7 +32,6 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
-from orcscreen.api import ROW_COLUMNS  # the engine's row columns, contract section 2
 from orcscreen import store as _store
 from orcscreen.safe_files import atomic_write, atomic_writer
 from orcscreen.store import (
@@ -79,6 +78,21 @@ _RANK_KEYS = ("status", "net_power_kW", "fluid", "layout")
 _RANKING_INPUTS = (*_RANK_KEYS, *_INTEGER_COLUMNS)
 
 
+def _engine_row_columns() -> tuple[str, ...]:
+    """The engine's row columns (contract section 2), ``orcscreen.api.ROW_COLUMNS``; imported
+    on first use, since orcscreen.api loads the engine and CoolProp."""
+    from orcscreen.api import ROW_COLUMNS
+
+    return ROW_COLUMNS
+
+
+def __getattr__(name: str):
+    """``ROW_COLUMNS`` stays importable from here (PEP 562) without an engine import at module load."""
+    if name == "ROW_COLUMNS":
+        return _engine_row_columns()
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
+
+
 def _sweep_columns_of(columns: list[str]) -> list[str]:
     """The swept dotted paths: the columns between case_index and the first row column."""
     end = columns.index("fluid") if "fluid" in columns else len(columns)
@@ -87,9 +101,10 @@ def _sweep_columns_of(columns: list[str]) -> list[str]:
 
 def _row_columns_of(columns: list[str], sweep_cols: list[str]) -> list[str]:
     """ranking.csv's row columns: the engine's, then any other stored ones, without timings."""
-    extra = [c for c in columns if c not in ROW_COLUMNS and c not in sweep_cols
+    engine_columns = _engine_row_columns()
+    extra = [c for c in columns if c not in engine_columns and c not in sweep_cols
              and c not in _STORE_ONLY]
-    return [c for c in (*ROW_COLUMNS, *extra) if c not in TIMING_COLUMNS]
+    return [c for c in (*engine_columns, *extra) if c not in TIMING_COLUMNS]
 
 
 def _ranked_order(df: pd.DataFrame, sweep_cols: list[str]) -> pd.DataFrame:
@@ -163,7 +178,7 @@ def ranking_table(rows: pd.DataFrame, meta: dict | None = None, *,
     meta = meta or {}
     df = rows.reset_index(drop=True).copy()
     sweep_cols = _sweep_columns_of(list(df.columns))
-    for col in ROW_COLUMNS if all_columns else _RANK_KEYS:
+    for col in _engine_row_columns() if all_columns else _RANK_KEYS:
         if col not in df:
             df[col] = None
     row_cols = _row_columns_of(list(df.columns), sweep_cols)
@@ -314,7 +329,7 @@ def _stream_ranking(store: RunStore, meta: dict, target: Path | None,
     if any(c not in names for c in sweep_cols):  # row keys before "fluid": not a usual store
         del light, kept
         return _whole_ranking(store, meta, target, keep)
-    missing = [c for c in ROW_COLUMNS if c not in columns]
+    missing = [c for c in _engine_row_columns() if c not in columns]
     row_cols = _row_columns_of(columns + missing, sweep_cols)
     out_columns = ["case_key", *sweep_cols, "rank", *row_cols, *_VERSION_COLUMNS]
     small = kinds.typed(pd.concat(light, ignore_index=True).reindex(columns=names))

@@ -34,6 +34,7 @@ from matplotlib.patches import Patch, Rectangle
 from matplotlib.ticker import FuncFormatter
 from matplotlib.transforms import blended_transform_factory
 
+from orcscreen import cycles as _cycles
 from orcscreen import rank
 
 __all__ = [
@@ -74,10 +75,16 @@ FILL_COLOURS = [OKABE_ITO[k] for k in
                  "blue")] + ["#BBBBBB"]
 STREAM_COLOURS = {"source": OKABE_ITO["vermillion"], "working fluid": OKABE_ITO["blue"],
                   "sink": OKABE_ITO["sky_blue"]}
-LAYOUT_STYLE = {
-    "basic": {"color": OKABE_ITO["blue"], "marker": "o", "hatch": ""},
-    "recuperated": {"color": OKABE_ITO["orange"], "marker": "s", "hatch": "///"},
-}
+#: Styles given to the layouts of the registry (orcscreen.cycles.LAYOUTS), in its order.
+_LAYOUT_STYLES = (
+    {"color": OKABE_ITO["blue"], "marker": "o", "hatch": ""},
+    {"color": OKABE_ITO["orange"], "marker": "s", "hatch": "///"},
+    {"color": OKABE_ITO["bluish_green"], "marker": "D", "hatch": "\\\\"},
+    {"color": OKABE_ITO["vermillion"], "marker": "v", "hatch": "xx"},
+    {"color": OKABE_ITO["sky_blue"], "marker": "P", "hatch": "--"},
+    {"color": OKABE_ITO["yellow"], "marker": "X", "hatch": "++"},
+)
+LAYOUT_STYLE = {name: _LAYOUT_STYLES[i % len(_LAYOUT_STYLES)] for i, name in enumerate(_cycles.LAYOUTS)}
 _OTHER_LAYOUT = {"color": OKABE_ITO["reddish_purple"], "marker": "^", "hatch": "..."}
 _GREY = "#777777"
 
@@ -400,34 +407,48 @@ def _joint_label(rows: Sequence[Mapping]) -> str:
 # --------------------------------------------------------------------------- landscape
 
 def landscape_chart(cases: Sequence[tuple[Mapping, Mapping]], ax: Axes | None = None,
-                    title: str | None = "Net power against evaporation temperature") -> Axes:
-    """The optimiser's scan for each ``(row, detail)`` case: net power [kW] against evaporation
-    temperature [°C]; the optimum is a star, and the legend names its binding limit.
+                    title: str | None = None) -> Axes:
+    """The optimiser's scan for each ``(row, detail)`` case: net power [kW] against the layout's
+    innermost free variable (the evaporation temperature [°C], or a supercritical heater's
+    pressure [bar]); the optimum is a star, and the legend names its binding limit. Cases whose
+    scan is over another variable than the first case's are left out.
     """
     drawn = [(r, d) for r, d in cases if d and (d.get("landscape") or {}).get("net_power_kW")]
     if not drawn:
         raise ValueError("landscape chart: no case has an optimisation scan")
+    variable, unit = _scan_axis(drawn[0][1])
+    drawn = [(r, d) for r, d in drawn if _scan_axis(d) == (variable, unit)]
     ax = _new_axes(ax, 4.4)
     for i, (row, detail) in enumerate(drawn):
         colour = SERIES_COLOURS[i % len(SERIES_COLOURS)]
         scan = detail["landscape"]
-        t = np.asarray(scan["evaporation_temperature_C"], dtype=float)
+        t = np.asarray(scan["x"] if "x" in scan else scan["evaporation_temperature_C"], dtype=float)
         p = np.asarray([_num(v) for v in scan["net_power_kW"]], dtype=float)
         order = np.argsort(t)
         opt = detail.get("optimum") or {}
+        x_opt = opt.get("x", opt.get("evaporation_temperature_C"))
         limit = opt.get("binding_limit") or "none (interior optimum)"
         ax.plot(t[order], p[order], color=colour, linewidth=1.4,
                 marker=_layout_style(row.get("layout"))["marker"], markersize=2.5,
                 label=f"{case_label(row)}: optimum {_fmt(opt.get('net_power_kW'))} kW at "
-                      f"{_fmt(opt.get('evaporation_temperature_C'))} °C, limit: {limit}",
+                      f"{_fmt(x_opt)} {unit}, limit: {limit}",
                 gid=f"scan-{i}")
         if opt:
-            ax.plot([_num(opt.get("evaporation_temperature_C"))], [_num(opt.get("net_power_kW"))],
+            ax.plot([_num(x_opt)], [_num(opt.get("net_power_kW"))],
                     marker="*", markersize=12, color=colour, markeredgecolor="black",
                     markeredgewidth=0.6, linestyle="none", zorder=4, gid=f"optimum-{i}")
     ax.legend(fontsize=NOTE_PT - 0.5, loc="upper center", bbox_to_anchor=(0.5, -0.16), ncols=1,
               frameon=False)
-    return _finish(ax, axis_label("evaporation_temperature_C"), axis_label("net_power_kW"), title)
+    if title is None:
+        title = f"Net power against {variable}"
+    return _finish(ax, f"{variable} [{unit}]", axis_label("net_power_kW"), title)
+
+
+def _scan_axis(detail: Mapping) -> tuple[str, str]:
+    """(variable, unit) of a detail's scan; details stored before layouts had free variables of
+    their own scanned the evaporation temperature."""
+    scan = detail.get("landscape") or {}
+    return scan.get("variable") or "evaporation temperature", scan.get("unit") or "°C"
 
 
 # --------------------------------------------------------------------------- sweeps

@@ -82,7 +82,30 @@ def _import_coolprop():
     return CoolProp, core
 
 
-CoolProp, CP = _import_coolprop()
+class _OnFirstUse:
+    """Stands for CoolProp (the package, or its core module) until an attribute is first read:
+    then CoolProp is imported (:func:`_import_coolprop`) and the module's globals point at the
+    real modules, so that ``import orcscreen.properties`` (and every module that reads the
+    engine's registries) does not load CoolProp; the first fluid does."""
+
+    def __init__(self, which: str):
+        self._which = which
+
+    def __getattr__(self, name: str):
+        _load_coolprop()
+        return getattr(globals()[self._which], name)
+
+
+def _load_coolprop() -> None:
+    global CoolProp, CP, _iP, _iT, _iD, _iH, _iS
+    if not isinstance(CP, _OnFirstUse):
+        return
+    CoolProp, CP = _import_coolprop()
+    _PHASES.update(liquid=CP.iphase_liquid, gas=CP.iphase_gas)
+    _iP, _iT, _iD, _iH, _iS = CP.iP, CP.iT, CP.iDmass, CP.iHmass, CP.iSmass
+
+
+CoolProp, CP = _OnFirstUse("CoolProp"), _OnFirstUse("CP")
 
 __all__ = [
     "PropertyError",
@@ -99,42 +122,7 @@ __all__ = [
 ]
 
 
-class PropertyError(ValueError):
-    """A property evaluation failed; the message names the fluid and the inputs."""
-
-
-@dataclass(frozen=True, slots=True)
-class SatPoint:
-    """Both ends of the two-phase region at one saturation temperature.
-
-    Units: T_K [K], p_Pa [Pa], h [J/kg], s [J/(kg K)], v [m3/kg]; suffix L = saturated liquid,
-    V = saturated vapour.
-    """
-
-    T_K: float
-    p_Pa: float
-    hL: float
-    hV: float
-    sL: float
-    sV: float
-    vL: float
-    vV: float
-
-
-@dataclass(frozen=True, slots=True)
-class State:
-    """One thermodynamic state. q is the vapour quality, NaN outside the two-phase region.
-
-    Units: T_K [K], p_Pa [Pa], h [J/kg], s [J/(kg K)], v [m3/kg].
-    """
-
-    T_K: float
-    p_Pa: float
-    h: float
-    s: float
-    v: float
-    q: float
-    cp: float = math.nan  # isobaric specific heat [J/(kg K)] of single-phase states, else NaN
+from .states import PropertyError, SatPoint, State  # noqa: E402  (re-exported)
 
 
 def _quality(AS) -> float:
@@ -142,8 +130,11 @@ def _quality(AS) -> float:
     return q if 0.0 <= q <= 1.0 else math.nan
 
 
-_PHASES = {"liquid": CP.iphase_liquid, "gas": CP.iphase_gas}
-_iP, _iT, _iD, _iH, _iS = CP.iP, CP.iT, CP.iDmass, CP.iHmass, CP.iSmass
+#: CoolProp's phase constants by name, filled when CoolProp is loaded; "liquid" and "gas" also
+#: serve above the critical pressure (below and above the critical temperature), where CoolProp
+#: treats an imposed liquid or gas phase as its supercritical liquid or supercritical phase.
+_PHASES: dict[str, int] = {}
+_iP = _iT = _iD = _iH = _iS = -1  # CoolProp's parameter indices, set when it is loaded
 
 
 class _SaturationCurves:
@@ -499,18 +490,23 @@ class Fluid:
         finally:
             self._AS.unspecify_phase()
 
-    def h_pT(self, p_Pa: float, T_K: float, phase: str) -> float:
+    def h_pT(self, p_Pa: float, T_K: float, phase: str | None) -> float:
         """Specific enthalpy [J/kg] at p_Pa [Pa] and T_K [K], phase ("liquid" or "gas") imposed:
-        the one-point case of :meth:`h_pT_array` without the array (same CoolProp calls)."""
+        the one-point case of :meth:`h_pT_array` without the array (same CoolProp calls). With
+        phase None, CoolProp finds the phase (above the critical pressure it knows the fluid is
+        supercritical and this costs no more than an imposed phase)."""
         AS = self._AS
-        AS.specify_phase(_PHASES[phase])
+        if phase is not None:
+            AS.specify_phase(_PHASES[phase])
         try:
             AS.update(CP.PT_INPUTS, p_Pa, T_K)
             return AS.hmass()
         except ValueError as exc:
-            raise PropertyError(f"{self.name}: {phase} enthalpy failed at p = {p_Pa / 1e5:.6g} bar: {exc}") from None
+            raise PropertyError(f"{self.name}: {phase or 'single-phase'} enthalpy failed at p = {p_Pa / 1e5:.6g} bar, "
+                                f"T = {T_K - 273.15:.6g} °C: {exc}") from None
         finally:
-            AS.unspecify_phase()
+            if phase is not None:
+                AS.unspecify_phase()
 
     def h_pT_array(self, p_Pa: float, T_K, phase: str):
         """Specific enthalpies [J/kg] at pressure p_Pa [Pa] and each temperature of T_K [K].

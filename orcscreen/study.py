@@ -12,6 +12,7 @@ the key path, the offending value and what is allowed.
 
 from __future__ import annotations
 
+import dataclasses
 import difflib
 import functools
 import hashlib
@@ -36,9 +37,14 @@ from pydantic import (
     model_validator,
 )
 
+from orcscreen import cycles as _cycles  # the registries the schema reads (no CoolProp loaded)
+from orcscreen import streams as _streams
+from orcscreen import turbine as _turbine
+
 __all__ = [
     "StudyError",
     "Study",
+    "Case",
     "load_study",
     "study_from_dict",
     "case_key",
@@ -50,11 +56,16 @@ __all__ = [
 ]
 
 SCHEMA_VERSION = 1
-LAYOUTS = ("basic", "recuperated")
-SOURCE_KINDS = ("water", "brine", "thermal-oil", "flue-gas", "fluid")
-SINK_KINDS = ("water", "air")
+
+#: Layout names, from the layout registry (orcscreen.cycles.LAYOUTS).
+LAYOUTS = tuple(_cycles.LAYOUTS)
+#: Source and sink kinds, from the stream registries (orcscreen.streams).
+SOURCE_KINDS = tuple(_streams.SOURCE_KINDS)
+SINK_KINDS = tuple(_streams.SINK_KINDS)
+#: Turbine efficiency models, from the turbine-model registry (orcscreen.turbine).
+TURBINE_MODELS = tuple(_turbine.TURBINE_MODELS)
 SAFETY_CLASSES = ("A1", "A2L", "A2", "A3", "B1", "B2L", "B2", "B3")
-FLUE_GAS_SPECIES = ("N2", "O2", "CO2", "H2O", "Ar")
+FLUE_GAS_SPECIES = tuple(_streams.GAS_SPECIES)
 MAX_CASES = 1_000_000
 """Studies with more cases are refused unless explicitly allowed (``allow_huge`` / ``--yes``)."""
 MAX_CASE_TIME_LIMIT_S = 1_000_000.0
@@ -66,28 +77,24 @@ STREAM_POINTS_EXACT = 2_000
 _SHOWN_CHARS = 80
 """Longest value text shown in a message; longer values are cut with "..."."""
 
-ATMOSPHERE_bar = 1.01325
-
 
 def _default_flue_gas() -> dict[str, float]:
     """Default flue gas: natural gas (methane) burnt with 15 % excess air (streams.py owns the model)."""
-    from orcscreen.streams import methane_flue_gas_mole_fractions
-
-    return dict(methane_flue_gas_mole_fractions())
+    return dict(_streams.methane_flue_gas_mole_fractions())
 
 
-# Default source pressures [bar] by kind: hot water and brine are kept liquid (10 bar, common
-# practice for a pressurised loop up to about 175 °C), flue gas is at atmospheric pressure,
-# thermal oil loops run a few bar of nitrogen blanket and pump head (5 bar, common practice).
-_DEFAULT_SOURCE_PRESSURE_bar = {"water": 10.0, "brine": 10.0, "flue-gas": ATMOSPHERE_bar, "thermal-oil": 5.0}
-# Default specific heats [kJ/(kg K)] where the model takes a cp rather than an equation of state.
-# brine: a geothermal brine of about 70 g/kg dissolved salts; seawater-like brines fall from
-# 4.18 (pure water) to about 3.8 kJ/(kg K) at 70 g/kg near 100 °C (Sharqawy, Lienhard, Zubair,
-# Desalination and Water Treatment 16 (2010) 354-380, Fig. of cp vs salinity; from memory).
-# thermal-oil: synthetic heat-transfer oils have cp of about 2.2-2.5 kJ/(kg K) at 200-300 °C
-# (manufacturers' data sheets, from memory); 2.3 is taken.
-_DEFAULT_CP_kJ_kgK = {"brine": 3.8, "thermal-oil": 2.3}
-_DEFAULT_SINK_PRESSURE_bar = {"water": 2.0, "air": ATMOSPHERE_bar}
+# Defaults that depend on the kind of stream, read from the stream classes (each class carries
+# its own, with the reasons in streams.py): pressure by kind, and the specific heat of the
+# kinds whose model takes a cp (brine, thermal oil).
+_DEFAULT_SOURCE_PRESSURE_bar = {k: c.default_pressure_bar for k, c in _streams.SOURCE_KINDS.items()
+                                if c.default_pressure_bar is not None}
+_DEFAULT_CP_kJ_kgK = {k: c.default_cp_kJ_kgK for k, c in _streams.SOURCE_KINDS.items()
+                      if getattr(c, "default_cp_kJ_kgK", None) is not None}
+_DEFAULT_SINK_PRESSURE_bar = {k: c.default_pressure_bar for k, c in _streams.SINK_KINDS.items()}
+
+
+def _kinds_text(defaults: dict[str, float], unit: str) -> str:
+    return ", ".join(f"{v:g} {unit} for {k}" for k, v in defaults.items())
 
 
 class StudyError(ValueError):
@@ -162,8 +169,8 @@ class SourceSection(_Section):
     mass_flow_kg_s: float = _f(..., "Source mass flow [kg/s].", "a number > 0", gt=0)
     pressure_bar: Optional[float] = _f(
         None,
-        "Source pressure [bar]. Default 10 for water and brine, 1.01325 for flue gas, 5 for thermal "
-        "oil; required for kind \"fluid\" unless inlet_quality is given (then saturation).",
+        f"Source pressure [bar]. Default {_kinds_text(_DEFAULT_SOURCE_PRESSURE_bar, 'bar')}; required for "
+        "kind \"fluid\" unless inlet_quality is given (then saturation).",
         "a number > 0",
         gt=0,
     )
@@ -176,7 +183,7 @@ class SourceSection(_Section):
     )
     cp_kJ_kgK: Optional[float] = _f(
         None,
-        "Specific heat at 0 °C [kJ/(kg K)] of a brine or thermal oil. Default 3.8 for brine, 2.3 for thermal oil.",
+        f"Specific heat at 0 °C [kJ/(kg K)] of a brine or thermal oil. Default {_kinds_text(_DEFAULT_CP_kJ_kgK, 'kJ/(kg K)')}.",
         "a number > 0 (kind brine or thermal-oil only)",
         gt=0,
     )
@@ -229,7 +236,7 @@ class SinkSection(_Section):
     inlet_temperature_C: float = _f(20.0, "Sink inlet temperature [°C].", "a number from -50 to 80", ge=-50, le=80)
     temperature_rise_K: float = _f(10.0, "Temperature rise of the sink across the condenser [K].", "a number > 0", gt=0)
     pressure_bar: Optional[float] = _f(
-        None, "Sink pressure [bar]. Default 2 for water, 1.01325 for air.", "a number > 0", gt=0
+        None, f"Sink pressure [bar]. Default {_kinds_text(_DEFAULT_SINK_PRESSURE_bar, 'bar')}.", "a number > 0", gt=0
     )
     aux_power_per_kW_rejected: float = _f(
         0.0, "Fan or pump power per kW of heat rejected [kW/kW].", "a number >= 0", ge=0
@@ -261,7 +268,10 @@ class ExchangersSection(_Section):
 class MachinesSection(_Section):
     """[machines]: efficiencies of turbine, pump, generator and motor."""
 
-    turbine_efficiency: float = _f(0.80, "Isentropic efficiency of the turbine [-].", "a number in (0, 1]", gt=0, le=1)
+    turbine_model: Literal[TURBINE_MODELS] = _f(
+        "constant", "Turbine efficiency model (orcscreen.turbine.TURBINE_MODELS).", _choices(TURBINE_MODELS)
+    )
+    turbine_efficiency: float = _f(0.80, "Isentropic efficiency of the turbine [-] (turbine_model \"constant\").", "a number in (0, 1]", gt=0, le=1)
     pump_efficiency: float = _f(0.70, "Isentropic efficiency of the pump [-].", "a number in (0, 1]", gt=0, le=1)
     generator_efficiency: float = _f(1.0, "Generator efficiency [-].", "a number in (0, 1]", gt=0, le=1)
     motor_efficiency: float = _f(1.0, "Efficiency of the pump motor [-].", "a number in (0, 1]", gt=0, le=1)
@@ -273,6 +283,10 @@ class LimitsSection(_Section):
     max_pressure_bar: Optional[float] = _f(None, "Highest cycle pressure [bar]; none by default.", "a number > 0", gt=0)
     max_reduced_pressure: float = _f(
         0.9, "Highest evaporation pressure as a fraction of the critical pressure [-].", "a number in (0, 1)", gt=0, lt=1
+    )
+    max_supercritical_reduced_pressure: float = _f(
+        1.3, "Highest heater pressure of a transcritical layout as a multiple of the critical pressure [-].",
+        "a number > 1 and at most 3", gt=1, le=3
     )
     min_turbine_outlet_quality: float = _f(
         0.9, "Lowest vapour quality at the turbine outlet when it is two-phase [-].", "a number in [0, 1]", ge=0, le=1
@@ -286,13 +300,18 @@ class CycleSection(_Section):
     """[cycle]: layouts and the superheat and subcooling settings."""
 
     layouts: list[Literal[LAYOUTS]] = _f(
-        list(LAYOUTS), "Cycle layouts to screen.", f"a non-empty list of {_choices(LAYOUTS)}", min_length=1
+        list(_cycles.DEFAULT_LAYOUTS), "Cycle layouts to screen (orcscreen.cycles.LAYOUTS).",
+        f"a non-empty list of {_choices(LAYOUTS)}", min_length=1
     )
     superheat_K: Union[float, Literal["optimise"]] = _f(
         0.0, "Superheat at the turbine inlet [K], or \"optimise\".", 'a number >= 0 or "optimise"'
     )
     max_superheat_K: float = _f(50.0, "Upper bound of the superheat when it is optimised [K].", "a number > 0", gt=0)
     subcooling_K: float = _f(0.0, "Subcooling at the condenser outlet [K].", "a number >= 0", ge=0)
+    reheat_temperature_C: Optional[float] = _f(
+        None, "Reheater outlet temperature of the reheat layout [°C]; by default the turbine inlet temperature.",
+        "a number from -50 to 1000", ge=-50, le=1000
+    )
 
     @field_validator("layouts", mode="before")
     @classmethod
@@ -419,29 +438,90 @@ class Study(BaseModel):
         dumped = self.model_dump(mode="python", by_alias=True)
         return {name: dumped[name] for name in _CASE_SECTIONS}
 
-    def cases(self) -> Iterator[dict[str, Any]]:
-        """Case dictionaries (contract section 1): sweep points x fluids x layouts, in that order."""
+    def cases(self) -> Iterator[Case]:
+        """Typed cases (:class:`Case`): sweep points x fluids x layouts, in that order."""
         base = self.base_case()
         cycle = {k: v for k, v in base["cycle"].items() if k != "layouts"}
         paths = list(self._sweep)
         axes = [_axis_values(self._sweep[p]) for p in paths]
         split = [tuple(p.split(".", 1)) for p in paths]
+        models = {name: getattr(self, "fluid_filter" if name == "fluids" else name) for name in _CASE_SECTIONS}
         for point in itertools.product(*axes):
             sections = {name: dict(base[name]) for name in _CASE_SECTIONS if name != "cycle"}
             sections["cycle"] = dict(cycle)
+            updates: dict[str, dict[str, Any]] = {}
             for (section, key), value in zip(split, point):
                 sections[section][key] = value
+                updates.setdefault(section, {})[key] = value
+            typed = {name: models[name].model_copy(update=updates[name]) if name in updates else models[name]
+                     for name in _CASE_SECTIONS}
             sweep = dict(zip(paths, point))
             for fluid in self._fluids:
                 for layout in self.cycle.layouts:
-                    case = {name: dict(sec) for name, sec in sections.items()}
-                    if case["source"].get("composition") is not None:
-                        case["source"]["composition"] = dict(case["source"]["composition"])
-                    case["cycle"]["layout"] = layout
-                    case["fluid"] = fluid
-                    case["layout"] = layout
-                    case["sweep"] = dict(sweep)
-                    yield case
+                    data = {name: dict(sec) for name, sec in sections.items()}
+                    if data["source"].get("composition") is not None:
+                        data["source"]["composition"] = dict(data["source"]["composition"])
+                    data["cycle"]["layout"] = layout
+                    data["fluid"] = fluid
+                    data["layout"] = layout
+                    data["sweep"] = dict(sweep)
+                    yield Case(fluid=fluid, layout=layout, sweep=dict(sweep), data=data, **typed)
+
+
+@dataclasses.dataclass(frozen=True)
+class Case:
+    """One case: a fluid and a layout at one operating point, with the study's validated sections
+    (sweep values applied) as typed, frozen section models. This is what travels from the study
+    to the engine (:func:`orcscreen.api.run_case`). :meth:`as_dict` is its canonical plain form
+    (case keys and the store); :meth:`from_dict` validates such a form back into a Case.
+    """
+
+    fluid: str
+    layout: str
+    sweep: dict[str, Any]
+    study: StudySection
+    source: SourceSection
+    sink: SinkSection
+    exchangers: ExchangersSection
+    machines: MachinesSection
+    limits: LimitsSection
+    cycle: CycleSection
+    data: dict[str, Any] = dataclasses.field(repr=False, compare=False, default_factory=dict)
+
+    def as_dict(self) -> dict[str, Any]:
+        """Plain JSON-able form: the sections (cycle with "layout" instead of "layouts"), the
+        fluid, the layout and the sweep values."""
+        if self.data:
+            return self.data
+        out = {name: getattr(self, name).model_dump(mode="python") for name in _CASE_SECTIONS}
+        out["cycle"].pop("layouts", None)
+        out["cycle"]["layout"] = self.layout
+        out.update(fluid=self.fluid, layout=self.layout, sweep=dict(self.sweep))
+        return out
+
+    @classmethod
+    def from_dict(cls, d: Mapping[str, Any], origin: str = "<case>") -> Case:
+        """Validate a case's plain form (see :meth:`as_dict`; missing sections take their
+        defaults); raise :class:`StudyError` on bad input."""
+        if isinstance(d, Case):
+            return d
+        if not isinstance(d, Mapping):
+            raise StudyError(f"{origin}: a case must be a table, not {_type_name(d)}")
+        layout = d.get("layout") or (d.get("cycle") or {}).get("layout")
+        sections: dict[str, Any] = {}
+        errors: list[str] = []
+        for name in _CASE_SECTIONS:
+            raw = dict(d.get(name) or {})
+            if name == "cycle":
+                raw.pop("layout", None)
+                raw["layouts"] = [layout]
+            try:
+                sections[name] = _SECTION_MODELS[name].model_validate(raw)
+            except ValidationError as exc:
+                errors.extend(_format_validation_errors(exc, origin, prefix=f"{name}."))
+        if errors:
+            raise StudyError(errors)
+        return cls(fluid=str(d.get("fluid")), layout=str(layout), sweep=dict(d.get("sweep") or {}), **sections)
 
 
 # ---------------------------------------------------------------------------------------------
@@ -1398,7 +1478,7 @@ def _canonical(obj: Any) -> str:
     return json.dumps(obj, sort_keys=True, separators=(",", ":"), ensure_ascii=True, allow_nan=False)
 
 
-def case_key(case: Mapping[str, Any]) -> str:
+def case_key(case: Case | Mapping[str, Any]) -> str:
     """Stable key of a case: first 16 hex digits of sha256 over its canonical JSON and versions.
 
     Every input is covered except the study name and the case time limit (neither changes the
@@ -1407,7 +1487,7 @@ def case_key(case: Mapping[str, Any]) -> str:
     under another sweep shape would carry stale sweep columns. Extending a sweep axis keeps the
     keys of the points already computed.
     """
-    body = dict(case)
+    body = dict(case.as_dict() if isinstance(case, Case) else case)
     if isinstance(body.get("study"), Mapping):
         body["study"] = {k: v for k, v in body["study"].items() if k not in ("name", "case_time_limit_s")}
     text = _canonical({"case": body, "versions": _versions()})

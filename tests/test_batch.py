@@ -170,9 +170,9 @@ def test_cluster_without_dask_is_a_clear_error(reference, tmp_path, monkeypatch)
 
 def _engine_double(real, raise_for="IsoButane", hang_for="n-Pentane"):
     def run_case(case):
-        if case["fluid"] == raise_for:
+        if case.fluid == raise_for:
             raise RuntimeError("deliberate failure for the test")
-        if case["fluid"] == hang_for:
+        if case.fluid == hang_for:
             while True:  # never returns: only the time limit ends it
                 time.sleep(0.01)
         return real(case)

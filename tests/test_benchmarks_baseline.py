@@ -20,9 +20,8 @@ from pathlib import Path
 import pytest
 
 from orcscreen import fluids, streams
-from orcscreen.api import settings_from_case
-from orcscreen.cycle import LAYOUTS, evaluate
-from orcscreen.properties import get_fluid
+from orcscreen.api import case_context
+from orcscreen.cycles import LAYOUTS
 from orcscreen.study import study_from_dict
 
 BENCH = Path(__file__).resolve().parent.parent / "benchmarks"
@@ -57,14 +56,10 @@ def _case(fluid, layout, superheat_K=0.0, min_outlet_C=None):
 
 
 def _both(case, T_evap_C):
-    info = fluids.get_info(case["fluid"])
-    fluid = get_fluid(info.coolprop_name)
-    source = streams.source_from_settings(case["source"])
-    sink = streams.sink_from_settings(case["sink"])
-    settings = settings_from_case(case, info)
+    info = fluids.get_info(case.fluid)
     T = T_evap_C + 273.15
-    r = evaluate(fluid, source, sink, settings, LAYOUTS[case["layout"]], T, case["cycle"]["superheat_K"], exact=True)
-    b = baseline.evaluate(baseline.inputs_from_case(case, info.coolprop_name, info.max_temperature_C), T)
+    r = LAYOUTS[case.layout].evaluate(case_context(case, info), {"evaporation_temperature_K": T}, exact=True)
+    b = baseline.evaluate(baseline.inputs_from_case(case.as_dict(), info.coolprop_name, info.max_temperature_C), T)
     return r, b
 
 

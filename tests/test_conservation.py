@@ -29,7 +29,7 @@ def demo_results():
     for case in study.cases():
         res = run_case(case)
         if res["row"]["status"] == "ok":
-            out.append((case, res["row"], res["detail"]))
+            out.append((case.as_dict(), res["row"], res["detail"]))
     assert len(out) >= 30, "the demo study should have at least 30 feasible cases"
     return out
 

@@ -15,9 +15,15 @@ import math
 
 import pytest
 
-from orcscreen.cycle import LAYOUTS, CycleSettings, evaluate
+from orcscreen.cycles import LAYOUTS, CycleContext, CycleSettings
 from orcscreen.properties import get_fluid
 from orcscreen.turbine import ConstantEfficiency
+
+def evaluate(fluid, source, sink, settings, layout, T_evap_K, superheat_K, **kw):
+    """One subcritical cycle at an evaporation temperature [K] and superheat [K]."""
+    return layout.evaluate(CycleContext(fluid, source, sink, settings),
+                           {"evaporation_temperature_K": T_evap_K, "superheat_K": superheat_K}, **kw)
+
 
 P_EVAP_PA = 8.0e6
 P_COND_PA = 0.008e6

@@ -13,10 +13,10 @@ import numpy as np
 import pytest
 
 from orcscreen import fluids, streams
-from orcscreen.api import run_case, settings_from_case
-from orcscreen.cycle import LAYOUTS, evaluate
-from orcscreen.optimize import evaporation_window_K, optimise
-from orcscreen.properties import get_fluid
+from orcscreen.api import case_context, run_case
+from orcscreen.cycles import LAYOUTS
+from orcscreen.cycles.subcritical import evaporation_window
+from orcscreen.optimize import optimise
 from orcscreen.study import load_study, study_from_dict
 
 STUDIES = Path(__file__).resolve().parent.parent / "studies"
@@ -24,52 +24,50 @@ N_GRID = 1000
 TOLERANCE = 5e-4
 
 
-def _grid(fluid, source, sink, settings, layout, superheat_K, grid, exact):
+def evaluate(ctx, layout, T_evap_K, superheat_K, **kw):
+    return layout.evaluate(ctx, {"evaporation_temperature_K": T_evap_K, "superheat_K": superheat_K}, **kw)
+
+
+def _grid(ctx, layout, superheat_K, grid, exact):
     W = np.full(len(grid), -np.inf)
     guess = None
     for i, T in enumerate(grid):
-        r = evaluate(fluid, source, sink, settings, layout, float(T), superheat_K, exact=exact, T_cond_guess_K=guess)
+        r = evaluate(ctx, layout, float(T), superheat_K, exact=exact, T_cond_guess_K=guess)
         if r.ok:
             W[i] = r.W_net_W
             guess = r.T_cond_K
     return W
 
 
-def grid_optimum_W(fluid, source, sink, settings, layout, superheat_K, n=N_GRID):
+def grid_optimum_W(ctx, layout, superheat_K, n=N_GRID):
     """Best net power [W] of a dense grid of evaporation temperatures, refined locally.
 
     The grid runs on the closed-form model (fast); where that model and the discretised one
     (what is reported) disagree at the grid's best point, the whole grid is redone on the
     discretised model, so the reference is always the reported model.
     """
-    T_lo, T_hi, _ = evaporation_window_K(fluid, source, sink, settings, superheat_K)
-    grid = np.linspace(T_lo, T_hi, n)
-    W = _grid(fluid, source, sink, settings, layout, superheat_K, grid, exact=False)
+    w = evaporation_window(ctx, superheat_K)
+    grid = np.linspace(w.lo, w.hi, n)
+    W = _grid(ctx, layout, superheat_K, grid, exact=False)
     i = int(np.argmax(W))
     if not np.isfinite(W[i]):
         return -np.inf
-    r = evaluate(fluid, source, sink, settings, layout, float(grid[i]), superheat_K, exact=True)
+    r = evaluate(ctx, layout, float(grid[i]), superheat_K, exact=True)
     if not r.ok or abs(r.W_net_W - W[i]) > 1e-6 * W[i]:
-        W = _grid(fluid, source, sink, settings, layout, superheat_K, grid, exact=True)
+        W = _grid(ctx, layout, superheat_K, grid, exact=True)
         i = int(np.argmax(W))
     fine = np.linspace(grid[max(i - 1, 0)], grid[min(i + 1, n - 1)], 41)
     best = -np.inf
     for T in fine:
-        r = evaluate(fluid, source, sink, settings, layout, float(T), superheat_K, exact=True)
+        r = evaluate(ctx, layout, float(T), superheat_K, exact=True)
         if r.ok:
             best = max(best, r.W_net_W)
     return best
 
 
 def _case_objects(case):
-    info = fluids.get_info(case["fluid"])
-    return (
-        get_fluid(info.coolprop_name),
-        streams.source_from_settings(case["source"]),
-        streams.sink_from_settings(case["sink"]),
-        settings_from_case(case, info),
-        LAYOUTS[case["layout"]],
-    )
+    """(context, layout) of a typed case, as the engine builds them."""
+    return case_context(case, fluids.get_info(case.fluid)), LAYOUTS[case.layout]
 
 
 @pytest.mark.parametrize("name", ["demo", "geothermal-brine", "kiln-exhaust", "engine-jacket-water"])
@@ -84,8 +82,8 @@ def test_optimiser_matches_dense_grid(name):
         assert row["status"] != "failed", (row["fluid"], row["layout"], row.get("reason"))
         if row["status"] != "ok":
             continue
-        fluid, source, sink, settings, layout = _case_objects(case)
-        W_grid = grid_optimum_W(fluid, source, sink, settings, layout, case["cycle"]["superheat_K"])
+        ctx, layout = _case_objects(case)
+        W_grid = grid_optimum_W(ctx, layout, case.cycle.superheat_K)
         W_opt = row["net_power_kW"] * 1e3
         shortfall = (W_grid - W_opt) / W_grid
         worst = max(worst, shortfall)
@@ -119,11 +117,11 @@ def test_optimised_superheat_matches_grid():
     }
     study = study_from_dict(base)
     for case in study.cases():
-        fluid, source, sink, settings, layout = _case_objects(case)
-        opt = optimise(fluid, source, sink, settings, layout, "optimise", 25.0)
+        ctx, layout = _case_objects(case)
+        opt = optimise(layout, ctx)
         assert not isinstance(opt, tuple), opt
-        best = max(grid_optimum_W(fluid, source, sink, settings, layout, float(sh), n=200) for sh in np.linspace(0.0, 25.0, 26))
-        assert opt.cycle.W_net_W >= best * (1.0 - TOLERANCE), (case["fluid"], opt.cycle.W_net_W, best)
+        best = max(grid_optimum_W(ctx, layout, float(sh), n=200) for sh in np.linspace(0.0, 25.0, 26))
+        assert opt.cycle.W_net_W >= best * (1.0 - TOLERANCE), (case.fluid, opt.cycle.W_net_W, best)
 
 
 def test_infeasible_case_has_a_reason():
@@ -139,7 +137,7 @@ def test_infeasible_case_has_a_reason():
             "cycle": {"layouts": ["basic"]},
         }
     )
-    (case,) = list(study.cases())
+    (case,) = [c.as_dict() for c in study.cases()]
     case["source"]["inlet_temperature_C"] = 45.0
     row = run_case(case)["row"]
     assert row["status"] == "infeasible"

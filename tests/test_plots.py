@@ -44,7 +44,7 @@ def _run(study: dict) -> tuple[pd.DataFrame, dict]:
     rows, details = [], {}
     for n, case in enumerate(study_from_dict(study).cases()):
         result = run_case(case)
-        row = {"case_key": f"case-{n}", **case["sweep"], **result["row"]}
+        row = {"case_key": f"case-{n}", **case.sweep, **result["row"]}
         rows.append(row)
         details[row["case_key"]] = result["detail"]
     return pd.DataFrame(rows), details
@@ -281,13 +281,14 @@ def test_landscape_marks_the_optimum_and_its_binding_limit(run):
     for i, (row, detail) in enumerate(cases):
         opt = detail["optimum"]
         star = _by_gid(ax.lines, f"optimum-{i}")
-        assert star.get_xdata()[0] == pytest.approx(opt["evaporation_temperature_C"])
+        assert star.get_xdata()[0] == pytest.approx(opt["x"])
+        assert opt["variable"] == "evaporation temperature"
         assert star.get_ydata()[0] == pytest.approx(opt["net_power_kW"])
         assert opt["net_power_kW"] == pytest.approx(row["net_power_kW"])
         limit = opt["binding_limit"] or "none (interior optimum)"
         assert f"limit: {limit}" in legend[i]
         scan = _by_gid(ax.lines, f"scan-{i}")
-        t = np.asarray(detail["landscape"]["evaporation_temperature_C"], dtype=float)
+        t = np.asarray(detail["landscape"]["x"], dtype=float)
         assert sorted(scan.get_xdata()) == pytest.approx(sorted(t))
     _assert_units(ax)
 

@@ -40,7 +40,7 @@ def _small_run(out: Path) -> Path:
     study = study_from_dict(STUDY)
     run_study(study, out, jobs=1, progress=False)
     # one failed case, recorded as the batch records a case that raised
-    case = {**next(study.cases()), "fluid": "Toluene"}
+    case = {**next(study.cases()).as_dict(), "fluid": "Toluene"}
     with RunStore(out) as store:
         store.put(case_key(case), len(store),
                   {"row": failed_row(case, FAILED_REASON), "detail": None})

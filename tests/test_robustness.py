@@ -124,7 +124,8 @@ _KILLER = textwrap.dedent("""
     real = api.run_case
 
     def killing_engine(case):  # the case kills the process that runs it, as a fault in C would
-        if case["fluid"] == "IsoButane" and case["layout"] == "basic":
+        plain = case.as_dict() if hasattr(case, "as_dict") else case  # a typed or a plain case
+        if plain["fluid"] == "IsoButane" and plain["layout"] == "basic":
             os.kill(os.getpid(), signal.SIGKILL)
         return real(case)
 

@@ -25,8 +25,9 @@ TWO = {"include": ["R245fa", "n-Pentane"]}
 
 
 def make(**sections):
-    """A study dict with a hot-water source and two fluids unless the caller says otherwise."""
-    d = {"source": dict(SOURCE), "fluids": dict(TWO)}
+    """A study dict with a hot-water source, two fluids and the two subcritical layouts unless the
+    caller says otherwise."""
+    d = {"source": dict(SOURCE), "fluids": dict(TWO), "cycle": {"layouts": ["basic", "recuperated"]}}
     d.update(sections)
     return study_from_dict(d, origin="t.toml")
 
@@ -55,18 +56,18 @@ CONTRACT_DEFAULTS = {
              "pressure_bar": 2.0, "aux_power_per_kW_rejected": 0.0},
     "exchangers": {"pinch_evaporator_K": 10.0, "pinch_condenser_K": 5.0, "pinch_recuperator_K": 10.0,
                    "recuperator_effectiveness": 0.8},
-    "machines": {"turbine_efficiency": 0.80, "pump_efficiency": 0.70, "generator_efficiency": 1.0,
-                 "motor_efficiency": 1.0},
-    "limits": {"max_pressure_bar": None, "max_reduced_pressure": 0.9, "min_turbine_outlet_quality": 0.9,
-               "min_condensing_pressure_bar": None},
-    "cycle": {"superheat_K": 0.0, "max_superheat_K": 50.0, "subcooling_K": 0.0},
+    "machines": {"turbine_model": "constant", "turbine_efficiency": 0.80, "pump_efficiency": 0.70,
+                 "generator_efficiency": 1.0, "motor_efficiency": 1.0},
+    "limits": {"max_pressure_bar": None, "max_reduced_pressure": 0.9, "max_supercritical_reduced_pressure": 1.3,
+               "min_turbine_outlet_quality": 0.9, "min_condensing_pressure_bar": None},
+    "cycle": {"superheat_K": 0.0, "max_superheat_K": 50.0, "subcooling_K": 0.0, "reheat_temperature_C": None},
 }
 
 
 def test_every_default_of_the_contract_is_filled_in_the_case():
     s = study_from_dict({"source": SOURCE, "fluids": {"include": ["R245fa"]}})
-    cases = list(s.cases())
-    assert [c["layout"] for c in cases] == ["basic", "recuperated"]  # default layouts
+    cases = [c.as_dict() for c in s.cases()]
+    assert [c["layout"] for c in cases] == ["basic", "recuperated", "transcritical"]  # default layouts
     case = cases[0]
     assert set(case) == {"study", "source", "sink", "exchangers", "machines", "limits", "cycle",
                          "fluid", "layout", "sweep"}
@@ -123,7 +124,7 @@ def test_single_strings_stand_for_lists_and_optimize_spelling():
 
 def test_layouts_of_the_schema_are_the_engines_layouts():
     """The study's allowed layouts must be the engine's registry (one registry, no drift)."""
-    from orcscreen.cycle import LAYOUTS
+    from orcscreen.cycles import LAYOUTS
 
     assert set(st.LAYOUTS) == set(LAYOUTS)
 
@@ -211,8 +212,8 @@ def test_quoted_nested_and_dotted_forms_give_the_same_cases(tmp_path):
 
 def test_case_order_is_sweeps_in_file_order_then_fluids_then_layouts():
     s = study_from_dict(tomllib.loads(QUOTED))
-    got = [(c["sweep"]["source.inlet_temperature_C"], c["sweep"]["sink.inlet_temperature_C"],
-            c["fluid"], c["layout"]) for c in s.cases()]
+    got = [(c.sweep["source.inlet_temperature_C"], c.sweep["sink.inlet_temperature_C"],
+            c.fluid, c.layout) for c in s.cases()]
     fluids = [i.coolprop_name for i in fluid_catalogue.select(include=["R245fa", "n-Pentane"])]
     expected = [(t, k, f, lay) for t in (120.0, 130.0, 140.0) for k in (15.0, 25.0)
                 for f in fluids for lay in ("recuperated", "basic")]
@@ -225,8 +226,12 @@ def test_case_order_is_sweeps_in_file_order_then_fluids_then_layouts():
 def test_sweep_values_are_applied_to_the_sections():
     s = study_from_dict(tomllib.loads(QUOTED))
     for c in s.cases():
-        assert c["source"]["inlet_temperature_C"] == c["sweep"]["source.inlet_temperature_C"]
-        assert c["sink"]["inlet_temperature_C"] == c["sweep"]["sink.inlet_temperature_C"]
+        # both the typed sections and the plain form carry the swept values
+        assert c.source.inlet_temperature_C == c.sweep["source.inlet_temperature_C"]
+        assert c.sink.inlet_temperature_C == c.sweep["sink.inlet_temperature_C"]
+        d = c.as_dict()
+        assert d["source"]["inlet_temperature_C"] == d["sweep"]["source.inlet_temperature_C"]
+        assert d["sink"]["inlet_temperature_C"] == d["sweep"]["sink.inlet_temperature_C"]
 
 
 def test_case_expansion_is_deterministic():
@@ -238,7 +243,7 @@ def test_case_expansion_is_deterministic():
 
 def test_cases_do_not_share_mutable_sections():
     s = make(source={"kind": "flue-gas", "inlet_temperature_C": 300, "mass_flow_kg_s": 5})
-    first, second = list(s.cases())[:2]
+    first, second = [c.as_dict() for c in list(s.cases())[:2]]
     first["source"]["composition"]["N2"] = 0.0
     first["cycle"]["subcooling_K"] = 99.0
     assert second["source"]["composition"]["N2"] > 0.5
@@ -276,7 +281,7 @@ def test_case_key_is_16_hex_and_stable_across_loads_and_int_float_spelling():
     ("cycle", "subcooling_K", 2.0),
 ])
 def test_case_key_changes_with_any_input(section, key, value):
-    base = list(make().cases())[0]
+    base = list(make().cases())[0].as_dict()
     changed = json.loads(json.dumps(base))
     changed[section][key] = value
     assert case_key(changed) != case_key(base)
@@ -311,8 +316,8 @@ def test_extending_a_sweep_keeps_the_keys_of_computed_points():
 def test_a_case_under_another_sweep_shape_gets_its_own_key():
     # the same physics as a single point and as a point of a sweep: the stored sweep columns
     # differ, so the keys must differ too
-    single = list(make().cases())[0]
-    swept = list(make(sweep={"source.inlet_temperature_C": [130]}).cases())[0]
+    single = list(make().cases())[0].as_dict()
+    swept = list(make(sweep={"source.inlet_temperature_C": [130]}).cases())[0].as_dict()
     assert swept["sweep"] == {"source.inlet_temperature_C": 130.0}
     assert {k: v for k, v in swept.items() if k != "sweep"} == {k: v for k, v in single.items() if k != "sweep"}
     assert case_key(swept) != case_key(single)
@@ -568,4 +573,4 @@ def test_swept_source_keys_must_apply_to_the_kind():
     assert 'sweep."source.cp_kJ_kgK"' in msg and "only for kind brine or thermal-oil" in msg
     s = make(source={"kind": "brine", "inlet_temperature_C": 130, "mass_flow_kg_s": 10},
              sweep={"source.cp_kJ_kgK": [3.5, 4.0]})
-    assert [c["source"]["cp_kJ_kgK"] for c in s.cases()][::4] == [3.5, 4.0]
+    assert [c.source.cp_kJ_kgK for c in s.cases()][::4] == [3.5, 4.0]

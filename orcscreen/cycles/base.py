@@ -1,0 +1,387 @@
+"""What every cycle layout shares: settings, result, free variables, the Layout base, machines.
+
+A layout (one module per family in this package, registered in ``cycles.LAYOUTS``) declares
+
+* its free variables (:class:`Variable`, innermost first) and their bounds for the case at hand
+  (:meth:`Layout.window`), which the optimiser searches;
+* how it evaluates (:meth:`Layout.evaluate`): its states, its exchangers and its figures, as a
+  :class:`CycleResult`, or an infeasible result with the reason in plain words;
+* its state labels (in cycle order) for tables and the T-s chart, and its T-s path;
+* the limits that apply to it, its exchangers and the output columns it fills.
+
+Everything else (study validation, JSON Schema, optimiser, output columns, charts, report)
+reads these declarations: a new layout is one module plus its registration.
+
+Machines (DESIGN section 3): pump h2 = h1 + (h2s - h1)/eta_pump; turbine h4 = h3 - eta_t (h3 - h4s),
+eta_t from the turbine model object (:mod:`orcscreen.turbine`). Units: SI inside (K, Pa, J/kg, W).
+Source: the vapour power cycle with isentropic efficiencies, e.g. Moran, Shapiro, Boettner,
+Bailey, *Fundamentals of Engineering Thermodynamics*, 8th ed., Wiley 2014, chapter 8.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Mapping
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from ..paths import flash_ph, state_from_ph, two_phase_state
+from ..states import CycleInfeasible, SatPoint, State
+from ..turbine import ConstantEfficiency, TurbineModel
+
+__all__ = [
+    "CycleSettings",
+    "CycleContext",
+    "CycleResult",
+    "CycleInfeasible",
+    "Variable",
+    "Window",
+    "Layout",
+    "pump",
+    "expand",
+    "reset_guesses",
+    "condensing_floor_K",
+    "infeasible",
+    "P_ATM_PA",
+]
+
+P_ATM_PA = 101325.0
+
+
+@dataclass(frozen=True)
+class CycleSettings:
+    """Settings of one cycle evaluation, SI units (see DESIGN section 3 for the defaults).
+
+    superheat_K: a fixed turbine-inlet superheat of the subcritical layouts [K], or None to
+    optimise it in [0, max_superheat_K]. reheat_temperature_K: reheater outlet [K], None for the
+    turbine inlet temperature (common practice). max_supercritical_reduced_pressure: highest
+    heater pressure of a transcritical cycle over the critical pressure.
+    """
+
+    pinch_evaporator_K: float = 10.0
+    pinch_condenser_K: float = 5.0
+    pinch_recuperator_K: float = 10.0
+    recuperator_effectiveness: float = 0.8
+    pump_efficiency: float = 0.7
+    turbine: TurbineModel = field(default_factory=lambda: ConstantEfficiency(0.8))
+    generator_efficiency: float = 1.0
+    motor_efficiency: float = 1.0
+    aux_power_per_W_rejected: float = 0.0
+    max_pressure_Pa: float | None = None
+    max_reduced_pressure: float = 0.9
+    max_supercritical_reduced_pressure: float = 1.3
+    min_turbine_outlet_quality: float = 0.9
+    min_condensing_pressure_Pa: float | None = None
+    subcooling_K: float = 0.0
+    superheat_K: float | None = 0.0
+    max_superheat_K: float = 50.0
+    reheat_temperature_K: float | None = None
+    max_turbine_inlet_temperature_K: float | None = None
+    n_zone_segments: int = 20
+
+    def max_evaporation_pressure_Pa(self, fluid) -> float:
+        """Highest allowed subcritical evaporation pressure [Pa]: min(p_max, r_max p_crit)."""
+        p = self.max_reduced_pressure * fluid.p_crit_Pa
+        if self.max_pressure_Pa is not None:
+            p = min(p, self.max_pressure_Pa)
+        return p
+
+    def max_heater_pressure_Pa(self, fluid) -> tuple[float, str]:
+        """Highest allowed supercritical heater pressure [Pa] and the name of the limit that sets it."""
+        p = self.max_supercritical_reduced_pressure * fluid.p_crit_Pa
+        if self.max_pressure_Pa is not None and self.max_pressure_Pa < p:
+            return self.max_pressure_Pa, "max pressure"
+        return p, "max supercritical reduced pressure"
+
+
+@dataclass(frozen=True)
+class CycleContext:
+    """One case's fixed inputs: the working fluid, the source and sink streams (either may be
+    None when a by-hand evaluation fixes the flow or the condensing temperature) and settings."""
+
+    fluid: object
+    source: object
+    sink: object
+    settings: CycleSettings
+
+
+@dataclass(frozen=True)
+class Variable:
+    """A free variable of a layout, as the optimiser sees it.
+
+    name: key in the variables mapping, SI unit in the name; label: words for charts; unit: the
+    display unit of its column; scale, offset: display value = SI value * scale + offset;
+    scan_points: points of the bracketing scan; xatol: tolerance of the refinement [SI];
+    near_half_width: half width [SI] of the warm-started bracket when an outer variable moves;
+    near_min_width: a warm-started bracket narrower than this [SI] uses the full search instead;
+    scan_from_top: as an outer variable, scan from the top of its window down, each point's inner
+    optimum warm-started from the point above (one full inner search instead of one per point).
+    """
+
+    name: str
+    label: str
+    unit: str
+    scale: float = 1.0
+    offset: float = 0.0
+    scan_points: int = 10
+    xatol: float = 2e-3
+    near_half_width: float = 3.0
+    near_min_width: float = 1.0
+    scan_from_top: bool = False
+
+    def display(self, value: float) -> float:
+        return value * self.scale + self.offset
+
+
+@dataclass(frozen=True)
+class Window:
+    """Bounds of one variable [SI] for the case and the outer variables, with the names of the
+    limits that set them (reported as the binding limit when the optimum sits on one)."""
+
+    lo: float
+    hi: float
+    lo_name: str
+    hi_name: str
+
+
+@dataclass(frozen=True)
+class CycleResult:
+    """Everything one cycle evaluation produced. Powers [W], flows [kg/s], temperatures [K].
+
+    T_evap_K and superheat_K are NaN for a supercritical heater; p_evap_Pa is the highest cycle
+    pressure (the evaporator's, or the supercritical heater's). figures holds the layout's own
+    figures, in the units of their output columns (e.g. bleed_fraction, reheat_pressure_bar).
+    """
+
+    status: str  # "ok" or "infeasible"
+    reason: str = ""
+    limit: str = ""  # the limit that was broken (infeasible) or that sets the flow
+    layout: str = ""
+    variables: dict = field(default_factory=dict)
+    T_evap_K: float = math.nan
+    p_evap_Pa: float = math.nan
+    superheat_K: float = math.nan
+    T_cond_K: float = math.nan
+    p_cond_Pa: float = math.nan
+    states: dict = field(default_factory=dict)
+    m_wf_kg_s: float = math.nan
+    m_sink_kg_s: float = math.nan
+    W_turbine_W: float = math.nan
+    W_pump_W: float = math.nan
+    W_aux_W: float = math.nan
+    W_net_W: float = -math.inf
+    Q_in_W: float = math.nan
+    Q_out_W: float = math.nan
+    Q_rec_W: float = 0.0
+    T_source_out_K: float = math.nan
+    pinch_location: str = ""
+    eta_turbine: float = math.nan
+    size_parameter_m: float = math.nan
+    volume_ratio: float = math.nan
+    turbine_inlet: str = "3"  # state keys of the turbine inlet and of its (last) outlet
+    turbine_outlet: str = "4"
+    figures: dict = field(default_factory=dict)
+    profiles: dict = field(default_factory=dict)
+    margin: float = math.nan  # infeasible: signed distance to the broken limit, if it has one
+
+    @property
+    def ok(self) -> bool:
+        return self.status == "ok"
+
+    @property
+    def turbine_outlet_quality(self) -> float:
+        """Vapour quality at the (last) turbine outlet; NaN when it is superheated or unknown."""
+        st = self.states.get(self.turbine_outlet)
+        return math.nan if st is None else st.q
+
+
+def infeasible(limit: str, reason: str, margin: float = math.nan, **known) -> CycleResult:
+    """An infeasible result with the broken limit, the reason and what is known of the point."""
+    return CycleResult(status="infeasible", reason=reason, limit=limit, margin=margin, **known)
+
+
+def C(T_K: float) -> str:
+    """A temperature [K] in words, in °C."""
+    return f"{T_K - 273.15:.1f} °C"
+
+
+class Layout:
+    """Base of every cycle layout (module docstring). Subclasses set the class attributes and
+    implement variables, window, evaluate and ts_path."""
+
+    name: str = ""
+    description: str = ""
+    #: state keys in cycle order -> words (tables, T-s chart)
+    state_labels: Mapping[str, str] = {}
+    #: the limits that apply to the layout, in words (documentation and the report)
+    limits: tuple[str, ...] = ()
+    #: the exchangers it has, named as in CycleResult.profiles
+    exchangers: tuple[str, ...] = ()
+    #: output columns of its own (besides the common ones), filled from CycleResult.figures
+    columns: tuple[str, ...] = ()
+    #: a supercritical heater (no evaporation plateau)
+    supercritical: bool = False
+
+    def variables(self, ctx: CycleContext) -> tuple[Variable, ...]:
+        """The free variables for this case, innermost (searched most often) first."""
+        raise NotImplementedError
+
+    def window(self, ctx: CycleContext, name: str, outer: Mapping[str, float]) -> Window:
+        """Bounds of variable name given the values of the variables outside it."""
+        raise NotImplementedError
+
+    def evaluate(self, ctx: CycleContext, x: Mapping[str, float], exact: bool = True, T_cond_guess_K: float | None = None,
+                 cond_tol_K: float | None = None, T_cond_K: float | None = None, m_wf_kg_s: float | None = None) -> CycleResult:
+        """One cycle at the free variables x (SI, by name). exact: check every pinch on the
+        discretised profiles (what is reported); else on closed-form candidates (the search).
+        T_cond_K fixes the condensing temperature (the sink may be None), m_wf_kg_s the
+        working-fluid flow (the source may be None): for exploring by hand."""
+        raise NotImplementedError
+
+    def ts_path(self, fluid, r: CycleResult) -> tuple[list[float], list[float]]:
+        """Closed path (s [J/(kg K)], T [K]) of an evaluated cycle through its states."""
+        raise NotImplementedError
+
+    def __repr__(self) -> str:
+        return f"<layout {self.name!r}>"
+
+
+# ---------------------------------------------------------------------------------------------
+# machines
+# ---------------------------------------------------------------------------------------------
+#: Last vapour cp [J/(kg K)] seen per fluid: the first guess of the expansion-outlet flash.
+#: Cleared at the start of every optimisation (:func:`reset_guesses`), so that a result does not
+#: depend, even in its last bits, on what the process computed before.
+_CP_VAPOUR_HINT: dict[str, float] = {}
+
+
+def reset_guesses() -> None:
+    """Forget the first guesses carried between evaluations (call at the start of a case)."""
+    _CP_VAPOUR_HINT.clear()
+
+
+def _superheated_ps(fluid, sat: SatPoint, s: float) -> State:
+    """Superheated vapour at the pressure of sat and entropy s (s > sV), phase-imposed Newton."""
+    cp = _CP_VAPOUR_HINT.get(fluid.name, 1000.0)
+    T0 = sat.T_K * math.exp((s - sat.sV) / cp)
+    st = fluid.state_ps(sat.p_Pa, s, "gas", T0, sat.vV * T0 / sat.T_K)
+    if not math.isnan(st.cp):
+        _CP_VAPOUR_HINT[fluid.name] = st.cp
+    return st
+
+
+def pump(fluid, st_in: State, p_out_Pa: float, efficiency: float) -> State:
+    """Pump outlet state: h2 = h1 + (h2s - h1) / eta, the liquid phase imposed (at any pressure
+    below or above the critical one, the pumped liquid stays below the critical temperature)."""
+    st2s = fluid.state_ps(p_out_Pa, st_in.s, "liquid", st_in.T_K, st_in.v)
+    h2 = st_in.h + (st2s.h - st_in.h) / efficiency
+    return flash_ph(fluid, p_out_Pa, h2, "liquid", st2s)
+
+
+@dataclass(frozen=True)
+class Expansion:
+    """One expansion: isentropic outlet st_out_s, actual outlet st_out, and the efficiency used."""
+
+    st_in: State
+    st_out_s: State
+    st_out: State
+    eta: float
+
+    @property
+    def dh_s(self) -> float:
+        return self.st_in.h - self.st_out_s.h
+
+
+def expand(fluid, st_in: State, sat_out: SatPoint, turbine: TurbineModel) -> Expansion:
+    """Expansion from st_in to the saturation pressure of sat_out (two-phase or superheated end)."""
+    if st_in.s <= sat_out.sV:
+        q4s = (st_in.s - sat_out.sL) / (sat_out.sV - sat_out.sL)
+        if q4s < 0.0:
+            raise CycleInfeasible("turbine outlet quality", "the expansion would end as a liquid", q4s)
+        st_s = two_phase_state(sat_out, sat_out.T_K, q4s)
+    else:
+        st_s = _superheated_ps(fluid, sat_out, st_in.s)
+    eta = turbine.efficiency(math.nan, st_s.v / st_in.v)
+    h_out = st_in.h - eta * (st_in.h - st_s.h)
+    st_out = state_from_ph(fluid, sat_out, h_out, st_s if h_out > sat_out.hV and math.isnan(st_s.q) else None)
+    return Expansion(st_in, st_s, st_out, eta)
+
+
+def condensing_floor_K(fluid, sink, s: CycleSettings) -> float:
+    """Lowest condensing temperature [K]: the sink inlet plus the condenser pinch (plus the
+    subcooling), the condensing-pressure floor if set, and the equation's lowest temperature.
+    A floor at or above the critical pressure leaves nothing to condense: infeasible."""
+    T_floor = sink.T_in_K + s.pinch_condenser_K + s.subcooling_K
+    if s.min_condensing_pressure_Pa is not None:
+        if s.min_condensing_pressure_Pa >= fluid.p_crit_Pa:
+            raise CycleInfeasible(
+                "min condensing pressure",
+                f"the condensing-pressure floor {s.min_condensing_pressure_Pa / 1e5:.4g} bar is not below the critical "
+                f"pressure of {fluid.name} ({fluid.p_crit_Pa / 1e5:.4g} bar): it cannot condense",
+            )
+        T_floor = max(T_floor, fluid.T_sat_floor_K(s.min_condensing_pressure_Pa))
+    return max(T_floor, fluid.T_min_K + s.subcooling_K + 0.01)
+
+
+def condenser_outlet(fluid, sat_c: SatPoint, subcooling_K: float) -> State:
+    """Condenser outlet: saturated liquid at the condensing pressure, or subcooled by subcooling_K."""
+    if subcooling_K > 0.0:
+        return fluid.state_pT(sat_c.p_Pa, sat_c.T_K - subcooling_K, "liquid")
+    return State(sat_c.T_K, sat_c.p_Pa, sat_c.hL, sat_c.sL, sat_c.vL, 0.0)
+
+
+# ---------------------------------------------------------------------------------------------
+# T-s chart helpers
+# ---------------------------------------------------------------------------------------------
+def isobar_ts(fluid, sat: SatPoint, h_from: float, h_to: float, n: int) -> tuple[list[float], list[float]]:
+    """(s, T) points along the subcritical isobar of sat's pressure from h_from to h_to (inclusive)."""
+    s_pts, T_pts = [], []
+    knots = [h_from, h_to]
+    for h_edge in (sat.hL, sat.hV):  # put the saturation corners on the path
+        if min(h_from, h_to) < h_edge < max(h_from, h_to):
+            knots.append(h_edge)
+    knots = sorted(knots, reverse=h_from > h_to)
+    for a, b in zip(knots[:-1], knots[1:]):
+        for h in np.linspace(a, b, n + 1)[:-1]:
+            st = state_from_ph(fluid, sat, float(h))
+            s_pts.append(st.s)
+            T_pts.append(st.T_K)
+    st = state_from_ph(fluid, sat, h_to)
+    s_pts.append(st.s)
+    T_pts.append(st.T_K)
+    return s_pts, T_pts
+
+
+def supercritical_isobar_ts(fluid, p_Pa: float, h_from: float, h_to: float, n: int) -> tuple[list[float], list[float]]:
+    """(s, T) points along an isobar above the critical pressure from h_from to h_to (inclusive)."""
+    s_pts, T_pts = [], []
+    for h in np.linspace(h_from, h_to, 3 * n + 1):
+        st = fluid.state_ph(p_Pa, float(h))
+        s_pts.append(st.s)
+        T_pts.append(st.T_K)
+    return s_pts, T_pts
+
+
+def saturation_dome(fluid, T_low_K: float, n: int = 60) -> tuple[list[float], list[float], list[float]]:
+    """Saturation dome: temperatures [K] and liquid and vapour entropies [J/(kg K)].
+
+    From T_low_K (not below the fluid's lowest temperature) to just below the critical point,
+    spaced more densely near the critical point.
+    """
+    from ..states import PropertyError
+
+    T_lo = max(T_low_K, fluid.T_min_K + 0.01)
+    T_top = fluid.T_crit_K * (1.0 - 1e-5)
+    u = np.linspace(0.0, 1.0, n)
+    T = T_lo + (T_top - T_lo) * (1.0 - (1.0 - u) ** 2)
+    T_ok, sL, sV = [], [], []
+    for t in T:
+        try:
+            sat = fluid.sat_T(float(t))
+        except PropertyError:  # some equations of state fail very close to the critical point
+            continue
+        T_ok.append(float(t))
+        sL.append(sat.sL)
+        sV.append(sat.sV)
+    return T_ok, sL, sV

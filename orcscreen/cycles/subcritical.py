@@ -1,0 +1,422 @@
+"""Subcritical layouts: basic (pump, evaporator, turbine, condenser) and recuperated.
+
+Free variables: the evaporation temperature, and the turbine-inlet superheat when the study asks
+to optimise it (else the superheat is fixed). States (DESIGN section 3): 1 condenser outlet,
+2 pump outlet, 2r recuperator cold-side outlet, 3 turbine inlet, 4 turbine outlet, 4r recuperator
+hot-side outlet (2r and 4r only in the recuperated layout).
+
+* evaporator (counter-current): the largest working-fluid flow with the source at least
+  pinch_evaporator_K above the working fluid everywhere and the source outlet not below its limit;
+* condenser (counter-current, sink with a fixed temperature rise): the lowest condensing
+  temperature with the working fluid at least pinch_condenser_K above the sink everywhere;
+* recuperator: duty eps * m (h4 - h(p4, T2)), reduced to respect pinch_recuperator_K; the cold
+  side stays liquid and the hot side vapour.
+
+Two accuracies: ``exact=False`` checks the pinch at the closed-form candidates only (cold end,
+bubble point, dew point, source outlet limit, with a slope test for a pinch inside the
+economiser or superheater) and is what the optimiser's scan uses; ``exact=True`` checks it on
+the discretised profiles of every exchanger (``n_zone_segments`` per zone), returns the
+profiles, and is what every reported result uses.
+
+Sources: the vapour power cycle with isentropic efficiencies, e.g. Moran, Shapiro, Boettner,
+Bailey, *Fundamentals of Engineering Thermodynamics*, 8th ed., Wiley 2014, chapter 8; the
+pinch-limited flow follows common practice for heat-recovery cycles (e.g. Quoilin et al., Renew.
+Sust. Energy Rev. 22 (2013) 168-186, doi:10.1016/j.rser.2013.01.028).
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Mapping
+from dataclasses import dataclass
+
+import numpy as np
+
+from ..exchangers import (
+    COND_TOL_FAST_K,
+    Profile,
+    condenser_approach,
+    heater_flow,
+    heater_profile,
+    recuperate,
+    refine_zone_pinch,
+    solve_condensing_temperature,
+)
+from ..paths import FluidPath, heating_path
+from ..states import CycleInfeasible, SatPoint, State
+from ..turbine import size_parameter_m, volume_ratio
+from .base import (
+    C,
+    CycleContext,
+    CycleResult,
+    Layout,
+    Variable,
+    Window,
+    condenser_outlet,
+    condensing_floor_K,
+    expand,
+    infeasible,
+    isobar_ts,
+    pump,
+)
+
+__all__ = ["Subcritical", "BASIC", "RECUPERATED", "EVAPORATION_TEMPERATURE", "SUPERHEAT", "evaporation_window"]
+
+#: The evaporation temperature as a free variable (scan of 10, refined to 2e-3 K).
+EVAPORATION_TEMPERATURE = Variable("evaporation_temperature_K", "evaporation temperature", "°C", offset=-273.15,
+                                   scan_points=10, xatol=2e-3, near_half_width=3.0, near_min_width=1.0)
+#: The turbine-inlet superheat as a free variable (scan of 6, refined to 0.1 K).
+SUPERHEAT = Variable("superheat_K", "superheat", "K", scan_points=6, xatol=0.1)
+
+
+@dataclass
+class ColdSide:
+    """Condenser outlet, pump, expansion and recuperator at one condensing temperature."""
+
+    T_cond_K: float
+    p_cond_Pa: float
+    sat: SatPoint
+    s1: State
+    s2: State
+    s4s: State
+    s4: State
+    eta_t: float
+    s2r: State
+    s4r: State
+    q_rec: float
+    recuperator_active: bool
+    rec_profile: Profile | None = None  # per unit mass flow (Q in J/kg), exact mode only
+    cond_check: tuple | None = None  # exact condenser approach, kept once computed
+
+    @property
+    def condenser_inlet(self) -> State:
+        return self.s4r
+
+    @property
+    def heater_inlet(self) -> State:
+        return self.s2r
+
+    @property
+    def turbine_outlet(self) -> State:
+        return self.s4
+
+    def w_turbine(self, st3: State) -> float:
+        """Turbine work per kg through the heater [J/kg]."""
+        return st3.h - self.s4.h
+
+    def w_pump(self) -> float:
+        """Pump work per kg through the heater [J/kg]."""
+        return self.s2.h - self.s1.h
+
+    def q_rejected(self) -> float:
+        """Heat rejected in the condenser per kg through the heater [J/kg]."""
+        return self.s4r.h - self.s1.h
+
+    #: flow through the condenser per kg through the heater [-]
+    condenser_share = 1.0
+
+    def turbine_figures(self, st3: State) -> tuple[State, State, float]:
+        """(inlet, isentropic outlet, outlet flow per kg through the heater) of the expansion
+        whose size parameter and volume ratio are reported."""
+        return st3, self.s4s, 1.0
+
+    def figures(self) -> dict:
+        """The layout's own output figures (column name -> value)."""
+        return {}
+
+
+def evaporation_window(ctx: CycleContext, superheat_K: float, supercritical_ok: bool = False) -> Window:
+    """Range of evaporation temperatures [K] worth searching at one superheat, and its limits.
+
+    Lower end: 1 K above the hottest condensing temperature the sink can need (sink outlet plus
+    pinch). Upper end: the smallest of the pressure limit (subcritical, DESIGN section 3), the
+    source inlet minus pinch and superheat (hot end), and the thermal-stability limit.
+    """
+    fluid, source, sink, s = ctx.fluid, ctx.source, ctx.sink, ctx.settings
+    T_lo = sink.T_out_K + s.pinch_condenser_K + 1.0
+    T_lo = max(T_lo, fluid.T_min_K + 1.0)
+    if s.min_condensing_pressure_Pa is not None and s.min_condensing_pressure_Pa < fluid.p_crit_Pa:
+        T_lo = max(T_lo, fluid.T_sat_floor_K(s.min_condensing_pressure_Pa) + 1.0)
+    p_lim = s.max_evaporation_pressure_Pa(fluid)
+    limits = [(fluid.T_sat_floor_K(p_lim), "max pressure" if s.max_pressure_Pa is not None and s.max_pressure_Pa < s.max_reduced_pressure * fluid.p_crit_Pa else "max reduced pressure")]
+    limits.append((source.T_in_K - s.pinch_evaporator_K - superheat_K, "hot-end approach"))
+    if s.max_turbine_inlet_temperature_K is not None:
+        limits.append((s.max_turbine_inlet_temperature_K - superheat_K, "thermal stability"))
+    T_hi, name = min(limits)
+    return Window(T_lo, T_hi, "lowest evaporation temperature", name)
+
+
+class Subcritical(Layout):
+    """Basic and recuperated subcritical layouts (module docstring)."""
+
+    limits = ("max pressure", "max reduced pressure", "thermal stability", "turbine outlet quality",
+              "min condensing pressure", "evaporator pinch", "condenser pinch", "source outlet limit")
+
+    def __init__(self, name: str, description: str, recuperator: bool):
+        self.name = name
+        self.description = description
+        self.recuperator = recuperator
+        keys = ("1", "2", "2r", "3", "4", "4r") if recuperator else ("1", "2", "3", "4")
+        self.state_labels = {k: _LABELS[k] for k in keys}
+        self.exchangers = ("evaporator", "condenser", "recuperator") if recuperator else ("evaporator", "condenser")
+        if recuperator:
+            self.limits = self.limits + ("recuperator pinch",)
+
+    # -- variables ----------------------------------------------------------------------
+    def variables(self, ctx: CycleContext) -> tuple[Variable, ...]:
+        if ctx.settings.superheat_K is None:
+            return (EVAPORATION_TEMPERATURE, SUPERHEAT)
+        return (EVAPORATION_TEMPERATURE,)
+
+    def window(self, ctx: CycleContext, name: str, outer: Mapping[str, float]) -> Window:
+        if name == SUPERHEAT.name:
+            return Window(0.0, ctx.settings.max_superheat_K, "no superheat", "max superheat")
+        return evaporation_window(ctx, self._superheat(ctx, outer))
+
+    @staticmethod
+    def _superheat(ctx: CycleContext, x: Mapping[str, float]) -> float:
+        sh = x.get(SUPERHEAT.name)
+        if sh is None:
+            sh = ctx.settings.superheat_K if ctx.settings.superheat_K is not None else 0.0
+        return float(sh)
+
+    # -- evaluation -----------------------------------------------------------------------
+    def evaluate(self, ctx, x, exact=True, T_cond_guess_K=None, cond_tol_K=None, T_cond_K=None, m_wf_kg_s=None):
+        T_evap_K = float(x[EVAPORATION_TEMPERATURE.name])
+        superheat_K = self._superheat(ctx, x)
+        known = {"layout": self.name, "variables": dict(x), "T_evap_K": T_evap_K, "superheat_K": superheat_K}
+        try:
+            return self._evaluate(ctx, x, T_evap_K, superheat_K, exact, T_cond_guess_K, known, T_cond_K, m_wf_kg_s,
+                                  COND_TOL_FAST_K if cond_tol_K is None else cond_tol_K)
+        except CycleInfeasible as exc:
+            return infeasible(exc.limit, exc.reason, exc.margin, **known)
+
+    def cold_side(self, ctx: CycleContext, x: Mapping[str, float], sat_e: SatPoint, st3: State, T_cond_K: float,
+                  exact: bool) -> ColdSide:
+        """Condenser outlet, pump, expansion and recuperator at condensing temperature T_cond_K [K]
+        (x: the free variables, for layouts whose cold side has some)."""
+        fluid, s = ctx.fluid, ctx.settings
+        sat_c = fluid.sat_T(T_cond_K)
+        st1 = condenser_outlet(fluid, sat_c, s.subcooling_K)
+        st2 = pump(fluid, st1, sat_e.p_Pa, s.pump_efficiency)
+        ex = expand(fluid, st3, sat_c, s.turbine)
+        st4 = ex.st_out
+        if self.recuperator:
+            q_rec, st2r, st4r, active, rec_prof = recuperate(fluid, sat_c, sat_e.p_Pa, st2, st4, s.pinch_recuperator_K,
+                                                             s.recuperator_effectiveness, s.n_zone_segments, exact, sat_e)
+        else:
+            q_rec, st2r, st4r, active, rec_prof = 0.0, st2, st4, False, None
+        return ColdSide(T_cond_K, sat_c.p_Pa, sat_c, st1, st2, ex.st_out_s, st4, ex.eta, st2r, st4r, q_rec, active, rec_prof)
+
+    def _evaluate(self, ctx, x, T_evap_K, superheat_K, exact, T_cond_guess_K, known, T_cond_fixed_K, m_wf_fixed, cond_tol_K) -> CycleResult:
+        fluid, source, sink, s = ctx.fluid, ctx.source, ctx.sink, ctx.settings
+        if T_evap_K >= fluid.T_crit_K:
+            raise CycleInfeasible("critical point", f"evaporation temperature {C(T_evap_K)} is not below the critical temperature of {fluid.name} ({C(fluid.T_crit_K)})")
+        sat_e = fluid.sat_T(T_evap_K)
+        p_lim = s.max_evaporation_pressure_Pa(fluid)
+        if sat_e.p_Pa > p_lim * (1.0 + 1e-9):
+            raise CycleInfeasible("max pressure", f"evaporation pressure {sat_e.p_Pa / 1e5:.2f} bar is above the limit {p_lim / 1e5:.2f} bar")
+        T3 = T_evap_K + superheat_K
+        if source is not None and T3 > source.T_in_K - s.pinch_evaporator_K + 1e-9:
+            raise CycleInfeasible("hot-end approach", f"turbine inlet {C(T3)} is closer than the evaporator pinch to the source inlet {C(source.T_in_K)}")
+        if s.max_turbine_inlet_temperature_K is not None and T3 > s.max_turbine_inlet_temperature_K + 1e-9:
+            raise CycleInfeasible("thermal stability", f"turbine inlet {C(T3)} is above the thermal-stability limit of {fluid.name} ({C(s.max_turbine_inlet_temperature_K)})")
+        if superheat_K > 1e-12:
+            st3 = fluid.state_pT(sat_e.p_Pa, T3, "gas")
+        else:
+            st3 = State(T_evap_K, sat_e.p_Pa, sat_e.hV, sat_e.sV, sat_e.vV, 1.0)
+
+        def cold_side(T, ex):
+            return self.cold_side(ctx, x, sat_e, st3, T, ex)
+
+        if T_cond_fixed_K is None:
+            cs = solve_condensing_temperature(fluid, sink, cold_side, s.pinch_condenser_K, condensing_floor_K(fluid, sink, s),
+                                              sat_e.T_K, s.n_zone_segments, exact, T_cond_guess_K, cond_tol_K)
+        else:
+            cs = cold_side(T_cond_fixed_K, exact)
+        known.update(T_cond_K=cs.T_cond_K, p_cond_Pa=cs.p_cond_Pa, p_evap_Pa=sat_e.p_Pa)
+        self._check_cold_side(ctx, sat_e, cs)
+
+        # evaporator: the largest flow that keeps the pinch and the source outlet limit
+        n = s.n_zone_segments
+        path, h_out, fast_interior = self.heater_path(ctx, sat_e, cs, st3, n, exact)
+        if m_wf_fixed is not None:
+            return self._fixed_flow_result(ctx, sat_e, cs, st3, m_wf_fixed, known)
+        hs_in = float(source.h_in_J_kg)
+        m_wf, location, path = heater_flow(path, h_out, source, s.pinch_evaporator_K, exact, fast_interior=fast_interior)
+        if not m_wf > 0.0:
+            raise CycleInfeasible("evaporator pinch", f"the source is too cold for evaporation at {C(T_evap_K)} with a {s.pinch_evaporator_K:g} K pinch")
+
+        q_in = h_out - path.h[0]
+        Q_in = m_wf * q_in
+        hs_out = hs_in - Q_in / source.m_kg_s
+        T_s_out = float(source.T_K(hs_out))
+        W_t = m_wf * cs.w_turbine(st3)
+        W_p = m_wf * cs.w_pump()
+        Q_out = m_wf * cs.q_rejected()
+        W_aux = s.aux_power_per_W_rejected * Q_out
+        W_net = s.generator_efficiency * W_t - W_p / s.motor_efficiency - W_aux
+        dh_sink = float(sink.h_J_kg(sink.T_out_K) - sink.h_in_J_kg)
+        st_t, st_ts, share = cs.turbine_figures(st3)
+        V4s = m_wf * share * st_ts.v if share != 1.0 else m_wf * st_ts.v
+        if W_net <= 0.0:
+            return infeasible("net power", f"net power {W_net / 1e3:.3g} kW is not positive", W_net, **known)
+        return CycleResult(
+            status="ok",
+            limit=location,
+            layout=self.name,
+            variables=known["variables"],
+            T_evap_K=T_evap_K,
+            p_evap_Pa=sat_e.p_Pa,
+            superheat_K=superheat_K,
+            T_cond_K=cs.T_cond_K,
+            p_cond_Pa=cs.p_cond_Pa,
+            states=self._state_table(cs, st3),
+            m_wf_kg_s=m_wf,
+            m_sink_kg_s=Q_out / dh_sink,
+            W_turbine_W=W_t,
+            W_pump_W=W_p,
+            W_aux_W=W_aux,
+            W_net_W=W_net,
+            Q_in_W=Q_in,
+            Q_out_W=Q_out,
+            Q_rec_W=m_wf * cs.q_rec,
+            T_source_out_K=T_s_out,
+            pinch_location=location,
+            eta_turbine=cs.eta_t,
+            size_parameter_m=size_parameter_m(V4s, st_t.h - st_ts.h),
+            volume_ratio=volume_ratio(st_ts.v, st_t.v),
+            figures=cs.figures(),
+            profiles=self._profiles(fluid, source, sink, cs, path, m_wf, h_out, n) if exact else {},
+        )
+
+    def _check_cold_side(self, ctx: CycleContext, sat_e: SatPoint, cs) -> None:
+        """Limits on the cold side: the heater inlet stays liquid, the turbine outlet dry enough."""
+        s = ctx.settings
+        st4 = cs.turbine_outlet
+        if cs.heater_inlet.h > sat_e.hL + 1e-6:  # the recuperator may heat the liquid up to saturation, no further
+            raise CycleInfeasible("recuperator", "the recuperator would boil the working fluid")
+        if not math.isnan(st4.q) and st4.q < s.min_turbine_outlet_quality:
+            raise CycleInfeasible(
+                "turbine outlet quality",
+                f"turbine outlet quality {st4.q:.3f} is below the limit {s.min_turbine_outlet_quality:.3f} (a wet expansion; superheat may help)",
+                st4.q - s.min_turbine_outlet_quality,
+            )
+
+    def heater_path(self, ctx: CycleContext, sat_e: SatPoint, cs, st3: State, n: int, exact: bool):
+        """(heating path from the heater inlet, outlet enthalpy [J/kg], fast interior-pinch test)."""
+        fluid, source, s = ctx.fluid, ctx.source, ctx.settings
+        st_in = cs.heater_inlet
+        path = heating_path(fluid, sat_e, st_in, st3, n, exact)
+        if source is None:
+            return path, st3.h, None
+        hs_in = float(source.h_in_J_kg)
+        return path, st3.h, lambda: _fast_interior_pinch(fluid, source, s, sat_e, st_in, st3, hs_in)
+
+    def _profiles(self, fluid, source, sink, cs: ColdSide, path: FluidPath, m_wf, h_out, n) -> dict[str, Profile]:
+        """Discretised T-Q profiles of every exchanger of an evaluated cycle (exact mode)."""
+        out = {"evaporator": heater_profile(path, m_wf, h_out, source)}
+        h, T, T_sink = condenser_approach(fluid, sink, cs, n, True)[2]
+        m_c = m_wf if cs.condenser_share == 1.0 else m_wf * cs.condenser_share
+        out["condenser"] = Profile(m_c * (h - h[0]), T, np.asarray(T_sink, dtype=float))
+        if cs.recuperator_active:
+            prof = cs.rec_profile
+            out["recuperator"] = Profile(m_wf * prof.Q_W, prof.T_hot_K, prof.T_cold_K)
+        return out
+
+    def _state_table(self, cs: ColdSide, st3: State) -> dict[str, State]:
+        """The states of the layout in cycle order: 1, 2, (2r), 3, 4, (4r)."""
+        if self.recuperator:
+            return {"1": cs.s1, "2": cs.s2, "2r": cs.s2r, "3": st3, "4": cs.s4, "4r": cs.s4r}
+        return {"1": cs.s1, "2": cs.s2, "3": st3, "4": cs.s4}
+
+    def _fixed_flow_result(self, ctx, sat_e, cs: ColdSide, st3: State, m_wf: float, known) -> CycleResult:
+        """Cycle with a given working-fluid flow and no source stream (exploring by hand)."""
+        s, sink = ctx.settings, ctx.sink
+        W_t = m_wf * cs.w_turbine(st3)
+        W_p = m_wf * cs.w_pump()
+        Q_out = m_wf * cs.q_rejected()
+        W_aux = s.aux_power_per_W_rejected * Q_out
+        m_sink = math.nan
+        if sink is not None:
+            m_sink = Q_out / float(sink.h_J_kg(sink.T_out_K) - sink.h_in_J_kg)
+        path, h_out, _ = self.heater_path(ctx, sat_e, cs, st3, s.n_zone_segments, False)
+        st_t, st_ts, share = cs.turbine_figures(st3)
+        return CycleResult(
+            status="ok",
+            layout=self.name,
+            variables=known["variables"],
+            T_evap_K=sat_e.T_K,
+            p_evap_Pa=sat_e.p_Pa,
+            superheat_K=known["superheat_K"],
+            T_cond_K=cs.T_cond_K,
+            p_cond_Pa=cs.p_cond_Pa,
+            states=self._state_table(cs, st3),
+            m_wf_kg_s=m_wf,
+            m_sink_kg_s=m_sink,
+            W_turbine_W=W_t,
+            W_pump_W=W_p,
+            W_aux_W=W_aux,
+            W_net_W=s.generator_efficiency * W_t - W_p / s.motor_efficiency - W_aux,
+            Q_in_W=m_wf * (h_out - path.h[0]),
+            Q_out_W=Q_out,
+            Q_rec_W=m_wf * cs.q_rec,
+            eta_turbine=cs.eta_t,
+            size_parameter_m=size_parameter_m(m_wf * share * st_ts.v, st_t.h - st_ts.h),
+            volume_ratio=volume_ratio(st_ts.v, st_t.v),
+            figures=cs.figures(),
+        )
+
+    def ts_path(self, fluid, r: CycleResult, n: int = 8) -> tuple[list[float], list[float]]:
+        """Pump and turbine as straight lines between their end states, heat exchange along isobars."""
+        st = r.states
+        sat_e = fluid.sat_T(r.T_evap_K)
+        sat_c = fluid.sat_T(r.T_cond_K)
+        s_pts = [st["1"].s]
+        T_pts = [st["1"].T_K]
+        s_hi, T_hi = isobar_ts(fluid, sat_e, st["2"].h, st["3"].h, n)
+        s_lo, T_lo = isobar_ts(fluid, sat_c, st["4"].h, st["1"].h, n)
+        return s_pts + s_hi + s_lo, T_pts + T_hi + T_lo
+
+
+_LABELS = {
+    "1": "condenser outlet",
+    "2": "pump outlet",
+    "2r": "recuperator cold-side outlet",
+    "3": "turbine inlet",
+    "4": "turbine outlet",
+    "4r": "recuperator hot-side outlet",
+}
+
+
+def _fast_interior_pinch(fluid, source, s, sat_e, st_in: State, st3: State, hs_in: float) -> tuple[float, str]:
+    """Closed-form test for a pinch inside the economiser or the superheater (fast mode).
+
+    The flow bound m(T) = N/D, N = m_s (h_s,in - h_s(T + pinch)), D = h3 - h_wf(T), has
+    dm/dT of the sign of N cp_wf - m_s cp_s D. If m rises into the bubble point (economiser side)
+    or falls away from the dew point (superheater side), a smaller bound lies inside that zone and
+    a bounded search finds it; otherwise the zone ends already bound the flow. Costs two (p, T)
+    updates when no zone needs the search. Returns (bound [kg/s], zone name), inf if none.
+    """
+    p, T_e, dT, m_s = sat_e.p_Pa, sat_e.T_K, s.pinch_evaporator_K, source.m_kg_s
+
+    def slope_sign(T, h, cp_wf):
+        N = m_s * (hs_in - float(source.h_J_kg(T + dT)))
+        return N * cp_wf - m_s * float(source.cp_J_kgK(T + dT)) * (st3.h - h)
+
+    best = (math.inf, "")
+    if st_in.T_K < T_e - 1e-6:
+        cpL = fluid.state_pT(p, T_e, "liquid").cp
+        if slope_sign(T_e, sat_e.hL, cpL) > 0.0:
+            m, _, _ = refine_zone_pinch(lambda T: fluid.h_pT(p, T, "liquid"), source, dT, st3.h, hs_in, st_in.T_K, T_e, 1e-3)
+            best = min(best, (m, "economiser"))
+    if st3.T_K > T_e + 1e-6:
+        cpV = fluid.state_pT(p, T_e, "gas").cp
+        if slope_sign(T_e, sat_e.hV, cpV) < 0.0:
+            m, _, _ = refine_zone_pinch(lambda T: fluid.h_pT(p, T, "gas"), source, dT, st3.h, hs_in, T_e, st3.T_K, 1e-3)
+            best = min(best, (m, "superheater"))
+    return best
+
+
+BASIC = Subcritical("basic", "pump, evaporator, turbine, condenser", recuperator=False)
+RECUPERATED = Subcritical("recuperated", "basic layout plus a recuperator from turbine outlet to pump outlet", recuperator=True)

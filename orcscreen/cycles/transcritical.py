@@ -1,0 +1,277 @@
+"""Transcritical layouts: the heater runs above the critical pressure, with no evaporation plateau.
+
+Free variables: the heater pressure, as a reduced pressure p/p_crit between just above 1 and
+the smaller of ``limits.max_supercritical_reduced_pressure`` and ``limits.max_pressure_bar``;
+and the turbine inlet temperature, between the critical temperature and the smaller of the
+source inlet minus the evaporator pinch and the fluid's thermal-stability limit. States as in
+the subcritical layouts: 1 condenser outlet, 2 pump outlet, (2r recuperator cold-side outlet),
+3 turbine inlet, 4 turbine outlet, (4r recuperator hot-side outlet).
+
+* heater (counter-current): the working fluid's isobar is discretised in temperature and
+  refined where the enthalpy rises fastest, around the pseudo-critical temperature (the
+  isobaric cp maximum); the flow is the largest that keeps the source at least the pinch above
+  every point (the pinch can sit anywhere inside the curve; it is searched between the
+  neighbours of the discrete minimum) and the source outlet limit (:mod:`orcscreen.exchangers`);
+* expansion to the condensing pressure, ending superheated or two-phase (the quality limit
+  applies); condenser and recuperator as in the subcritical layouts. Nothing condenses above
+  the critical temperature: where the sink and its pinch need that, the case is infeasible with
+  that reason (carbon dioxide with a warm sink, for example).
+
+Sources: the method is the standard one for supercritical heaters (e.g. Astolfi, Romano,
+Bombarda, Macchi, "Binary ORC power plants for the exploitation of medium-low temperature
+geothermal sources - Part A", Energy 66 (2014) 423-434, doi:10.1016/j.energy.2013.11.056, which
+also optimises the heater pressure and the turbine inlet temperature); the cycle model as in
+:mod:`orcscreen.cycles.subcritical`.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Mapping
+from dataclasses import dataclass
+
+import numpy as np
+
+from ..exchangers import (
+    COND_TOL_FAST_K,
+    Profile,
+    condenser_approach,
+    heater_flow,
+    heater_profile,
+    recuperate,
+    solve_condensing_temperature,
+)
+from ..paths import supercritical_heating_path
+from ..states import CycleInfeasible, SatPoint, State
+from ..turbine import size_parameter_m, volume_ratio
+from .base import (
+    C,
+    CycleContext,
+    CycleResult,
+    Layout,
+    Variable,
+    Window,
+    condenser_outlet,
+    condensing_floor_K,
+    expand,
+    infeasible,
+    isobar_ts,
+    pump,
+    supercritical_isobar_ts,
+)
+
+__all__ = ["Transcritical", "TRANSCRITICAL", "TRANSCRITICAL_RECUPERATED", "HEATER_REDUCED_PRESSURE",
+           "TURBINE_INLET_TEMPERATURE", "LOWEST_REDUCED_PRESSURE"]
+
+#: The heater pressure over the critical pressure as a free variable (outer: scan of 5 from the top, to 3e-3).
+HEATER_REDUCED_PRESSURE = Variable("heater_reduced_pressure", "heater reduced pressure", "-", scan_points=5, xatol=3e-3,
+                                   scan_from_top=True)
+#: The turbine inlet temperature as a free variable (inner: scan of 10, to 2e-3 K).
+TURBINE_INLET_TEMPERATURE = Variable("turbine_inlet_temperature_K", "turbine inlet temperature", "°C", offset=-273.15,
+                                     scan_points=10, xatol=2e-3, near_half_width=3.0, near_min_width=1.0)
+#: Lowest heater pressure searched, over the critical pressure: just above it, where the
+#: equation of state is still well behaved (common practice: screens start at about 1.01).
+LOWEST_REDUCED_PRESSURE = 1.01
+#: Segments of the heater curve in the closed-form model of the search (the discretised model
+#: uses CycleSettings.n_zone_segments); both are refined around the pseudo-critical temperature.
+N_FAST_SEGMENTS = 8
+
+
+@dataclass
+class ColdSide:
+    """Condenser outlet, pump, expansion and recuperator at one condensing temperature."""
+
+    T_cond_K: float
+    p_cond_Pa: float
+    sat: SatPoint
+    s1: State
+    s2: State
+    s4s: State
+    s4: State
+    eta_t: float
+    s2r: State
+    s4r: State
+    q_rec: float
+    recuperator_active: bool
+    rec_profile: Profile | None = None
+    cond_check: tuple | None = None
+
+    @property
+    def condenser_inlet(self) -> State:
+        return self.s4r
+
+
+_LABELS = {
+    "1": "condenser outlet",
+    "2": "pump outlet",
+    "2r": "recuperator cold-side outlet",
+    "3": "turbine inlet",
+    "4": "turbine outlet",
+    "4r": "recuperator hot-side outlet",
+}
+
+
+class Transcritical(Layout):
+    """Transcritical layout, with or without a recuperator (module docstring)."""
+
+    supercritical = True
+    limits = ("max pressure", "max supercritical reduced pressure", "thermal stability", "turbine outlet quality",
+              "min condensing pressure", "condensation below the critical temperature", "heater pinch",
+              "condenser pinch", "source outlet limit")
+
+    def __init__(self, name: str, description: str, recuperator: bool):
+        self.name = name
+        self.description = description
+        self.recuperator = recuperator
+        keys = ("1", "2", "2r", "3", "4", "4r") if recuperator else ("1", "2", "3", "4")
+        self.state_labels = {k: _LABELS[k] for k in keys}
+        self.exchangers = ("evaporator", "condenser", "recuperator") if recuperator else ("evaporator", "condenser")
+        if recuperator:
+            self.limits = self.limits + ("recuperator pinch",)
+
+    def variables(self, ctx: CycleContext) -> tuple[Variable, ...]:
+        return (TURBINE_INLET_TEMPERATURE, HEATER_REDUCED_PRESSURE)
+
+    def window(self, ctx: CycleContext, name: str, outer: Mapping[str, float]) -> Window:
+        fluid, s = ctx.fluid, ctx.settings
+        if name == HEATER_REDUCED_PRESSURE.name:
+            p_max, hi_name = s.max_heater_pressure_Pa(fluid)
+            return Window(LOWEST_REDUCED_PRESSURE, p_max / fluid.p_crit_Pa, "lowest supercritical pressure", hi_name)
+        limits = [(ctx.source.T_in_K - s.pinch_evaporator_K, "hot-end approach")]
+        if s.max_turbine_inlet_temperature_K is not None:
+            limits.append((s.max_turbine_inlet_temperature_K, "thermal stability"))
+        limits.append((fluid.T_max_K, "equation of state range"))
+        T_hi, hi_name = min(limits)
+        return Window(fluid.T_crit_K, T_hi, "critical temperature", hi_name)
+
+    # -- evaluation -----------------------------------------------------------------------
+    def evaluate(self, ctx, x, exact=True, T_cond_guess_K=None, cond_tol_K=None, T_cond_K=None, m_wf_kg_s=None):
+        fluid = ctx.fluid
+        p_h = float(x[HEATER_REDUCED_PRESSURE.name]) * fluid.p_crit_Pa
+        T3 = float(x[TURBINE_INLET_TEMPERATURE.name])
+        known = {"layout": self.name, "variables": dict(x), "p_evap_Pa": p_h}
+        try:
+            return self._evaluate(ctx, p_h, T3, exact, T_cond_guess_K, known, T_cond_K, m_wf_kg_s,
+                                  COND_TOL_FAST_K if cond_tol_K is None else cond_tol_K)
+        except CycleInfeasible as exc:
+            return infeasible(exc.limit, exc.reason, exc.margin, **known)
+
+    def cold_side(self, ctx: CycleContext, p_h: float, st3: State, T_cond_K: float, exact: bool) -> ColdSide:
+        fluid, s = ctx.fluid, ctx.settings
+        sat_c = fluid.sat_T(T_cond_K)
+        st1 = condenser_outlet(fluid, sat_c, s.subcooling_K)
+        st2 = pump(fluid, st1, p_h, s.pump_efficiency)
+        ex = expand(fluid, st3, sat_c, s.turbine)
+        st4 = ex.st_out
+        if self.recuperator:
+            q_rec, st2r, st4r, active, rec_prof = recuperate(fluid, sat_c, p_h, st2, st4, s.pinch_recuperator_K,
+                                                             s.recuperator_effectiveness, s.n_zone_segments, exact, None)
+        else:
+            q_rec, st2r, st4r, active, rec_prof = 0.0, st2, st4, False, None
+        return ColdSide(T_cond_K, sat_c.p_Pa, sat_c, st1, st2, ex.st_out_s, st4, ex.eta, st2r, st4r, q_rec, active, rec_prof)
+
+    def _evaluate(self, ctx, p_h, T3, exact, T_cond_guess_K, known, T_cond_fixed_K, m_wf_fixed, cond_tol_K) -> CycleResult:
+        fluid, source, sink, s = ctx.fluid, ctx.source, ctx.sink, ctx.settings
+        if not p_h > fluid.p_crit_Pa:
+            raise CycleInfeasible("critical pressure", f"heater pressure {p_h / 1e5:.2f} bar is not above the critical pressure of {fluid.name} ({fluid.p_crit_Pa / 1e5:.2f} bar)")
+        p_lim, lim_name = s.max_heater_pressure_Pa(fluid)
+        if p_h > p_lim * (1.0 + 1e-9):
+            raise CycleInfeasible(lim_name, f"heater pressure {p_h / 1e5:.2f} bar is above the limit {p_lim / 1e5:.2f} bar ({lim_name})")
+        if source is not None and T3 > source.T_in_K - s.pinch_evaporator_K + 1e-9:
+            raise CycleInfeasible("hot-end approach", f"turbine inlet {C(T3)} is closer than the heater pinch to the source inlet {C(source.T_in_K)}")
+        if s.max_turbine_inlet_temperature_K is not None and T3 > s.max_turbine_inlet_temperature_K + 1e-9:
+            raise CycleInfeasible("thermal stability", f"turbine inlet {C(T3)} is above the thermal-stability limit of {fluid.name} ({C(s.max_turbine_inlet_temperature_K)})")
+        st3 = fluid.state_pT(p_h, T3)
+
+        def cold_side(T, ex):
+            return self.cold_side(ctx, p_h, st3, T, ex)
+
+        if T_cond_fixed_K is None:
+            cs = solve_condensing_temperature(fluid, sink, cold_side, s.pinch_condenser_K, condensing_floor_K(fluid, sink, s),
+                                              fluid.T_crit_K, s.n_zone_segments, exact, T_cond_guess_K, cond_tol_K,
+                                              ceiling_what=f"the critical temperature of {fluid.name}")
+        else:
+            if T_cond_fixed_K >= fluid.T_crit_K:
+                raise CycleInfeasible("sink", f"condensing temperature {C(T_cond_fixed_K)} is not below the critical temperature {C(fluid.T_crit_K)}")
+            cs = cold_side(T_cond_fixed_K, exact)
+        known.update(T_cond_K=cs.T_cond_K, p_cond_Pa=cs.p_cond_Pa)
+        st1, st2, st2r, st4, st4r = cs.s1, cs.s2, cs.s2r, cs.s4, cs.s4r
+        if not st3.h > st2r.h:
+            raise CycleInfeasible("heater", "the working fluid would not take heat in the heater")
+        if not math.isnan(st4.q) and st4.q < s.min_turbine_outlet_quality:
+            raise CycleInfeasible(
+                "turbine outlet quality",
+                f"turbine outlet quality {st4.q:.3f} is below the limit {s.min_turbine_outlet_quality:.3f} (a wet expansion; a hotter turbine inlet may help)",
+                st4.q - s.min_turbine_outlet_quality,
+            )
+        if m_wf_fixed is not None:
+            return self._result(ctx, cs, st3, m_wf_fixed, "", math.nan, {}, known)
+        path = supercritical_heating_path(fluid, p_h, st2r, st3, s.n_zone_segments if exact else N_FAST_SEGMENTS)
+        m_wf, location, path = heater_flow(path, st3.h, source, s.pinch_evaporator_K, exact)
+        if not m_wf > 0.0:
+            raise CycleInfeasible("heater pinch", f"the source is too cold for a heater at {p_h / 1e5:.2f} bar with a {s.pinch_evaporator_K:g} K pinch")
+        hs_out = float(source.h_in_J_kg) - m_wf * (st3.h - st2r.h) / source.m_kg_s
+        profiles = {}
+        if exact:
+            profiles["evaporator"] = heater_profile(path, m_wf, st3.h, source)
+            h, T, T_sink = condenser_approach(fluid, sink, cs, s.n_zone_segments, True)[2]
+            profiles["condenser"] = Profile(m_wf * (h - h[0]), T, np.asarray(T_sink, dtype=float))
+            if cs.recuperator_active:
+                prof = cs.rec_profile
+                profiles["recuperator"] = Profile(m_wf * prof.Q_W, prof.T_hot_K, prof.T_cold_K)
+        r = self._result(ctx, cs, st3, m_wf, location, float(source.T_K(hs_out)), profiles, known)
+        if r.W_net_W <= 0.0:
+            return infeasible("net power", f"net power {r.W_net_W / 1e3:.3g} kW is not positive", r.W_net_W, **known)
+        return r
+
+    def _result(self, ctx, cs: ColdSide, st3: State, m_wf: float, location: str, T_s_out: float, profiles, known) -> CycleResult:
+        s, sink = ctx.settings, ctx.sink
+        st1, st2, st2r, st4, st4r = cs.s1, cs.s2, cs.s2r, cs.s4, cs.s4r
+        W_t = m_wf * (st3.h - st4.h)
+        W_p = m_wf * (st2.h - st1.h)
+        Q_out = m_wf * (st4r.h - st1.h)
+        W_aux = s.aux_power_per_W_rejected * Q_out
+        m_sink = math.nan
+        if sink is not None:
+            m_sink = Q_out / float(sink.h_J_kg(sink.T_out_K) - sink.h_in_J_kg)
+        states = ({"1": st1, "2": st2, "2r": st2r, "3": st3, "4": st4, "4r": st4r} if self.recuperator
+                  else {"1": st1, "2": st2, "3": st3, "4": st4})
+        return CycleResult(
+            status="ok",
+            limit=location,
+            layout=self.name,
+            variables=known["variables"],
+            p_evap_Pa=st3.p_Pa,
+            T_cond_K=cs.T_cond_K,
+            p_cond_Pa=cs.p_cond_Pa,
+            states=states,
+            m_wf_kg_s=m_wf,
+            m_sink_kg_s=m_sink,
+            W_turbine_W=W_t,
+            W_pump_W=W_p,
+            W_aux_W=W_aux,
+            W_net_W=s.generator_efficiency * W_t - W_p / s.motor_efficiency - W_aux,
+            Q_in_W=m_wf * (st3.h - st2r.h),
+            Q_out_W=Q_out,
+            Q_rec_W=m_wf * cs.q_rec,
+            T_source_out_K=T_s_out,
+            pinch_location=location,
+            eta_turbine=cs.eta_t,
+            size_parameter_m=size_parameter_m(m_wf * cs.s4s.v, st3.h - cs.s4s.h),
+            volume_ratio=volume_ratio(cs.s4s.v, st3.v),
+            profiles=profiles,
+        )
+
+    def ts_path(self, fluid, r: CycleResult, n: int = 8) -> tuple[list[float], list[float]]:
+        """Pump and turbine as straight lines; the heater along its supercritical isobar."""
+        st = r.states
+        sat_c = fluid.sat_T(r.T_cond_K)
+        s_hi, T_hi = supercritical_isobar_ts(fluid, st["3"].p_Pa, st["2"].h, st["3"].h, n)
+        s_lo, T_lo = isobar_ts(fluid, sat_c, st["4"].h, st["1"].h, n)
+        return [st["1"].s] + s_hi + s_lo, [st["1"].T_K] + T_hi + T_lo
+
+
+TRANSCRITICAL = Transcritical("transcritical", "pump, supercritical heater, turbine, condenser", recuperator=False)
+TRANSCRITICAL_RECUPERATED = Transcritical(
+    "transcritical-recuperated", "transcritical layout plus a recuperator from turbine outlet to pump outlet", recuperator=True
+)

@@ -1,0 +1,234 @@
+"""The result row and the detail of one case, built from an evaluated cycle.
+
+The row holds the figures of merit of DESIGN section 3 as columns with units in their names
+(:data:`ROW_COLUMNS`: the common columns, then the layouts' own columns from the layout
+registry); the detail holds what the charts draw (states, T-Q profiles, T-s path, saturation
+dome, the optimiser's scan). Units: the columns' (°C, bar, kW); SI inside.
+"""
+
+from __future__ import annotations
+
+import math
+
+from . import streams
+from .cycles import LAYOUTS, CycleResult, Layout, saturation_dome
+from .cycles.base import P_ATM_PA
+
+__all__ = ["ROW_COLUMNS", "COMMON_COLUMNS", "LAYOUT_COLUMNS", "result_row", "empty_row", "energy_figures", "case_detail"]
+
+#: Columns every layout fills (DESIGN section 5). evaporation_* are NaN for a supercritical
+#: heater; turbine_inlet_pressure_bar is the highest cycle pressure in every layout.
+COMMON_COLUMNS = (
+    "fluid", "display_name", "layout", "status", "reason", "warnings",
+    "net_power_kW", "turbine_power_kW", "pump_power_kW", "aux_power_kW", "heat_input_kW",
+    "heat_rejected_kW", "recuperator_duty_kW", "thermal_efficiency", "exergy_efficiency",
+    "carnot_efficiency", "heat_recovery_factor", "total_efficiency", "source_exergy_kW",
+    "evaporation_pressure_bar", "evaporation_temperature_C", "reduced_pressure",
+    "condensing_pressure_bar", "condensing_temperature_C", "superheat_K",
+    "turbine_inlet_pressure_bar", "turbine_inlet_temperature_C", "turbine_outlet_temperature_C",
+    "turbine_outlet_quality", "wf_mass_flow_kg_s", "sink_mass_flow_kg_s", "source_outlet_temperature_C",
+    "pinch_location", "pinch_evaporator_K", "pinch_condenser_K", "pinch_recuperator_K", "ua_evaporator_kW_K",
+    "ua_condenser_kW_K", "ua_recuperator_kW_K", "ua_total_kW_K", "size_parameter_m",
+    "volume_ratio", "turbine_efficiency",
+)
+_TAIL_COLUMNS = (
+    "binding_limit", "sub_atmospheric_condenser", "family",
+    "safety_class", "gwp100", "odp", "curve_type", "evaluations", "elapsed_s",
+)
+#: The layouts' own columns, from the layout registry, in registry order.
+LAYOUT_COLUMNS = tuple(dict.fromkeys(c for layout in LAYOUTS.values() for c in layout.columns))
+#: Columns of a result row, in order (DESIGN section 5).
+ROW_COLUMNS = COMMON_COLUMNS + LAYOUT_COLUMNS + _TAIL_COLUMNS
+
+
+def empty_row(fluid: str, layout: str, info, status: str, reason: str, elapsed: float, evaluations: int = 0) -> dict:
+    """A row without figures (infeasible or failed case), with the fluid's catalogue facts."""
+    row = {k: math.nan for k in ROW_COLUMNS}
+    row.update(
+        fluid=fluid,
+        display_name=getattr(info, "display_name", fluid),
+        layout=layout,
+        status=status,
+        reason=reason,
+        warnings="",
+        pinch_location="",
+        binding_limit="",
+        sub_atmospheric_condenser=None,
+        evaluations=evaluations,
+        elapsed_s=elapsed,
+    )
+    _add_fluid_columns(row, info)
+    return row
+
+
+def _add_fluid_columns(row: dict, info) -> None:
+    if info is None:
+        row.update(family="", safety_class="", gwp100=math.nan, odp=math.nan, curve_type="")
+        return
+    row.update(
+        family=info.family,
+        safety_class=info.safety_class,
+        gwp100=math.nan if info.gwp100 is None else info.gwp100,
+        odp=math.nan if info.odp is None else info.odp,
+        curve_type=info.curve_type,
+    )
+
+
+def energy_figures(r: CycleResult) -> dict:
+    """Powers and duties [kW] and the thermal efficiency of an evaluated cycle."""
+    return {
+        "net_power_kW": r.W_net_W / 1e3,
+        "turbine_power_kW": r.W_turbine_W / 1e3,
+        "pump_power_kW": r.W_pump_W / 1e3,
+        "heat_input_kW": r.Q_in_W / 1e3,
+        "heat_rejected_kW": r.Q_out_W / 1e3,
+        "recuperator_duty_kW": r.Q_rec_W / 1e3,
+        "thermal_efficiency": r.W_net_W / r.Q_in_W,
+    }
+
+
+def carnot_efficiency(r: CycleResult) -> float:
+    """1 - T_min / T_max over the cycle's states: an upper bound of its thermal efficiency."""
+    T = [st.T_K for st in r.states.values()]
+    return 1.0 - min(T) / max(T)
+
+
+def result_row(fluid_name: str, layout: Layout, info, fluid, source, sink, r: CycleResult, binding: str, n: int,
+               elapsed: float) -> dict:
+    """The row of a feasible case (DESIGN section 5)."""
+    T0 = sink.T_in_K
+    ex_source = streams.source_exergy_W(source, T0)
+    q_avail = streams.available_heat_W(source, T0)
+    st_in, st_out = r.states[r.turbine_inlet], r.states[r.turbine_outlet]
+    prof = r.profiles
+    ua = {k: p.ua_W_K() / 1e3 for k, p in prof.items()}
+    approach = {k: p.min_approach_K for k, p in prof.items()}
+    row = {k: math.nan for k in ROW_COLUMNS}
+    row.update({
+        "fluid": fluid_name,
+        "display_name": info.display_name,
+        "layout": layout.name,
+        "status": "ok",
+        "reason": "",
+        **energy_figures(r),
+        "aux_power_kW": r.W_aux_W / 1e3,
+        "exergy_efficiency": r.W_net_W / ex_source,
+        "carnot_efficiency": carnot_efficiency(r),
+        "heat_recovery_factor": r.Q_in_W / q_avail,
+        "total_efficiency": r.W_net_W / q_avail,
+        "source_exergy_kW": ex_source / 1e3,
+        "evaporation_pressure_bar": math.nan if layout.supercritical else r.p_evap_Pa / 1e5,
+        "evaporation_temperature_C": r.T_evap_K - 273.15,
+        "reduced_pressure": r.p_evap_Pa / fluid.p_crit_Pa,
+        "condensing_pressure_bar": r.p_cond_Pa / 1e5,
+        "condensing_temperature_C": r.T_cond_K - 273.15,
+        "superheat_K": r.superheat_K,
+        "turbine_inlet_pressure_bar": st_in.p_Pa / 1e5,
+        "turbine_inlet_temperature_C": st_in.T_K - 273.15,
+        "turbine_outlet_temperature_C": st_out.T_K - 273.15,
+        "turbine_outlet_quality": st_out.q,
+        "wf_mass_flow_kg_s": r.m_wf_kg_s,
+        "sink_mass_flow_kg_s": r.m_sink_kg_s,
+        "source_outlet_temperature_C": r.T_source_out_K - 273.15,
+        "pinch_location": r.pinch_location,
+        "pinch_evaporator_K": approach.get("evaporator", math.nan),
+        "pinch_condenser_K": approach.get("condenser", math.nan),
+        "pinch_recuperator_K": approach.get("recuperator", math.nan),
+        "ua_evaporator_kW_K": ua.get("evaporator", math.nan),
+        "ua_condenser_kW_K": ua.get("condenser", math.nan),
+        "ua_recuperator_kW_K": ua.get("recuperator", math.nan),
+        "ua_total_kW_K": sum(ua.values()),
+        "size_parameter_m": r.size_parameter_m,
+        "volume_ratio": r.volume_ratio,
+        "turbine_efficiency": r.eta_turbine,
+        "binding_limit": binding,
+        "sub_atmospheric_condenser": bool(r.p_cond_Pa < P_ATM_PA),
+        "evaluations": n,
+        "elapsed_s": elapsed,
+    })
+    row.update({k: v for k, v in r.figures.items() if k in layout.columns})
+    row["warnings"] = "; ".join(_warnings(layout, source, r))
+    _add_fluid_columns(row, info)
+    return {k: row[k] for k in ROW_COLUMNS}
+
+
+def _warnings(layout: Layout, source, r: CycleResult) -> list[str]:
+    """Plain-words notes on a feasible result that the engineer should see."""
+    out = []
+    dew = getattr(source, "water_dew_point_K", None)
+    if callable(dew):
+        T_dew = dew()
+        if T_dew is not None and r.T_source_out_K < T_dew:
+            out.append(
+                f"flue gas leaves at {r.T_source_out_K - 273.15:.1f} °C, below its water dew point "
+                f"{T_dew - 273.15:.1f} °C: condensation is not modelled and corrodes (raise min_outlet_temperature_C)"
+            )
+    if r.p_cond_Pa < P_ATM_PA:
+        out.append(f"condenser below atmospheric pressure ({r.p_cond_Pa / 1e5:.3g} bar): air ingress, larger equipment")
+    if "recuperator" in layout.exchangers and r.Q_rec_W <= 0.0:
+        out.append("recuperator inactive: the turbine outlet is not hotter than the pump outlet plus the pinch")
+    return out
+
+
+def _f(x: float) -> float | None:
+    """JSON-friendly float: NaN and infinities become None."""
+    x = float(x)
+    return x if math.isfinite(x) else None
+
+
+def case_detail(layout: Layout, fluid, sink, r: CycleResult, opt) -> dict:
+    """What the charts of one case draw: states, exchanger profiles, T-s path, dome, scan."""
+    states = [
+        {
+            "name": k,
+            "label": layout.state_labels.get(k, k),
+            "T_C": st.T_K - 273.15,
+            "p_bar": st.p_Pa / 1e5,
+            "h_kJ_kg": st.h / 1e3,
+            "s_kJ_kgK": st.s / 1e3,
+            "q": _f(st.q),
+        }
+        for k, st in r.states.items()
+    ]
+    exch = {}
+    for name, p in r.profiles.items():
+        j = p.pinch_index
+        exch[name] = {
+            "Q_kW": [float(q) / 1e3 for q in p.Q_W],
+            "T_hot_C": [float(t) - 273.15 for t in p.T_hot_K],
+            "T_cold_C": [float(t) - 273.15 for t in p.T_cold_K],
+            "duty_kW": p.duty_W / 1e3,
+            "pinch_K": p.min_approach_K,
+            "pinch_Q_kW": float(p.Q_W[j]) / 1e3,
+            "pinch_T_hot_C": float(p.T_hot_K[j]) - 273.15,
+            "pinch_T_cold_C": float(p.T_cold_K[j]) - 273.15,
+            "ua_kW_K": _f(p.ua_W_K() / 1e3),
+        }
+    s_path, T_path = layout.ts_path(fluid, r)
+    T_dome, sL, sV = saturation_dome(fluid, min(r.T_cond_K, sink.T_in_K) - 15.0)
+    var = opt.scan_variable
+    x_opt = r.variables.get(var.name, math.nan) if var is not None else math.nan
+    return {
+        "states": states,
+        "exchangers": exch,
+        "ts_path": {"s_kJ_kgK": [s / 1e3 for s in s_path], "T_C": [t - 273.15 for t in T_path]},
+        "dome": {
+            "s_liquid_kJ_kgK": [s / 1e3 for s in sL],
+            "s_vapour_kJ_kgK": [s / 1e3 for s in sV],
+            "T_C": [t - 273.15 for t in T_dome],
+        },
+        "landscape": {
+            "variable": var.label if var is not None else "",
+            "unit": var.unit if var is not None else "",
+            "x": [var.display(float(x)) for x in opt.scan_x] if var is not None else [],
+            "net_power_kW": [_f(w / 1e3) for w in opt.scan_W],
+            "limit": list(opt.scan_limit),
+        },
+        "optimum": {
+            "variable": var.label if var is not None else "",
+            "x": _f(var.display(x_opt)) if var is not None else None,
+            "net_power_kW": r.W_net_W / 1e3,
+            "binding_limit": opt.binding_limit,
+            "variables": {k: _f(v) for k, v in r.variables.items()},
+        },
+    }
