@@ -38,6 +38,7 @@ def study_dict(**study_section):
     return {
         "study": {"name": "robustness test", **study_section},
         "source": {"kind": "water", "inlet_temperature_C": 120.0, "mass_flow_kg_s": 8.0},
+        "cycle": {"layouts": ["basic", "recuperated"]},
         "fluids": {"include": FLUIDS},
         "sweep": {"source.inlet_temperature_C": [110.0, 120.0]},
     }
@@ -51,6 +52,9 @@ name = "robustness test"
 kind = "water"
 inlet_temperature_C = 120.0
 mass_flow_kg_s = 8.0
+
+[cycle]
+layouts = ["basic", "recuperated"]
 
 [fluids]
 include = ["R245fa", "IsoButane"]
