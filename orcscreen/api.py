@@ -144,59 +144,123 @@ def screen(study: dict | str | Path, jobs: int = 1):
 
 def evaluate_cycle(
     fluid: str,
-    evaporation_pressure_bar: float,
-    condensing_pressure_bar: float,
+    evaporation_pressure_bar: float | None = None,
+    condensing_pressure_bar: float | None = None,
     turbine_inlet_temperature_C: float | None = None,
-    wf_mass_flow_kg_s: float = 1.0,
+    wf_mass_flow_kg_s: float | None = None,
     turbine_efficiency: float = 1.0,
     pump_efficiency: float = 1.0,
     layout: str = "basic",
     recuperator_effectiveness: float = 0.8,
     pinch_recuperator_K: float = 10.0,
+    *,
+    evaporation_temperature_C: float | None = None,
+    heater_pressure_bar: float | None = None,
+    bleed_pressure_bar: float | None = None,
+    reheat_pressure_bar: float | None = None,
+    reheat_temperature_C: float | None = None,
+    condensing_temperature_C: float | None = None,
+    source: Mapping | None = None,
+    sink: Mapping | None = None,
+    pinch_evaporator_K: float = 10.0,
+    pinch_condenser_K: float = 5.0,
+    min_turbine_outlet_quality: float = 0.0,
 ) -> dict:
-    """Evaluate one fully specified cycle by hand: given pressures and working-fluid flow.
+    """Evaluate one cycle of any layout by hand, with its free variables given.
 
-    Turbine inlet: saturated vapour at the evaporation pressure, or superheated to
-    turbine_inlet_temperature_C. Condenser outlet: saturated liquid. No source or sink limits
-    are applied (the turbine outlet quality is reported, not limited). Returns a dict with the
-    powers [kW], the thermal efficiency, the turbine figures and the states (°C, bar, kJ/kg,
-    kJ/(kg K)).
+    Layouts and what they take (°C, bar): the subcritical ones ("basic", "recuperated",
+    "bleed-regenerative", "reheat") an evaporation pressure or temperature, "transcritical" and
+    "transcritical-recuperated" a heater pressure above the critical pressure; all an optional
+    turbine inlet temperature (saturated vapour otherwise; required for the transcritical ones);
+    "bleed-regenerative" bleed_pressure_bar, "reheat" reheat_pressure_bar and optionally
+    reheat_temperature_C (default: the turbine inlet temperature).
+
+    The condensing side: condensing_pressure_bar or condensing_temperature_C, or a sink (a
+    dictionary shaped like the study file's [sink]) whose condenser pinch sets it. The flow:
+    wf_mass_flow_kg_s (default 1 kg/s), or a source (shaped like [source]) whose evaporator pinch
+    and outlet limit set the largest flow; the result then names the pinch location and the
+    source temperature there. The turbine outlet quality is reported, and limited only by
+    min_turbine_outlet_quality (default 0).
+
+    Returns a dict: powers [kW], thermal_efficiency, net_specific_work_kJ_kg (per kg through the
+    turbine inlet), turbine_outlet_quality, wf_mass_flow_kg_s, condensing temperature and
+    pressure, the turbine's size parameter and volume ratio, the layout's own figures (e.g.
+    bleed_fraction), with a source pinch_location, source_temperature_at_pinch_C and
+    source_outlet_temperature_C, and the states (°C, bar, kJ/kg, kJ/(kg K)). Raises ValueError
+    for inputs that do not fit the layout or a cycle that is not feasible.
     """
     try:  # a catalogue name (CoolProp or display), else any CoolProp fluid
         f = get_fluid(fluid_catalogue.get_info(fluid).coolprop_name)
     except fluid_catalogue.UnknownFluidError:
         f = get_fluid(fluid)
-    T_evap = f.T_sat_K(evaporation_pressure_bar * 1e5)
-    T_cond = f.T_sat_K(condensing_pressure_bar * 1e5)
-    superheat = 0.0 if turbine_inlet_temperature_C is None else turbine_inlet_temperature_C + 273.15 - T_evap
-    if superheat < 0:
-        raise ValueError(
-            f"turbine inlet {turbine_inlet_temperature_C} °C is below the saturation temperature "
-            f"{T_evap - 273.15:.2f} °C at {evaporation_pressure_bar} bar"
-        )
+    if layout not in LAYOUTS:
+        raise ValueError(f"unknown layout {layout!r}; allowed: {', '.join(LAYOUTS)}")
+    lay = LAYOUTS[layout]
+    high = evaporation_pressure_bar if heater_pressure_bar is None else heater_pressure_bar
+    if evaporation_pressure_bar is not None and heater_pressure_bar is not None:
+        raise ValueError("give the evaporation pressure or the heater pressure, not both")
+
+    def K(T_C):
+        return None if T_C is None else T_C + 273.15
+
+    def Pa(p_bar):
+        return None if p_bar is None else p_bar * 1e5
+
+    given = {
+        "evaporation_temperature_K": K(evaporation_temperature_C),
+        "high_pressure_Pa": Pa(high),
+        "turbine_inlet_temperature_K": K(turbine_inlet_temperature_C),
+        "bleed_pressure_Pa": Pa(bleed_pressure_bar),
+        "reheat_pressure_Pa": Pa(reheat_pressure_bar),
+        "reheat_temperature_K": K(reheat_temperature_C),
+    }
+    x = lay.variables_for(f, given)
+    if (condensing_pressure_bar is None) + (condensing_temperature_C is None) + (sink is None) != 2:
+        raise ValueError("give one of condensing_pressure_bar, condensing_temperature_C or a sink")
+    if source is not None and wf_mass_flow_kg_s is not None:
+        raise ValueError("give the working-fluid flow or a source, not both")
+    T_cond = K(condensing_temperature_C)
+    if condensing_pressure_bar is not None:
+        T_cond = f.T_sat_K(condensing_pressure_bar * 1e5)
     s = CycleSettings(
         turbine=ConstantEfficiency(turbine_efficiency),
         pump_efficiency=pump_efficiency,
-        min_turbine_outlet_quality=0.0,
+        min_turbine_outlet_quality=min_turbine_outlet_quality,
         max_reduced_pressure=0.999999,
+        max_supercritical_reduced_pressure=1e9,
         recuperator_effectiveness=recuperator_effectiveness,
         pinch_recuperator_K=pinch_recuperator_K,
+        pinch_evaporator_K=pinch_evaporator_K,
+        pinch_condenser_K=pinch_condenser_K,
     )
-    lay = LAYOUTS[layout]
-    ctx = CycleContext(f, None, None, s)
-    r = lay.evaluate(ctx, {"evaporation_temperature_K": T_evap, "superheat_K": superheat}, exact=False, T_cond_K=T_cond,
-                     m_wf_kg_s=wf_mass_flow_kg_s)
+    src = None if source is None else streams.source_from_settings(dict(source))
+    snk = None if sink is None else streams.sink_from_settings(dict(sink))
+    ctx = CycleContext(f, src, snk, s)
+    m = None if src is not None else (1.0 if wf_mass_flow_kg_s is None else wf_mass_flow_kg_s)
+    r = lay.evaluate(ctx, x, exact=src is not None, T_cond_K=T_cond, m_wf_kg_s=m)
     if not r.ok:
         raise ValueError(r.reason)
-    return {
+    out = {
         **energy_figures(r),
+        "net_specific_work_kJ_kg": r.W_net_W / r.m_wf_kg_s / 1e3,
         "back_work_ratio": r.W_pump_W / r.W_turbine_W,
-        "turbine_outlet_quality": r.states["4"].q,
+        "turbine_outlet_quality": r.turbine_outlet_quality,
+        "wf_mass_flow_kg_s": r.m_wf_kg_s,
+        "condensing_temperature_C": r.T_cond_K - 273.15,
+        "condensing_pressure_bar": r.p_cond_Pa / 1e5,
         "size_parameter_m": r.size_parameter_m,
         "volume_ratio": r.volume_ratio,
+        **r.figures,
         "states": {
             k: {"T_C": st.T_K - 273.15, "p_bar": st.p_Pa / 1e5, "h_kJ_kg": st.h / 1e3, "s_kJ_kgK": st.s / 1e3, "q": st.q}
             for k, st in r.states.items()
         },
     }
-
+    if src is not None:
+        prof = r.profiles["evaporator"]
+        out.update(
+            pinch_location=r.pinch_location,
+            source_temperature_at_pinch_C=float(prof.T_hot_K[prof.pinch_index]) - 273.15,
+            source_outlet_temperature_C=r.T_source_out_K - 273.15,
+        )
+    return out

@@ -377,6 +377,9 @@ def optimise(layout: Layout, ctx: CycleContext) -> Optimum | tuple[None, str, in
     so the same case gives the same bits in any process and after any other case.
     """
     reset_guesses()
+    why = layout.unsuited(ctx)
+    if why:
+        return None, why, 0
     variables = layout.variables(ctx)
     r, limit, n, scan = _optimise_nested(layout, ctx, variables, {}, polish=True)
     if r is None:

@@ -227,6 +227,11 @@ class Layout:
         """The free variables for this case, innermost (searched most often) first."""
         raise NotImplementedError
 
+    def unsuited(self, ctx: CycleContext) -> str | None:
+        """Why the layout cannot work for this fluid, source and sink at all (a reason in plain
+        words, before any search), or None."""
+        return None
+
     def window(self, ctx: CycleContext, name: str, outer: Mapping[str, float]) -> Window:
         """Bounds of variable name given the values of the variables outside it."""
         raise NotImplementedError
@@ -242,6 +247,23 @@ class Layout:
     def ts_path(self, fluid, r: CycleResult) -> tuple[list[float], list[float]]:
         """Closed path (s [J/(kg K)], T [K]) of an evaluated cycle through its states."""
         raise NotImplementedError
+
+    #: what a cycle given by hand needs, besides the condensing side (names of variables_for)
+    hand_inputs: tuple[str, ...] = ()
+
+    def variables_for(self, fluid, given: Mapping[str, float | None]) -> dict[str, float]:
+        """The free variables x of a cycle given by hand: given holds SI values by name
+        (evaporation_temperature_K, high_pressure_Pa, turbine_inlet_temperature_K,
+        bleed_pressure_Pa, reheat_pressure_Pa, reheat_temperature_K), None when not given.
+        Raises ValueError naming what is missing or does not apply."""
+        raise NotImplementedError
+
+
+def unused_inputs(layout: Layout, given: Mapping[str, float | None]) -> None:
+    """Refuse inputs a layout does not use (a cycle given by hand must not silently drop one)."""
+    extra = [k for k, v in given.items() if v is not None and k not in layout.hand_inputs]
+    if extra:
+        raise ValueError(f"layout {layout.name!r} does not use {', '.join(extra)}; it takes {', '.join(layout.hand_inputs)}")
 
     def __repr__(self) -> str:
         return f"<layout {self.name!r}>"

@@ -118,6 +118,14 @@ class BleedRegenerative(Subcritical):
             return (EVAPORATION_TEMPERATURE, BLEED_PLACE, SUPERHEAT)
         return (EVAPORATION_TEMPERATURE, BLEED_PLACE)
 
+    hand_inputs = Subcritical.hand_inputs + (BLEED_PRESSURE_KEY,)
+
+    def variables_for(self, fluid, given):
+        p_b = given.get(BLEED_PRESSURE_KEY)
+        if p_b is None:
+            raise ValueError("layout 'bleed-regenerative' needs the bleed pressure")
+        return {**super().variables_for(fluid, given), BLEED_PRESSURE_KEY: p_b}
+
     def window(self, ctx: CycleContext, name: str, outer: Mapping[str, float]) -> Window:
         if name == BLEED_PLACE.name:
             return Window(*_PLACE_BOUNDS, "lowest bleed pressure", "highest bleed pressure")

@@ -117,6 +117,17 @@ class Reheat(Subcritical):
             return (EVAPORATION_TEMPERATURE, REHEAT_PLACE, SUPERHEAT)
         return (EVAPORATION_TEMPERATURE, REHEAT_PLACE)
 
+    hand_inputs = Subcritical.hand_inputs + (REHEAT_PRESSURE_KEY, REHEAT_TEMPERATURE_KEY)
+
+    def variables_for(self, fluid, given):
+        p_rh = given.get(REHEAT_PRESSURE_KEY)
+        if p_rh is None:
+            raise ValueError("layout 'reheat' needs the reheat pressure")
+        x = {**super().variables_for(fluid, given), REHEAT_PRESSURE_KEY: p_rh}
+        if given.get(REHEAT_TEMPERATURE_KEY) is not None:
+            x[REHEAT_TEMPERATURE_KEY] = given[REHEAT_TEMPERATURE_KEY]
+        return x
+
     def window(self, ctx: CycleContext, name: str, outer: Mapping[str, float]) -> Window:
         if name == REHEAT_PLACE.name:
             return Window(*_PLACE_BOUNDS, "lowest reheat pressure", "highest reheat pressure")

@@ -58,6 +58,7 @@ from .base import (
     infeasible,
     isobar_ts,
     pump,
+    unused_inputs,
 )
 
 __all__ = ["Subcritical", "BASIC", "RECUPERATED", "EVAPORATION_TEMPERATURE", "SUPERHEAT", "evaporation_window"]
@@ -180,6 +181,25 @@ class Subcritical(Layout):
             sh = ctx.settings.superheat_K if ctx.settings.superheat_K is not None else 0.0
         return float(sh)
 
+    hand_inputs = ("evaporation_temperature_K", "high_pressure_Pa", "turbine_inlet_temperature_K")
+
+    def variables_for(self, fluid, given):
+        unused_inputs(self, given)
+        T_evap = given.get("evaporation_temperature_K")
+        p = given.get("high_pressure_Pa")
+        if (T_evap is None) == (p is None):
+            raise ValueError(f"layout {self.name!r} needs the evaporation pressure or the evaporation temperature (one of them)")
+        if T_evap is None:
+            if not p < fluid.p_crit_Pa:
+                raise ValueError(f"evaporation pressure {p / 1e5:.4g} bar is not below the critical pressure of {fluid.name} "
+                                 f"({fluid.p_crit_Pa / 1e5:.4g} bar): use a transcritical layout")
+            T_evap = fluid.T_sat_K(p)
+        T3 = given.get("turbine_inlet_temperature_K")
+        superheat = 0.0 if T3 is None else T3 - T_evap
+        if superheat < 0.0:
+            raise ValueError(f"turbine inlet {T3 - 273.15:.2f} °C is below the evaporation temperature {T_evap - 273.15:.2f} °C")
+        return {EVAPORATION_TEMPERATURE.name: T_evap, SUPERHEAT.name: superheat}
+
     # -- evaluation -----------------------------------------------------------------------
     def evaluate(self, ctx, x, exact=True, T_cond_guess_K=None, cond_tol_K=None, T_cond_K=None, m_wf_kg_s=None):
         T_evap_K = float(x[EVAPORATION_TEMPERATURE.name])
@@ -247,7 +267,7 @@ class Subcritical(Layout):
         if not m_wf > 0.0:
             raise CycleInfeasible("evaporator pinch", f"the source is too cold for evaporation at {C(T_evap_K)} with a {s.pinch_evaporator_K:g} K pinch")
 
-        q_in = h_out - path.h[0]
+        q_in = h_out - float(path.h[0])
         Q_in = m_wf * q_in
         hs_out = hs_in - Q_in / source.m_kg_s
         T_s_out = float(source.T_K(hs_out))
@@ -256,7 +276,7 @@ class Subcritical(Layout):
         Q_out = m_wf * cs.q_rejected()
         W_aux = s.aux_power_per_W_rejected * Q_out
         W_net = s.generator_efficiency * W_t - W_p / s.motor_efficiency - W_aux
-        dh_sink = float(sink.h_J_kg(sink.T_out_K) - sink.h_in_J_kg)
+        dh_sink = float(sink.h_J_kg(sink.T_out_K) - sink.h_in_J_kg) if sink is not None else math.nan
         st_t, st_ts, share = cs.turbine_figures(st3)
         V4s = m_wf * share * st_ts.v if share != 1.0 else m_wf * st_ts.v
         if W_net <= 0.0:
@@ -316,6 +336,8 @@ class Subcritical(Layout):
     def _profiles(self, fluid, source, sink, cs: ColdSide, path: FluidPath, m_wf, h_out, n) -> dict[str, Profile]:
         """Discretised T-Q profiles of every exchanger of an evaluated cycle (exact mode)."""
         out = {"evaporator": heater_profile(path, m_wf, h_out, source)}
+        if sink is None:  # a condensing temperature given by hand: no sink to draw
+            return out
         h, T, T_sink = condenser_approach(fluid, sink, cs, n, True)[2]
         m_c = m_wf if cs.condenser_share == 1.0 else m_wf * cs.condenser_share
         out["condenser"] = Profile(m_c * (h - h[0]), T, np.asarray(T_sink, dtype=float))
@@ -358,7 +380,7 @@ class Subcritical(Layout):
             W_pump_W=W_p,
             W_aux_W=W_aux,
             W_net_W=s.generator_efficiency * W_t - W_p / s.motor_efficiency - W_aux,
-            Q_in_W=m_wf * (h_out - path.h[0]),
+            Q_in_W=m_wf * (h_out - float(path.h[0])),
             Q_out_W=Q_out,
             Q_rec_W=m_wf * cs.q_rec,
             eta_turbine=cs.eta_t,

@@ -58,6 +58,7 @@ from .base import (
     isobar_ts,
     pump,
     supercritical_isobar_ts,
+    unused_inputs,
 )
 
 __all__ = ["Transcritical", "TRANSCRITICAL", "TRANSCRITICAL_RECUPERATED", "HEATER_REDUCED_PRESSURE",
@@ -132,6 +133,27 @@ class Transcritical(Layout):
     def variables(self, ctx: CycleContext) -> tuple[Variable, ...]:
         return (TURBINE_INLET_TEMPERATURE, HEATER_REDUCED_PRESSURE)
 
+    def unsuited(self, ctx: CycleContext) -> str | None:
+        """The source must heat the fluid above its critical temperature, and the sink must let it
+        condense below it."""
+        fluid, s = ctx.fluid, ctx.settings
+        T_hot = self.window(ctx, TURBINE_INLET_TEMPERATURE.name, {})
+        if T_hot.hi <= fluid.T_crit_K:
+            return (f"the source cannot heat {fluid.name} above its critical temperature {C(fluid.T_crit_K)} "
+                    f"(upper limit {C(T_hot.hi)}: {T_hot.hi_name}): no supercritical heater")
+        try:
+            T_floor = condensing_floor_K(fluid, ctx.sink, s)
+        except CycleInfeasible as exc:
+            return exc.reason
+        if T_floor >= fluid.T_crit_K:
+            return (f"{fluid.name} cannot condense: the sink and its pinch need {C(T_floor)}, not below its critical "
+                    f"temperature {C(fluid.T_crit_K)}")
+        p_max, name = s.max_heater_pressure_Pa(fluid)
+        if p_max <= LOWEST_REDUCED_PRESSURE * fluid.p_crit_Pa:
+            return (f"the pressure limit {p_max / 1e5:.4g} bar ({name}) leaves no room above the critical pressure "
+                    f"of {fluid.name} ({fluid.p_crit_Pa / 1e5:.4g} bar)")
+        return None
+
     def window(self, ctx: CycleContext, name: str, outer: Mapping[str, float]) -> Window:
         fluid, s = ctx.fluid, ctx.settings
         if name == HEATER_REDUCED_PRESSURE.name:
@@ -143,6 +165,18 @@ class Transcritical(Layout):
         limits.append((fluid.T_max_K, "equation of state range"))
         T_hi, hi_name = min(limits)
         return Window(fluid.T_crit_K, T_hi, "critical temperature", hi_name)
+
+    hand_inputs = ("high_pressure_Pa", "turbine_inlet_temperature_K")
+
+    def variables_for(self, fluid, given):
+        unused_inputs(self, given)
+        p, T3 = given.get("high_pressure_Pa"), given.get("turbine_inlet_temperature_K")
+        if p is None or T3 is None:
+            raise ValueError(f"layout {self.name!r} needs the heater pressure and the turbine inlet temperature")
+        if not p > fluid.p_crit_Pa:
+            raise ValueError(f"heater pressure {p / 1e5:.4g} bar is not above the critical pressure of {fluid.name} "
+                             f"({fluid.p_crit_Pa / 1e5:.4g} bar): use a subcritical layout")
+        return {HEATER_REDUCED_PRESSURE.name: p / fluid.p_crit_Pa, TURBINE_INLET_TEMPERATURE.name: T3}
 
     # -- evaluation -----------------------------------------------------------------------
     def evaluate(self, ctx, x, exact=True, T_cond_guess_K=None, cond_tol_K=None, T_cond_K=None, m_wf_kg_s=None):
@@ -214,8 +248,9 @@ class Transcritical(Layout):
         profiles = {}
         if exact:
             profiles["evaporator"] = heater_profile(path, m_wf, st3.h, source)
-            h, T, T_sink = condenser_approach(fluid, sink, cs, s.n_zone_segments, True)[2]
-            profiles["condenser"] = Profile(m_wf * (h - h[0]), T, np.asarray(T_sink, dtype=float))
+            if sink is not None:
+                h, T, T_sink = condenser_approach(fluid, sink, cs, s.n_zone_segments, True)[2]
+                profiles["condenser"] = Profile(m_wf * (h - h[0]), T, np.asarray(T_sink, dtype=float))
             if cs.recuperator_active:
                 prof = cs.rec_profile
                 profiles["recuperator"] = Profile(m_wf * prof.Q_W, prof.T_hot_K, prof.T_cold_K)
