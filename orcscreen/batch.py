@@ -44,6 +44,7 @@ message; the batch goes on.
 
 from __future__ import annotations
 
+import collections
 import contextlib
 import ctypes
 import gc
@@ -77,10 +78,18 @@ __all__ = [
 ]
 
 TARGET_CHUNK_S = 0.5
+MAX_TIMER_S = 1e7
+"""Longest case time limit [s] the timers are set for (about 116 days); a longer limit is no
+limit (setitimer(2) and threading.Timer refuse values far beyond it)."""
+WORKER_DEATHS_PER_CASE = 3
+"""A case in flight when this many worker processes died without another case to blame is
+recorded as failed."""
 MAX_CHUNK = 50
 FIRST_CHUNK = 4
 DEFAULT_TIME_LIMIT_S = 60.0
 PLAIN_PROGRESS_EVERY_S = 5.0
+REPORT_WAIT_S = 120.0
+"""How long [s] a run waits for an ``orcscreen report`` that holds the folder's lock."""
 STATUSES = ("ok", "infeasible", "failed")
 CHUNKS_IN_FLIGHT_PER_WORKER = 2
 
@@ -105,7 +114,9 @@ class RunSummary:
     """What one call of :func:`run_study` did.
 
     ok / infeasible / failed count the cases computed by this call, skipped the cases found in
-    the store already; ``store_counts`` is the status count of all current cases in the store;
+    the store already, retried the failed cases of the store computed again (part of the
+    computed ones); damage says how a damaged store was salvaged ("" if it was sound);
+    ``store_counts`` is the status count of all current cases in the store;
     wall_time_s [s] the wall time of the call; ``workers`` where the cases ran: "this process",
     "forked", "loky", "dask" or "" (nothing to compute).
     """
@@ -122,6 +133,8 @@ class RunSummary:
     max_chunk: int
     store_counts: dict[str, int] = field(default_factory=dict)
     workers: str = ""
+    retried: int = 0
+    damage: str = ""
 
     @property
     def computed(self) -> int:
@@ -130,9 +143,11 @@ class RunSummary:
 
     def __str__(self) -> str:
         done = ", ".join(f"{s} {self.store_counts.get(s, 0)}" for s in STATUSES)
+        retried = f"{self.retried} failed before, retried; " if self.retried else ""
+        damage = f"; {self.damage}" if self.damage else ""
         return (f"{self.total} cases ({done}); computed {self.computed} now "
-                f"(ok {self.ok}, infeasible {self.infeasible}, failed {self.failed}), "
-                f"{self.skipped} already in the store; {self.wall_time_s:.1f} s")
+                f"({retried}ok {self.ok}, infeasible {self.infeasible}, failed {self.failed}), "
+                f"{self.skipped} already in the store{damage}; {self.wall_time_s:.1f} s")
 
 
 # -- inside the worker ------------------------------------------------------------------------
@@ -171,7 +186,7 @@ def _time_limit(seconds: float | None) -> Iterator[None]:
     workers run tasks in threads): an asynchronous exception set on the thread by a timer, which
     Python delivers between bytecodes (not inside one long call into compiled code).
     """
-    if seconds is None or not math.isfinite(seconds) or seconds <= 0:
+    if seconds is None or not math.isfinite(seconds) or seconds <= 0 or seconds > MAX_TIMER_S:
         yield
         return
     if threading.current_thread() is threading.main_thread() and hasattr(signal, "setitimer"):
@@ -238,12 +253,33 @@ def _run_one(case: Mapping[str, Any], time_limit_s: float | None) -> tuple[dict,
     return {"row": dict(result["row"]), "detail": result.get("detail")}, elapsed
 
 
+#: In a forked worker: (shared array of (pid, case index) pairs, this worker's slot); the
+#: driver reads which case a dead worker was running from it (see _ForkPool).
+_SLOT: tuple[Any, int] | None = None
+
+
+def _mark_running(index: int) -> None:
+    """Tell the driver which case this forked worker runs now (-1: none)."""
+    if _SLOT is not None:
+        slots, slot = _SLOT
+        slots[2 * slot + 1] = index
+
+
 def _run_chunk(tasks: list[tuple[int, str, dict]], time_limit_s: float | None) -> list[EncodedCase]:
     """Worker task: run the cases of one chunk; returns them encoded for the store (the JSON
     work is done here, in parallel, not in the driver)."""
+    try:
+        return _run_chunk_cases(tasks, time_limit_s)
+    finally:
+        _mark_running(-1)
+
+
+def _run_chunk_cases(tasks: list[tuple[int, str, dict]],
+                     time_limit_s: float | None) -> list[EncodedCase]:
     threaded = threading.current_thread() is not threading.main_thread()
     records = []
     for index, key, case in tasks:
+        _mark_running(index)
         limit = time_limit_s
         if limit is None:
             limit = float(case.study.case_time_limit_s)
@@ -268,7 +304,8 @@ def _worker_versions() -> tuple[str, str]:
 _PR_SET_PDEATHSIG = 1  # linux/prctl.h
 
 
-def _forked_worker_init(driver_pid: int, inherited_fds: tuple[int, ...] = ()) -> None:
+def _forked_worker_init(driver_pid: int, inherited_fds: tuple[int, ...] = (),
+                        slots: Any = None, counter: Any = None) -> None:
     """First thing in a forked worker: leave Ctrl-C to the driver, die with the driver, close
     ``inherited_fds`` (the run lock, when the store was opened before the fork: flock(2) locks
     belong to the open file, which a worker must not keep open after the driver dies).
@@ -287,6 +324,14 @@ def _forked_worker_init(driver_pid: int, inherited_fds: tuple[int, ...] = ()) ->
         libc.prctl(_PR_SET_PDEATHSIG, int(signal.SIGKILL), 0, 0, 0)
     if os.getppid() != driver_pid:
         os._exit(1)
+    if slots is not None and counter is not None:
+        global _SLOT
+        with counter.get_lock():
+            slot = counter.value
+            counter.value += 1
+        if 2 * slot + 1 < len(slots):
+            slots[2 * slot], slots[2 * slot + 1] = os.getpid(), -1
+            _SLOT = (slots, slot)
 
 
 def _ready() -> int:
@@ -316,27 +361,63 @@ class _ForkPool:
     """
 
     def __init__(self, workers: int, inherited_fds: tuple[int, ...] = ()) -> None:
-        import multiprocessing
-        from concurrent.futures import ProcessPoolExecutor
-
         from orcscreen import api  # noqa: F401 - loaded before the fork, inherited by the workers
         from orcscreen.properties import coolprop_version
 
         coolprop_version()
         self.workers = workers
+        self.restarts = 0
+        self._start(tuple(inherited_fds))
+
+    def _start(self, inherited_fds: tuple[int, ...]) -> None:
+        import multiprocessing
+        from concurrent.futures import ProcessPoolExecutor
+
+        context = multiprocessing.get_context("fork")
+        # (pid, index of the case it runs) per worker, shared with the workers (see _SLOT)
+        self.slots = context.RawArray(ctypes.c_long, 2 * self.workers)
+        counter = context.Value(ctypes.c_int, 0)
         before = set(multiprocessing.active_children())
         gc.collect()
         gc.freeze()
         try:
             self.executor = ProcessPoolExecutor(
-                max_workers=workers, mp_context=multiprocessing.get_context("fork"),
-                initializer=_forked_worker_init, initargs=(os.getpid(), tuple(inherited_fds)))
+                max_workers=self.workers, mp_context=context, initializer=_forked_worker_init,
+                initargs=(os.getpid(), inherited_fds, self.slots, counter))
             # the first submission forks every worker now (CPython forks them all at once,
             # before the executor's own thread starts: bpo-90622)
             self.executor.submit(_ready)
         finally:
             gc.unfreeze()
         self.processes = [p for p in multiprocessing.active_children() if p not in before]
+
+    def restart(self, inherited_fds: tuple[int, ...] = ()) -> None:
+        """Stop every worker and fork a new set (after a worker died: the executor is broken)."""
+        self.close(abort=True)
+        self.restarts += 1
+        self._start(tuple(inherited_fds))
+
+    def dead_workers(self) -> list[tuple[int, int]]:
+        """(index of the case it was running, or -1, and exit code) of each worker that died by
+        itself, once the executor is broken. The executor stops the other workers with SIGTERM
+        and reaps them all (CPython's concurrent.futures, ``terminate_broken``); those are left
+        out, so a worker that was itself ended by SIGTERM is not told apart (the callers count
+        such deaths per case instead)."""
+        with contextlib.suppress(Exception):
+            self.executor.shutdown(wait=True, cancel_futures=True)
+        found = []
+        for proc in self.processes:
+            with contextlib.suppress(ValueError, AssertionError, OSError):
+                proc.join(timeout=5)
+            code = proc.exitcode
+            if code is None or code in (0, -signal.SIGTERM):
+                continue
+            index = -1
+            for slot in range(self.workers):
+                if self.slots[2 * slot] == proc.pid:
+                    index = int(self.slots[2 * slot + 1])
+            found.append((index, code))
+        return found
 
     def submit(self, fn: Callable, *args: Any):
         return self.executor.submit(fn, *args)
@@ -511,45 +592,147 @@ def _serial_results(chunks: Iterable[list], sizer: _ChunkSizer,
         yield records
 
 
-def _pool_results(pool: _ForkPool, chunks: Iterable[list], sizer: _ChunkSizer,
-                  time_limit_s: float | None) -> Iterator[list[EncodedCase]]:
-    """Run the chunks on forked workers; yield each chunk's records as soon as it is back.
+class _TaskFeed:
+    """The tasks of a run, with tasks put back in front (after a worker died) served first."""
+
+    def __init__(self, tasks: Iterable[tuple[int, str, dict]]) -> None:
+        self.source = iter(tasks)
+        self.front: collections.deque = collections.deque()
+
+    def __iter__(self) -> _TaskFeed:
+        return self
+
+    def __next__(self) -> tuple[int, str, dict]:
+        if self.front:
+            return self.front.popleft()
+        return next(self.source)
+
+
+def describe_exit(code: int) -> str:
+    """A worker's exit code in words: "killed by signal SIGKILL (9)" or "exit status 3"."""
+    if code < 0:
+        try:
+            name = signal.Signals(-code).name
+        except ValueError:
+            name = "an unknown signal"
+        return f"killed by signal {name} ({-code})"
+    return f"exit status {code}"
+
+
+def worker_died_row(case: Mapping[str, Any], how: str) -> dict:
+    """The failed row of a case whose worker process died while running it."""
+    return failed_row(case, f"{WORKER_DIED} ({how}) while running this case: a fault in compiled "
+                      "code, or the system's memory killer; it is tried again on the next run")
+
+
+WORKER_DIED = "worker process died"
+
+
+def _pool_results(pool: _ForkPool, tasks: Iterable[tuple[int, str, dict]], sizer: _ChunkSizer,
+                  time_limit_s: float | None,
+                  inherited_fds: tuple[int, ...] = ()) -> Iterator[list[EncodedCase]]:
+    """Run the tasks in chunks on forked workers; yield each chunk's records as soon as it is
+    back.
 
     At most CHUNKS_IN_FLIGHT_PER_WORKER chunks per worker are submitted; each returned chunk
     is measured before the next one is cut, and the next one is submitted before the returned
     one is handed on (stored), so no worker waits for the store.
+
+    A worker that dies (a fault in compiled code, the memory killer) breaks the executor and
+    every chunk in flight with it. The case it was running (from the shared slots, see
+    :data:`_SLOT`) is yielded as failed with the signal; the other cases of the lost chunks go
+    back in front of the queue, the workers are forked anew (closing ``inherited_fds`` in
+    them) and the batch goes on. A case in flight during :data:`WORKER_DEATHS_PER_CASE`
+    deaths that no case could be blamed for is recorded as failed as well.
     """
     from concurrent.futures import FIRST_COMPLETED, wait
     from concurrent.futures.process import BrokenProcessPool
 
-    source = iter(chunks)
+    feed = _TaskFeed(tasks)
+    chunks = sizer.chunks(feed)
     window = CHUNKS_IN_FLIGHT_PER_WORKER * pool.workers
-    in_flight: set = set()
+    in_flight: dict = {}
+    deaths: dict[int, int] = {}  # case index -> unattributed deaths while it was in flight
 
-    def top_up() -> None:
+    def top_up() -> bool:
+        """Submit chunks up to the window; True when the executor turned out to be broken."""
+        nonlocal chunks
         while len(in_flight) < window:
-            chunk = next(source, None)
+            chunk = next(chunks, None)
+            if chunk is None and feed.front:  # tasks put back after the chunks ran out
+                chunks = sizer.chunks(feed)
+                chunk = next(chunks, None)
             if chunk is None:
-                return
-            in_flight.add(pool.submit(_run_chunk, chunk, time_limit_s))
-
-    top_up()
-    while in_flight:
-        done, _ = wait(in_flight, return_when=FIRST_COMPLETED)
-        finished = []
-        for future in done:
-            in_flight.discard(future)
+                return False
             try:
-                records = future.result()
-            except BrokenProcessPool as exc:
-                raise BatchError(
-                    f"a worker process died while running cases ({exc}); the cases stored so "
-                    "far are kept: run again to resume, or with --jobs 1 to find the case "
-                    "that kills it") from None
-            sizer.observe(rec.elapsed_s or 0.0 for rec in records)
-            finished.append(records)
-        top_up()
+                future = pool.submit(_run_chunk, chunk, time_limit_s)
+            except BrokenProcessPool:  # a worker died since the last look: back in the queue
+                feed.front.extendleft(reversed(chunk))
+                sizer.dispatched -= len(chunk)
+                return True
+            in_flight[future] = chunk
+        return False
+
+    def recover(finished: list) -> None:
+        """After a worker died: keep the chunks that finished, fail the case the dead worker
+        ran, put the other cases back in front of the queue and fork new workers."""
+        lost: list[tuple[int, str, dict]] = []
+        for future, chunk in list(in_flight.items()):
+            try:
+                records = future.result()  # finished before the break: kept
+            except BrokenProcessPool:
+                lost.extend(chunk)
+            else:
+                sizer.observe(rec.elapsed_s or 0.0 for rec in records)
+                finished.append(records)
+        in_flight.clear()
+        blamed = {index: code for index, code in pool.dead_workers() if index >= 0}
+        failed, again = [], []
+        for task in lost:
+            index, key, case = task
+            if index in blamed:
+                how = describe_exit(blamed[index])
+            elif not blamed:
+                deaths[index] = deaths.get(index, 0) + 1
+                if deaths[index] < WORKER_DEATHS_PER_CASE:
+                    again.append(task)
+                    continue
+                how = f"{deaths[index]} worker deaths while it was running or queued"
+            else:
+                again.append(task)
+                continue
+            failed.append(encode_case(key, index, {"row": worker_died_row(case, how), "detail": None},
+                                      _sweep_of(case), None))
+        if failed:
+            finished.append(failed)
+        feed.front.extendleft(reversed(again))
+        sizer.dispatched -= len(again)
+        pool.restart(inherited_fds)
+
+    broken = top_up()
+    while in_flight or broken:
+        finished: list = []
+        if not broken:
+            done, _ = wait(in_flight, return_when=FIRST_COMPLETED)
+            for future in done:
+                try:
+                    records = future.result()
+                except BrokenProcessPool:
+                    broken = True
+                    continue
+                in_flight.pop(future)
+                sizer.observe(rec.elapsed_s or 0.0 for rec in records)
+                finished.append(records)
+        if broken:
+            recover(finished)
+        broken = top_up()
         yield from finished
+
+
+def _sweep_of(case: Any) -> Mapping[str, Any]:
+    """The swept values of a case (a case dictionary or a typed case)."""
+    sweep = case.get("sweep") if isinstance(case, Mapping) else getattr(case, "sweep", None)
+    return sweep or {}
 
 
 def _joblib_results(cluster: str | None, n_jobs: int, chunks: Iterable[list],
@@ -572,30 +755,32 @@ def run_cases(tasks: Iterable[tuple[int, str, dict]], store: RunStore, *, pendin
     """Run ``(index, key, case)`` tasks (``pending`` of them) and store every finished case.
 
     Where the cases run: on ``cluster`` (Dask, through joblib) if given; else on ``pool`` (forked
-    workers) if given; else in this process when ``jobs`` is 1 or one case is pending; else on
-    workers forked now (:func:`fork_workers_available`) or joblib's loky workers.
+    workers) if given; else on workers forked now when possible (:func:`fork_workers_available`,
+    also for one job: a case that kills its process then fails alone); else in this process
+    when ``jobs`` is 1 or one case is pending; else on joblib's loky workers.
 
     Returns (status counts of the computed cases, number of worker tasks, largest chunk).
     """
     counts = dict.fromkeys(STATUSES, 0)
     if pending == 0:
         return counts, 0, 0
+    lock_fd = getattr(store, "_lock_fd", None)
+    inherited = () if lock_fd is None else (lock_fd,)
     with contextlib.ExitStack() as stack:
         if cluster is not None:
             sizer = _ChunkSizer(pending, max(jobs, 1))
             results = _joblib_results(cluster, -1, sizer.chunks(tasks), sizer, time_limit_s)
         elif pool is not None:
             sizer = _ChunkSizer(pending, pool.workers)
-            results = _pool_results(pool, sizer.chunks(tasks), sizer, time_limit_s)
+            results = _pool_results(pool, tasks, sizer, time_limit_s, inherited)
+        elif fork_workers_available():
+            # also for one job or one case: a case that kills its process must not kill the run
+            own = stack.enter_context(_ForkPool(min(jobs, pending), inherited))
+            sizer = _ChunkSizer(pending, own.workers)
+            results = _pool_results(own, tasks, sizer, time_limit_s, inherited)
         elif jobs == 1 or pending == 1:
             sizer = _ChunkSizer(pending, 1)
             results = _serial_results(sizer.chunks(tasks), sizer, time_limit_s)
-        elif fork_workers_available():
-            lock_fd = getattr(store, "_lock_fd", None)
-            own = stack.enter_context(_ForkPool(min(jobs, pending),
-                                                () if lock_fd is None else (lock_fd,)))
-            sizer = _ChunkSizer(pending, own.workers)
-            results = _pool_results(own, sizer.chunks(tasks), sizer, time_limit_s)
         else:
             sizer = _ChunkSizer(pending, min(jobs, pending))
             results = _joblib_results(None, min(jobs, pending), sizer.chunks(tasks), sizer,
@@ -631,9 +816,30 @@ def _study_dict(study: Any) -> Any:
     return body
 
 
+def _salvage(store: RunStore) -> str:
+    """Make a store that SQLite reports damaged, or that holds undecodable rows, usable again:
+    the readable cases are kept, the others left out (and so computed again). Returns what
+    was done, in words, or ""."""
+    notes = []
+    report = store.salvage_report
+    if report is None:
+        problem = store.integrity_problem()
+        if problem is not None:
+            report = store.salvage()
+    if report is not None:
+        notes.append(f"the run store was damaged: {report.kept} readable cases kept, "
+                     f"{report.lost} unreadable cases to compute again (the damaged file is "
+                     f"kept as {report.damaged_file.name})")
+    unreadable = store.unreadable_keys()
+    if unreadable:
+        store.drop_cases(unreadable)
+        notes.append(f"{len(unreadable)} stored cases could not be read and are computed again")
+    return "; ".join(notes)
+
+
 def run_study(study: Any, out_dir: str | os.PathLike[str], jobs: int | None = None,
               cluster: str | None = None, progress: bool = True,
-              time_limit_s: float | None = None, *, retry_failed: bool = False,
+              time_limit_s: float | None = None, *, retry_failed: bool = True,
               write_tables: bool = True) -> RunSummary:
     """Compute every case of ``study`` not yet in ``out_dir/run.sqlite``, then (by default)
     regenerate ``ranking.csv`` and ``run-info.json``.
@@ -642,7 +848,12 @@ def run_study(study: Any, out_dir: str | os.PathLike[str], jobs: int | None = No
     cluster: address of a Dask scheduler (``tcp://host:8786``), needs ``orcscreen[cluster]``.
     progress: show a progress bar (terminal) or plain progress lines on stderr.
     time_limit_s [s]: per-case limit overriding the study's ``case_time_limit_s``.
-    retry_failed: compute stored cases with status "failed" again.
+    retry_failed: compute stored cases with status "failed" again (the default: a failure may
+    come from a time limit or a dead worker, and is not final); ok and infeasible cases are
+    never recomputed.
+
+    A damaged store is salvaged first (:meth:`RunStore.salvage`, :meth:`RunStore.unreadable_keys`):
+    the readable cases are kept, the others are computed again; the summary says how many.
 
     Raises StoreLockedError when another run holds ``out_dir``, ClusterError for an unusable
     cluster, ValueError for jobs < 1.
@@ -662,9 +873,11 @@ def run_study(study: Any, out_dir: str | os.PathLike[str], jobs: int | None = No
         # any progress-bar thread, so that a worker inherits neither (module docstring).
         n_cases = int(getattr(study, "n_cases", 0) or 0)
         pool = None
-        if cluster is None and jobs > 1 and n_cases > 1 and fork_workers_available():
+        if cluster is None and n_cases >= 1 and fork_workers_available():
             pool = stack.enter_context(_ForkPool(min(jobs, n_cases)))
-        store = stack.enter_context(RunStore(out_dir, lock=True))
+        store = stack.enter_context(RunStore(out_dir, lock=True, salvage=True,
+                                             wait_s=REPORT_WAIT_S))
+        damage = _salvage(store)
         keys: list[str] = []
         layouts: list[tuple[str, str]] = []  # (fluid, layout) per case: a cheap order check
         name = None
@@ -678,8 +891,8 @@ def run_study(study: Any, out_dir: str | os.PathLike[str], jobs: int | None = No
                        study_hash=study_hash(study), study_name=name or getattr(study, "name", None),
                        study=_study_dict(study), cases=len(set(keys)))
         done = store.done_keys()
-        if retry_failed:
-            done -= store.failed_keys()
+        retry = store.failed_keys() & set(keys) if retry_failed else set()
+        done -= retry
         todo = {k for k in keys if k not in done}
         del done
         skipped = len(set(keys)) - len(todo)
@@ -727,4 +940,4 @@ def run_study(study: Any, out_dir: str | os.PathLike[str], jobs: int | None = No
                           infeasible=counts.get("infeasible", 0), failed=counts.get("failed", 0),
                           skipped=skipped, wall_time_s=time.perf_counter() - start, jobs=jobs,
                           tasks=n_tasks, max_chunk=largest, store_counts=store.counts(),
-                          workers=kind)
+                          workers=kind, retried=len(retry), damage=damage)

@@ -45,11 +45,13 @@ def _cmd_run(args: argparse.Namespace) -> int:
     from orcscreen.study import load_study
 
     study = load_study(args.study, allow_huge=args.yes)
+    _print_warnings(study)
     from orcscreen import batch, outputs  # after validation: batch loads the engine
 
     out_dir = Path(args.out) if args.out else Path("out") / Path(args.study).stem
     print(f"study {study.study.name!r}: {study.n_cases} cases -> {out_dir}", file=sys.stderr)
-    summary = batch.run_study(study, out_dir=out_dir, jobs=args.jobs, cluster=args.cluster, progress=True)
+    summary = batch.run_study(study, out_dir=out_dir, jobs=args.jobs, cluster=args.cluster, progress=True,
+                              retry_failed=not args.keep_failed)
     table = outputs.write_outputs(out_dir)
     print(outputs.top_table(table, n=args.top))
     print(f"run: {summary}")
@@ -58,6 +60,13 @@ def _cmd_run(args: argparse.Namespace) -> int:
         _build_report_quietly(out_dir)
     print(CAUTION_LINE)
     return EXIT_OK
+
+
+def _print_warnings(study: Any) -> None:
+    """The study's warnings (a sweep that overrides a value written in its section...), one a
+    line on stderr; they do not stop anything."""
+    for line in getattr(study, "warnings", ()):
+        print(line, file=sys.stderr)
 
 
 def _build_report_quietly(out_dir: Path) -> None:
@@ -81,6 +90,7 @@ def _cmd_check(args: argparse.Namespace) -> int:
     from orcscreen.study import load_study
 
     study = load_study(args.study, allow_huge=args.yes)
+    _print_warnings(study)
     print(f"{args.study}: valid study {study.study.name!r} (schema version 1)")
     sizes = study.sweep_sizes
     for path, spec in study.sweep_spec.items():
@@ -162,7 +172,8 @@ def _cmd_report(args: argparse.Namespace) -> int:
                              "directory holds the results") from None
         raise
     path = report.build_report(out_dir)
-    print(f"report: {path if path else out_dir / 'report.html'}")
+    print(f"report: {path if path else out_dir / 'report.html'} "
+          f"(store read {getattr(report, 'READ_MODE', 'as found')})")
     print(CAUTION_LINE)
     return EXIT_OK
 
@@ -236,7 +247,8 @@ def build_parser() -> argparse.ArgumentParser:
         description="Run every case of a study (resuming from DIR/run.sqlite), write the outputs and "
         "print the top of the ranking.",
         epilog="example:\n  orcscreen run studies/geothermal-brine.toml --out out/brine --jobs 2\n\n"
-        "Running the same command again resumes: finished cases are not computed again.",
+        "Running the same command again resumes: ok and infeasible cases are not computed again,\n"
+        "failed ones are retried (--keep-failed keeps them as they are).",
         formatter_class=fmt,
     )
     p.add_argument("study", metavar="STUDY.toml", help="the study file")
@@ -247,6 +259,9 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--yes", action="store_true", help="allow a study of more than 1,000,000 cases")
     p.add_argument("--no-report", action="store_true", help="skip the charts and report.html")
     p.add_argument("--top", type=_positive_int, default=10, metavar="N", help="rows of the ranking to print (default 10)")
+    p.add_argument("--keep-failed", action="store_true",
+                   help="do not compute again the cases stored as failed by an earlier run into DIR "
+                   "(by default they are retried; ok and infeasible cases are never recomputed)")
     p.set_defaults(func=_cmd_run)
 
     p = sub.add_parser(
@@ -319,6 +334,37 @@ def _bad_input_types() -> tuple[type[BaseException], ...]:
     return tuple(found)
 
 
+#: errno values of OSErrors the user can fix (permissions, space, links, paths): exit status 2
+_FIXABLE_ERRNOS = ("EACCES", "EPERM", "EROFS", "ENOSPC", "EDQUOT", "ELOOP", "ENOTDIR", "EISDIR",
+                   "ENAMETOOLONG", "ENOENT", "EEXIST", "EMLINK", "EFBIG")
+
+
+def _user_fixable_environment_error(exc: BaseException) -> str | None:
+    """A one-line message (path, what went wrong, what to do) for an error of the machine the
+    user can fix (a read-only or full output folder, a link in the way...), else None."""
+    import errno as errno_module
+    import sqlite3
+
+    from orcscreen.safe_files import OutputFolderError, describe_os_error
+
+    if isinstance(exc, OutputFolderError):
+        return str(exc)
+    if isinstance(exc, OSError) and exc.errno in {getattr(errno_module, n, None) for n in _FIXABLE_ERRNOS}:
+        return describe_os_error(exc, exc.filename)
+    from orcscreen.store import is_damage
+
+    if is_damage(exc):
+        return (f"the run store is damaged ({exc}); run the study again into the same output "
+                "folder: orcscreen sets the damaged file aside, keeps the readable cases and "
+                "recomputes the rest")
+    if isinstance(exc, sqlite3.OperationalError):
+        from orcscreen.store import _environment_error
+
+        found = _environment_error(exc, Path(getattr(exc, "filename", "") or "the run store"))
+        return str(found) if found is not None else None
+    return None
+
+
 def main(argv: Sequence[str] | None = None) -> int:
     """Run the command line with ``argv`` (default sys.argv[1:]); return the exit status."""
     parser = build_parser()
@@ -348,6 +394,10 @@ def main(argv: Sequence[str] | None = None) -> int:
             bad_input = _bad_input_types()
         except Exception:  # noqa: BLE001
             bad_input = (UsageError,)
+        fixable = _user_fixable_environment_error(exc)
+        if fixable:
+            print(f"orcscreen: {fixable}", file=sys.stderr)
+            return EXIT_BAD_INPUT
         if isinstance(exc, bad_input):
             from orcscreen.study import StudyError
 

@@ -27,11 +27,13 @@ import contextlib
 import json
 import math
 import os
+import sqlite3
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
 from orcscreen import store as _store
+from orcscreen.safe_files import atomic_write, atomic_writer
 from orcscreen.store import (
     ColumnKinds,
     RunStore,
@@ -344,9 +346,9 @@ def _stream_ranking(store: RunStore, meta: dict, target: Path | None,
 
     # Pass 2: whole operating points, about ROWS_CHUNK rows at a time, in ranking order.
     tally = _Tally(sweep_cols, keep)
-    tmp = None if target is None else target.with_name(f".{target.name}.tmp")
-    out = None if tmp is None else open(tmp, "w", encoding="utf-8", newline="")
-    try:
+    with contextlib.ExitStack() as stack:
+        # written to a temporary file created without following links, renamed at the end
+        out = None if target is None else stack.enter_context(atomic_writer(target))
         first = True
         for part in _point_slices(order):
             indexes = part["case_index"].to_numpy(dtype="int64")
@@ -373,15 +375,6 @@ def _stream_ranking(store: RunStore, meta: dict, target: Path | None,
                              lineterminator="\n")
             first = False
             tally.add(table)
-        if out is not None:
-            out.close()
-            out = None
-            os.replace(tmp, target)
-    finally:
-        if out is not None:
-            out.close()
-            with contextlib.suppress(OSError):
-                os.unlink(tmp)
     return tally.summary(target or store.directory / RANKING_FILE, store.path, out_columns)
 
 
@@ -447,6 +440,8 @@ def write_outputs(out_dir: str | os.PathLike[str],
             summary = _stream_ranking(store, meta, ranking_path)
         else:
             summary = _whole_ranking(store, meta, ranking_path)
+    except sqlite3.DatabaseError as exc:  # a damaged file: say so, with what to do
+        raise store.error_for(exc) from None
     finally:
         if own:
             store.close()
@@ -492,9 +487,7 @@ def ranking_sweep_columns(table: pd.DataFrame) -> list[str]:
 
 
 def _atomic_write(path: Path, text: str) -> None:
-    tmp = path.with_name(f".{path.name}.tmp")
-    tmp.write_text(text, encoding="utf-8")
-    os.replace(tmp, path)
+    atomic_write(path, text)
 
 
 def _fmt(value, spec: str) -> str:

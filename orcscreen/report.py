@@ -13,10 +13,12 @@ Orchestration only: no physics here, every number comes from the stored rows and
 from __future__ import annotations
 
 import base64
+import contextlib
 import html
 import logging
 import math
 import os
+import sqlite3
 from dataclasses import dataclass, field
 from datetime import datetime, timezone
 from itertools import combinations
@@ -28,7 +30,8 @@ import pandas as pd
 from orcscreen import plots, rank
 from orcscreen.figures import LAYOUT_COLUMNS
 from orcscreen.outputs import ranking_table
-from orcscreen.store import RunStore
+from orcscreen.safe_files import atomic_write, refuse_link
+from orcscreen.store import RunStore, StoreError
 
 __all__ = ["REPORT_FILE", "FIGURES_DIR", "FigureRecord", "build_report", "make_figures",
            "cautions_text", "fluid_cautions"]
@@ -37,6 +40,10 @@ log = logging.getLogger(__name__)
 
 REPORT_FILE = "report.html"
 FIGURES_DIR = "figures"
+#: how long [s] a report waits for another report that holds the run lock of the folder
+REPORT_LOCK_WAIT_S = 120.0
+#: How the report reads the store, for the command line to say.
+READ_MODE = "under the run lock, from one consistent snapshot of the store"
 #: most rows written into the HTML ranking table (the full table is in ranking.csv)
 MAX_TABLE_ROWS = 2000
 
@@ -99,9 +106,12 @@ REPORT_COLUMNS = (
 
 
 def _load(out_dir: Path, top_n: int,
-          columns: Sequence[str] | None = REPORT_COLUMNS) -> _RunData:
-    """The report's data from the store; ``columns`` None reads every row column."""
-    with RunStore(out_dir, create=False) as store:
+          columns: Sequence[str] | None = REPORT_COLUMNS,
+          store: RunStore | None = None) -> _RunData:
+    """The report's data from the store (``store``, or the store of ``out_dir`` opened for
+    reading); ``columns`` None reads every row column."""
+    with (RunStore(out_dir, create=False) if store is None
+          else contextlib.nullcontext(store)) as store:
         meta, counts = store.meta(), store.counts()
         table = ranking_table(store.rows(columns=columns), meta, all_columns=columns is None)
         sweep_cols = rank.sweep_columns(table)
@@ -158,7 +168,11 @@ def make_figures(data: _RunData, fig_dir: Path) -> list[FigureRecord]:
     """Draw every chart of the run into ``fig_dir``; one record per chart, failures included.
 
     Without any feasible case there is nothing to draw (no chart, no error)."""
+    refuse_link(fig_dir)
     fig_dir.mkdir(parents=True, exist_ok=True)
+    for entry in fig_dir.iterdir():  # the folder is the report's: a link there is dropped,
+        if entry.is_symlink():       # never written through
+            entry.unlink()
     for old in list(fig_dir.glob("*.png")) + list(fig_dir.glob("*.svg")):
         old.unlink()                 # charts of an earlier report (other top fluids, say)
     records: list[FigureRecord] = []
@@ -817,11 +831,21 @@ def build_report(out_dir: str | os.PathLike[str], top_n: int = 5) -> Path:
     chart.
     """
     out_dir = Path(out_dir)
-    data = _load(out_dir, max(0, int(top_n)))
-    records = make_figures(data, out_dir / FIGURES_DIR)
-    page = render_report(data, records)
     path = out_dir / REPORT_FILE
-    tmp = path.with_name(f".{path.name}.tmp")
-    tmp.write_text(page, encoding="utf-8")
-    os.replace(tmp, path)
+    if out_dir.is_dir() and not os.access(out_dir, os.W_OK):
+        raise StoreError(
+            f"{out_dir}: the folder is not writable for you, so the report cannot be written "
+            "there (the run store itself is fine); make the folder writable, or copy it and run "
+            "`orcscreen report` on the copy")
+    # The same lock as a run (a run in progress is refused, another report is waited for),
+    # and one read transaction: the report shows one consistent state of the store.
+    with RunStore(out_dir, create=False, lock=True, purpose="report",
+                  wait_s=REPORT_LOCK_WAIT_S) as store, store.snapshot():
+        try:
+            data = _load(out_dir, max(0, int(top_n)), store=store)
+        except sqlite3.DatabaseError as exc:  # a damaged file: say so, with what to do
+            raise store.error_for(exc) from None
+        records = make_figures(data, out_dir / FIGURES_DIR)
+        page = render_report(data, records)
+        atomic_write(path, page)  # temporary file without following links, then rename
     return path

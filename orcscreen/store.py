@@ -29,17 +29,21 @@ pandas is imported only by the functions that build tables.
 from __future__ import annotations
 
 import contextlib
+import errno
 import fcntl
 import functools
 import json
 import math
 import os
 import sqlite3
+import time
 from collections.abc import Iterable, Iterator, Mapping
 from datetime import datetime, timezone
 from importlib import metadata
 from pathlib import Path
 from typing import TYPE_CHECKING, Any, NamedTuple
+
+from orcscreen.safe_files import OutputFolderError, describe_os_error, open_lock_file, refuse_link
 
 if TYPE_CHECKING:  # pandas is imported where tables are built: not needed to run cases
     import pandas as pd
@@ -51,6 +55,9 @@ __all__ = [
     "StoreError",
     "StoreLockedError",
     "StoreNotFoundError",
+    "StoreDamagedError",
+    "SalvageReport",
+    "salvage_store",
     "RunStore",
     "EncodedCase",
     "encode_case",
@@ -98,6 +105,54 @@ class StoreLockedError(StoreError):
 
 class StoreNotFoundError(StoreError, FileNotFoundError):
     """No run store in the given directory (and the caller asked not to create one)."""
+
+
+class StoreDamagedError(StoreError):
+    """The store file is damaged (SQLite reports a malformed page or not a database) or holds
+    rows that cannot be decoded; a run salvages it (:func:`salvage_store`,
+    :meth:`RunStore.drop_unreadable`)."""
+
+
+#: SQLite's primary result codes of a damaged file (sqlite.org/rescode.html): SQLITE_CORRUPT,
+#: SQLITE_NOTADB.
+_DAMAGE_CODES = (11, 26)
+#: ... of a full disk and of a file that cannot be written or opened: SQLITE_FULL,
+#: SQLITE_READONLY, SQLITE_CANTOPEN, SQLITE_IOERR, SQLITE_PERM.
+_FULL, _READONLY, _CANTOPEN, _IOERR, _PERM = 13, 8, 14, 10, 3
+
+
+def _sqlite_code(exc: sqlite3.Error) -> int | None:
+    code = getattr(exc, "sqlite_errorcode", None)
+    return None if code is None else code & 0xFF
+
+
+def is_damage(exc: BaseException) -> bool:
+    """True for an SQLite error that means a damaged file (not a locked or full one)."""
+    if not isinstance(exc, sqlite3.DatabaseError):
+        return False
+    code = _sqlite_code(exc)
+    if code is not None:
+        return code in _DAMAGE_CODES
+    text = str(exc)
+    return "malformed" in text or "not a database" in text
+
+
+def _environment_error(exc: sqlite3.Error, path: Path) -> StoreError | None:
+    """A StoreError naming ``path`` and what to do, for SQLite errors the user can fix (full
+    disk, no permission, cannot open); None for others."""
+    code = _sqlite_code(exc)
+    text = str(exc)
+    if code == _FULL or "disk is full" in text:
+        return StoreError(describe_os_error(OSError(errno.ENOSPC, text), path))
+    if code in (_READONLY, _PERM) or "readonly database" in text:
+        return StoreError(describe_os_error(OSError(errno.EACCES, text), path))
+    if code == _CANTOPEN or "unable to open database" in text:
+        return StoreError(f"{path}: cannot open or create the run store ({text}); check that its "
+                          "folder exists and is writable for you, or choose another with --out")
+    if code == _IOERR or "disk I/O error" in text:
+        return StoreError(f"{path}: the disk reported an input/output error ({text}); check the "
+                          "disk (free space, permissions, health) or choose another folder with --out")
+    return None
 
 
 def orcscreen_version() -> str:
@@ -256,7 +311,48 @@ def encode_case(key: str, index: int | None, result: Mapping[str, Any],
 
 def _decoded(rec: tuple) -> tuple:
     key, index, sweep_text, row_text, elapsed_s, finished_at = rec
-    return key, index, json.loads(sweep_text), json.loads(row_text), elapsed_s, finished_at
+    try:
+        sweep, row = json.loads(sweep_text), json.loads(row_text)
+        if not isinstance(sweep, dict) or not isinstance(row, dict):
+            raise ValueError("not a JSON object")
+    except (TypeError, ValueError) as exc:
+        raise StoreDamagedError(
+            f"case {key} of the run store cannot be read ({type(exc).__name__}: {exc}); run the "
+            "study again into the same folder: orcscreen keeps the readable cases and "
+            "recomputes the unreadable ones") from None
+    return key, index, sweep, row, elapsed_s, finished_at
+
+
+#: SQL test of a stored JSON text that Python's json module reads back as an object (a row)
+#: or as any value (a detail). NaN and Infinity, which Python writes and SQLite's JSON
+#: functions refuse, are replaced by 0 for the test (sqlite.org/json1.html).
+def _json_sql(column: str) -> str:
+    return f"replace(replace({column}, 'NaN', '0'), 'Infinity', '0')"
+
+
+def _object_sql(column: str) -> str:
+    """1 when ``column`` holds JSON text of an object (evaluated lazily: CASE stops early)."""
+    j = _json_sql(column)
+    return (f"CASE WHEN typeof({column}) != 'text' THEN 0 WHEN NOT json_valid({j}) THEN 0 "
+            f"ELSE json_type({j}) = 'object' END")
+
+
+_UNREADABLE_SQL = (
+    f"SELECT case_key FROM cases WHERE NOT ({_object_sql('sweep')}) OR NOT ({_object_sql('row')}) "
+    f"OR (detail IS NOT NULL AND NOT (CASE WHEN typeof(detail) != 'text' THEN 0 "
+    f"ELSE json_valid({_json_sql('detail')}) END))"
+)
+
+
+def _readable_json(text: Any, want_object: bool) -> bool:
+    """Python fallback of :data:`_UNREADABLE_SQL` for an SQLite without JSON functions."""
+    if not isinstance(text, str):
+        return False
+    try:
+        value = json.loads(text)
+    except ValueError:
+        return False
+    return isinstance(value, dict) or not want_object
 
 
 def table_columns(sweep_cols: Iterable[str], row_cols: Iterable[str]) -> list[str]:
@@ -274,14 +370,19 @@ class RunStore:
     ``RunStore(path)`` opens (and by default creates) ``path/run.sqlite``; ``path`` may also name
     the ``.sqlite`` file itself. With ``lock=True`` the run lock is taken first and held until
     :meth:`close` (or the end of the ``with`` block); a run that finds it taken raises
-    :class:`StoreLockedError`. Readers need no lock. Use as a context manager::
+    :class:`StoreLockedError` (``purpose`` "report" marks a report's hold, which another report
+    waits up to ``wait_s`` [s] for). With ``create=False`` the store must exist and nothing is
+    written on opening (a reader). With ``salvage=True`` (and the lock) a file that SQLite
+    cannot open as a database is set aside and rebuilt from its readable rows
+    (``salvage_report`` says what was kept). Readers need no lock. Use as a context manager::
 
         with RunStore(out_dir, lock=True) as store:
             store.put(key, index, {"row": row, "detail": detail}, sweep={...})
     """
 
     def __init__(self, path: str | os.PathLike[str], *, lock: bool = False,
-                 create: bool = True) -> None:
+                 create: bool = True, purpose: str = "run", wait_s: float = 0.0,
+                 salvage: bool = False) -> None:
         path = Path(path)
         if path.suffix == ".sqlite":
             self.directory, self.path = path.parent, path
@@ -289,6 +390,7 @@ class RunStore:
             self.directory, self.path = path, path / STORE_FILE
         self._lock_fd: int | None = None
         self._conn: sqlite3.Connection | None = None
+        self.salvage_report: SalvageReport | None = None
         if not create and not self.path.exists():
             raise StoreNotFoundError(
                 f"no run store at {self.path}; run a study into {self.directory} first "
@@ -296,33 +398,114 @@ class RunStore:
         try:
             self.directory.mkdir(parents=True, exist_ok=True)
         except OSError as exc:
-            raise StoreError(f"cannot create output directory {self.directory}: {exc.strerror}") from None
+            raise StoreError(describe_os_error(exc, self.directory, "create")) from None
+        try:
+            refuse_link(self.path)  # SQLite would follow a link and write to its target
+        except OutputFolderError as exc:
+            raise StoreError(str(exc)) from None
         if lock:
-            self._acquire_lock()
+            self._acquire_lock(purpose, wait_s)
+        try:
+            try:
+                self._connect(create)
+            except StoreDamagedError:
+                if not (salvage and lock):
+                    raise
+                self.salvage_report = salvage_store(self.path)  # under the lock
+                self._connect(create)
+        except BaseException:
+            self.close()
+            raise
+
+    def _connect(self, create: bool = True) -> None:
+        """Open the SQLite connection; with ``create`` also the schema and meta (a writer),
+        else only check the schema version (a reader writes nothing)."""
         try:
             self._conn = sqlite3.connect(self.path, timeout=30.0, isolation_level=None)
-            self._conn.execute("PRAGMA journal_mode=WAL")
-            self._conn.execute("PRAGMA synchronous=NORMAL")
-            self._conn.executescript(_SCHEMA)
-            self._init_meta()
-        except sqlite3.DatabaseError as exc:
-            self.close()
-            raise StoreError(f"{self.path} is not a usable orcscreen run store: {exc}") from None
+            if create:
+                self._conn.execute("PRAGMA journal_mode=WAL")
+                self._conn.execute("PRAGMA synchronous=NORMAL")
+                self._conn.executescript(_SCHEMA)
+                self._init_meta()
+            else:
+                self._check_schema_version()
+        except BaseException as exc:
+            if self._conn is not None:
+                with contextlib.suppress(sqlite3.Error):
+                    self._conn.close()
+                self._conn = None
+            if isinstance(exc, sqlite3.DatabaseError):
+                raise self.error_for(exc) from None
+            if isinstance(exc, OSError):
+                raise StoreError(describe_os_error(exc, self.path)) from None
+            raise
+
+    def salvage(self) -> SalvageReport:
+        """Rebuild this (damaged) store from its readable rows (:func:`salvage_store`) and
+        reconnect to the new file; the run lock, if held, stays held."""
+        if self._conn is not None:
+            with contextlib.suppress(sqlite3.Error):
+                self._conn.close()
+            self._conn = None
+        report = salvage_store(self.path)
+        self._connect(create=True)
+        return report
+
+    def error_for(self, exc: sqlite3.Error) -> StoreError:
+        """The StoreError (path, what went wrong, what to do) for an SQLite error on this store."""
+        if is_damage(exc):
+            return StoreDamagedError(
+                f"{self.path} is not a usable orcscreen run store: the file is damaged ({exc}); "
+                f"run the study again into {self.directory}: orcscreen sets the damaged file "
+                "aside, keeps the readable cases and recomputes the rest")
+        found = _environment_error(exc, self.path)
+        if found is not None:
+            return found
+        return StoreError(f"{self.path} is not a usable orcscreen run store: {exc}; choose "
+                          "another output folder with --out")
 
     # -- lifetime -----------------------------------------------------------------------------
-    def _acquire_lock(self) -> None:
+    def _acquire_lock(self, purpose: str = "run", wait_s: float = 0.0) -> None:
+        """Take the run lock (flock(2) on ``DIR/run.lock``, opened without following a link).
+
+        ``purpose`` is written into the lock file ("run" or "report") so that a refused caller
+        can say who holds it. ``wait_s`` [s]: wait up to this long while another *report* holds
+        the lock (a run holding it refuses at once: it may take hours).
+        """
         lock_path = self.directory / LOCK_FILE
-        fd = os.open(lock_path, os.O_RDWR | os.O_CREAT, 0o644)
         try:
-            fcntl.flock(fd, fcntl.LOCK_EX | fcntl.LOCK_NB)
-        except BlockingIOError:
-            holder = os.pread(fd, 200, 0).decode("utf-8", "replace").strip() or "another process"
+            fd = open_lock_file(lock_path)
+        except OutputFolderError as exc:
+            raise StoreError(str(exc)) from None
+        deadline = time.monotonic() + max(0.0, wait_s)
+        while True:
+            try:
+                fcntl.flock(fd, fcntl.LOCK_EX | fcntl.LOCK_NB)
+                break
+            except BlockingIOError:
+                holder = os.pread(fd, 200, 0).decode("utf-8", "replace").strip()
+                if (not holder or holder.endswith(", report")) and time.monotonic() < deadline:
+                    time.sleep(0.1)
+                    continue
+                os.close(fd)
+                if holder.endswith(", report"):
+                    raise StoreLockedError(
+                        f"{self.directory}: an orcscreen report is being built there ({holder}); "
+                        "wait for it to finish and try again") from None
+                raise StoreLockedError(
+                    f"another orcscreen run is using {self.directory} ({holder or 'another process'}); "
+                    "wait for it to finish, stop it, or choose another output directory with "
+                    "--out") from None
+            except OSError as exc:
+                os.close(fd)
+                raise StoreError(describe_os_error(exc, lock_path)) from None
+        try:
+            os.ftruncate(fd, 0)
+            tail = "" if purpose == "run" else f", {purpose}"
+            os.pwrite(fd, f"pid {os.getpid()}, started {_now()}{tail}\n".encode(), 0)
+        except OSError as exc:
             os.close(fd)
-            raise StoreLockedError(
-                f"another orcscreen run is using {self.directory} ({holder}); wait for it to "
-                "finish, stop it, or choose another output directory with --out") from None
-        os.ftruncate(fd, 0)
-        os.pwrite(fd, f"pid {os.getpid()}, started {_now()}\n".encode(), 0)
+            raise StoreError(describe_os_error(exc, lock_path)) from None
         self._lock_fd = fd
 
     def close(self) -> None:
@@ -348,18 +531,30 @@ class RunStore:
     @contextlib.contextmanager
     def _transaction(self, bump: bool = True) -> Iterator[sqlite3.Connection]:
         """One write transaction: BEGIN IMMEDIATE ... COMMIT, ROLLBACK on any error; with
-        ``bump`` it also adds one to the meta entry ``revision``."""
+        ``bump`` it also adds one to the meta entry ``revision``. An SQLite error the user can
+        fix (full disk, no permission, damaged file) becomes a :class:`StoreError` that says so.
+        """
         conn = self.conn
-        conn.execute("BEGIN IMMEDIATE")
         try:
-            yield conn
-            if bump:
-                conn.execute("UPDATE meta SET value = CAST(value AS INTEGER) + 1 "
-                             "WHERE key = 'revision'")
-        except BaseException:
-            conn.execute("ROLLBACK")
-            raise
-        conn.execute("COMMIT")
+            conn.execute("BEGIN IMMEDIATE")
+            try:
+                yield conn
+                if bump:
+                    conn.execute("UPDATE meta SET value = CAST(value AS INTEGER) + 1 "
+                                 "WHERE key = 'revision'")
+            except BaseException:
+                with contextlib.suppress(sqlite3.Error):
+                    conn.execute("ROLLBACK")
+                raise
+            conn.execute("COMMIT")
+        except sqlite3.DatabaseError as exc:
+            if conn.in_transaction:
+                with contextlib.suppress(sqlite3.Error):
+                    conn.execute("ROLLBACK")
+            error = self.error_for(exc)
+            if type(error) is StoreError and not is_damage(exc) and _environment_error(exc, self.path) is None:
+                raise  # not the user's to fix: an internal error
+            raise error from None
 
     @property
     def conn(self) -> sqlite3.Connection:
@@ -375,7 +570,14 @@ class RunStore:
             conn.execute("INSERT OR IGNORE INTO meta VALUES ('created_at', ?)",
                          (json.dumps(_now()),))
             conn.execute("INSERT OR IGNORE INTO meta VALUES ('revision', '0')")
-        found = self.meta().get("schema_version")
+        self._check_schema_version()
+
+    def _check_schema_version(self) -> None:
+        row = self.conn.execute("SELECT value FROM meta WHERE key = 'schema_version'").fetchone()
+        try:
+            found = json.loads(row[0]) if row else None
+        except (TypeError, ValueError):
+            found = row[0]
         if found != SCHEMA_VERSION:
             raise StoreError(f"{self.path} has store schema version {found!r}; this orcscreen "
                              f"reads version {SCHEMA_VERSION}: use a new output directory")
@@ -384,13 +586,22 @@ class RunStore:
         """All meta entries: schema_version, created_at, updated_at, orcscreen_version,
         coolprop_version, study_hash, study_name, study (the study as a JSON-able dict),
         revision..."""
-        return {k: json.loads(v) for k, v in self.conn.execute("SELECT key, value FROM meta")}
+        entries = {}
+        for key, value in self.conn.execute("SELECT key, value FROM meta"):
+            try:
+                entries[key] = json.loads(value)
+            except (TypeError, ValueError):  # a damaged entry: left out, the rest is kept
+                continue
+        return entries
 
     def revision(self) -> int:
         """Number of write transactions on the store so far (cases, plan, meta): equal numbers
         mean unchanged contents."""
         found = self.conn.execute("SELECT value FROM meta WHERE key = 'revision'").fetchone()
-        return int(json.loads(found[0])) if found else 0
+        try:
+            return int(json.loads(found[0])) if found else 0
+        except (TypeError, ValueError):
+            return -1  # damaged: never equal to a revision written before
 
     def set_meta(self, **entries: Any) -> None:
         """Insert or replace meta entries (JSON-able values); also stamps ``updated_at``."""
@@ -473,8 +684,19 @@ class RunStore:
 
         ``indexes``: only the cases of these case indexes, in the order given (one chunk per
         call of the underlying query: a range when they are consecutive, else a list).
-        ``include_stale`` as in :meth:`rows`.
+        ``include_stale`` as in :meth:`rows`. A damaged file or an undecodable row raises
+        :class:`StoreDamagedError`.
         """
+        try:
+            yield from self._record_chunks(include_stale=include_stale, chunk=chunk,
+                                           indexes=indexes)
+        except sqlite3.DatabaseError as exc:
+            raise self.error_for(exc) from None
+        except StoreDamagedError as exc:
+            raise StoreDamagedError(f"{self.path}: {exc}") from None
+
+    def _record_chunks(self, *, include_stale: bool = False, chunk: int | None = None,
+                       indexes: Iterable[int] | None = None) -> Iterator[list[tuple]]:
         columns = "case_key, case_index, sweep, row, elapsed_s, finished_at"
         chunk = chunk or ROWS_CHUNK
         if indexes is not None:
@@ -568,10 +790,160 @@ class RunStore:
         found = self.conn.execute("SELECT detail FROM cases WHERE case_key = ?", (key,)).fetchone()
         if found is None:
             raise KeyError(f"case {key!r} is not in the run store {self.path}")
-        return None if found[0] is None else json.loads(found[0])
+        if found[0] is None:
+            return None
+        try:
+            return json.loads(found[0])
+        except (TypeError, ValueError) as exc:
+            raise StoreDamagedError(
+                f"the detail of case {key} in {self.path} cannot be read ({exc}); run the study "
+                "again into the same folder to recompute it") from None
 
     def iter_details(self, keys: Iterable[str]) -> Iterator[tuple[str, dict[str, Any] | None]]:
         """Yield ``(key, detail)`` for each of ``keys`` in the order given; unknown keys raise
         KeyError. One case's detail is in memory at a time."""
         for key in keys:
             yield key, self.detail(key)
+
+    # -- damage and salvage -------------------------------------------------------------------
+    @contextlib.contextmanager
+    def snapshot(self) -> Iterator[RunStore]:
+        """Read one consistent state of the store: every read inside the block sees the store
+        as it was at the first one, whatever a writer commits meanwhile (a read transaction in
+        WAL mode, sqlite.org/wal.html "Concurrency")."""
+        conn = self.conn
+        conn.execute("BEGIN")
+        try:
+            conn.execute("SELECT COUNT(*) FROM meta").fetchone()  # the snapshot starts here
+            yield self
+        finally:
+            with contextlib.suppress(sqlite3.Error):
+                conn.execute("COMMIT")
+
+    def integrity_problem(self) -> str | None:
+        """SQLite's quick check of the file (``PRAGMA quick_check``): None when it is sound,
+        else the first problem found."""
+        try:
+            found = [r[0] for r in self.conn.execute("PRAGMA quick_check(1)")]
+        except sqlite3.DatabaseError as exc:
+            return str(exc)
+        return None if found == ["ok"] else "; ".join(map(str, found))
+
+    def unreadable_keys(self) -> list[str]:
+        """Keys of stored cases whose swept values, row or detail cannot be decoded (damaged
+        JSON text), in key order."""
+        try:
+            return sorted(k for (k,) in self.conn.execute(_UNREADABLE_SQL))
+        except sqlite3.OperationalError as exc:
+            if "no such function" not in str(exc):
+                raise
+        bad = []
+        for key, sweep, row, detail in self.conn.execute(
+                "SELECT case_key, sweep, row, detail FROM cases"):
+            if not (_readable_json(sweep, True) and _readable_json(row, True)
+                    and (detail is None or _readable_json(detail, False))):
+                bad.append(key)
+        return sorted(bad)
+
+    def drop_cases(self, keys: Iterable[str]) -> int:
+        """Delete the stored cases of ``keys`` (one transaction); returns how many were there."""
+        keys = list(keys)
+        n = 0
+        with self._transaction() as conn:
+            for start in range(0, len(keys), 500):
+                part = keys[start:start + 500]
+                n += conn.execute(f"DELETE FROM cases WHERE case_key IN ({','.join('?' * len(part))})",
+                                  part).rowcount
+        return n
+
+
+class SalvageReport(NamedTuple):
+    """What :func:`salvage_store` did: cases copied to the new store, cases found (by key) in
+    the damaged file that could not be read, and where the damaged file was set aside."""
+
+    kept: int
+    lost: int
+    damaged_file: Path
+
+
+def _read_damaged(path: Path) -> tuple[list[tuple], set[str], list[tuple]]:
+    """Whatever can be read from a damaged store: case records (all columns), the case keys
+    seen anywhere (table or index), and the meta entries."""
+    records: dict[str, tuple] = {}
+    keys: set[str] = set()
+    meta: list[tuple] = []
+    try:
+        conn = sqlite3.connect(f"file:{path}?mode=ro", uri=True, isolation_level=None)
+    except sqlite3.Error:
+        return [], set(), []
+    with contextlib.closing(conn):
+        with contextlib.suppress(sqlite3.Error):
+            meta = conn.execute("SELECT key, value FROM meta").fetchall()
+        with contextlib.suppress(sqlite3.Error):  # the keys through the primary-key index
+            for (k,) in conn.execute("SELECT case_key FROM cases"):
+                keys.add(k)
+        try:
+            (top,) = conn.execute("SELECT max(rowid) FROM cases NOT INDEXED").fetchone()
+        except sqlite3.Error:
+            top = None
+        top = top if isinstance(top, int) else 10 * max(len(keys), 1000)
+        columns = ("case_key, case_index, fluid, layout, sweep, status, reason, row, detail, "
+                   "elapsed_s, finished_at")
+        step = 256
+        start = 0
+        while start <= top:
+            try:
+                found = conn.execute(f"SELECT {columns} FROM cases NOT INDEXED WHERE rowid "
+                                     "BETWEEN ? AND ?", (start, start + step - 1)).fetchall()
+            except sqlite3.Error:
+                found = []
+                for rowid in range(start, start + step):  # one row at a time around the damage
+                    with contextlib.suppress(sqlite3.Error):
+                        found += conn.execute(f"SELECT {columns} FROM cases NOT INDEXED "
+                                              "WHERE rowid = ?", (rowid,)).fetchall()
+            for rec in found:
+                if isinstance(rec[0], str):
+                    records[rec[0]] = rec
+                    keys.add(rec[0])
+            start += step
+    return list(records.values()), keys, meta
+
+
+def salvage_store(path: str | os.PathLike[str]) -> SalvageReport:
+    """Set a damaged store aside (``run.sqlite.damaged-<UTC time>``) and build a new one at
+    the same place from the rows that can still be read; the caller must hold the run lock.
+
+    Rows whose JSON cannot be decoded are left out as well, so that every kept row reads back.
+    Returns the number of cases kept and lost (cases whose key was seen but whose row could
+    not be read).
+    """
+    store_path = Path(path)
+    if store_path.suffix != ".sqlite":
+        store_path = store_path / STORE_FILE
+    records, keys, meta = _read_damaged(store_path)
+    stamp = datetime.now(timezone.utc).strftime("%Y%m%dT%H%M%SZ")
+    aside = store_path.with_name(f"{store_path.name}.damaged-{stamp}")
+    try:
+        os.replace(store_path, aside)
+        for suffix in ("-wal", "-shm"):
+            side = store_path.with_name(store_path.name + suffix)
+            if side.exists():
+                os.replace(side, aside.with_name(aside.name + suffix))
+    except OSError as exc:
+        raise StoreError(describe_os_error(exc, store_path)) from None
+    good = [rec for rec in records
+            if _readable_json(rec[4], True) and _readable_json(rec[7], True)
+            and (rec[8] is None or _readable_json(rec[8], False))]
+    fresh = RunStore(store_path)
+    try:
+        with fresh._transaction() as conn:
+            conn.executemany("INSERT OR REPLACE INTO meta VALUES (?, ?)",
+                             [(k, v) for k, v in meta if isinstance(k, str)
+                              and k not in ("schema_version", "created_at", "revision")
+                              and _readable_json(v, False)])
+            conn.executemany("INSERT OR REPLACE INTO cases VALUES (?,?,?,?,?,?,?,?,?,?,?)", good)
+    finally:
+        fresh.close()
+    kept = {rec[0] for rec in good}
+    return SalvageReport(kept=len(kept), lost=len(keys - kept), damaged_file=aside)
+

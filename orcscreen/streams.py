@@ -647,8 +647,10 @@ def _check_source(src) -> float:
         T_min = _check_number("minimum outlet temperature [K]", src.T_out_min_K, positive=True)
         if T_min >= src.T_in_K:
             raise StreamError(
-                f"minimum outlet temperature {T_min - ZERO_CELSIUS_K:.2f} °C is not below the inlet "
-                f"temperature {src.T_in_K - ZERO_CELSIUS_K:.2f} °C: the source could give no heat"
+                f"source.min_outlet_temperature_C = {T_min - ZERO_CELSIUS_K:.6g}: the minimum outlet "
+                f"temperature {T_min - ZERO_CELSIUS_K:.2f} °C is not below the inlet "
+                f"temperature {src.T_in_K - ZERO_CELSIUS_K:.2f} °C, so the source could give no heat; "
+                f"allowed: a number below source.inlet_temperature_C"
             )
         T_low = min(T_low, T_min)
     return min(T_low, src.T_in_K - 1.0)
@@ -679,19 +681,26 @@ class HotWater(_CurveStream):
         water = props.get_fluid("Water")
         T_in_C = self.T_in_K - ZERO_CELSIUS_K
         if self.T_in_K <= water.T_min_K:
-            raise StreamError(f"hot-water inlet at {T_in_C:.2f} °C is at or below the freezing point")
+            raise StreamError(
+                f"source.inlet_temperature_C = {T_in_C:.6g}: hot water at or below its freezing point "
+                f"({water.T_min_K - ZERO_CELSIUS_K:.2f} °C) would be ice; allowed: above "
+                f"{water.T_min_K - ZERO_CELSIUS_K:.2f} °C")
         if self.p_Pa < water.p_crit_Pa:
             if self.T_in_K >= water.T_crit_K:
                 raise StreamError(
-                    f"water at {T_in_C:.1f} °C and {self.p_Pa / 1e5:.4g} bar is steam (above the critical "
-                    f"temperature, below the critical pressure); use kind 'fluid' for a vapour source"
+                    f"source.inlet_temperature_C = {T_in_C:.6g}: water above its critical temperature "
+                    f"({water.T_crit_K - ZERO_CELSIUS_K:.1f} °C) at {self.p_Pa / 1e5:.4g} bar is steam, not "
+                    f"hot water; allowed: below {water.T_crit_K - ZERO_CELSIUS_K:.1f} °C, a "
+                    f"source.pressure_bar above the critical pressure {water.p_crit_Pa / 1e5:.4g} bar, or "
+                    f"kind 'fluid' for a vapour source"
                 )
             p_sat = water.sat_T(self.T_in_K).p_Pa
             if self.p_Pa <= p_sat or water.T_sat_K(self.p_Pa) - self.T_in_K < _SAT_GAP_K:
                 raise StreamError(
-                    f"hot water at {T_in_C:.1f} °C boils below {p_sat / 1e5:.4g} bar, and the pressure is "
-                    f"{self.p_Pa / 1e5:.4g} bar; raise the source pressure (or use kind 'fluid' with "
-                    f"inlet_quality for a two-phase source)"
+                    f"source.pressure_bar = {self.p_Pa / 1e5:.6g}: hot water at {T_in_C:.1f} °C boils below "
+                    f"{p_sat / 1e5:.4g} bar, and the pressure is {self.p_Pa / 1e5:.4g} bar; allowed: a pressure "
+                    f"above {p_sat / 1e5:.4g} bar (or kind "
+                    f"'fluid' with inlet_quality for a two-phase source)"
                 )
         self._set_curve(_isobar_curve("Water", float(self.p_Pa), _grid_down(T_low), _grid_up(self.T_in_K + _MARGIN_K)))
 
@@ -731,8 +740,10 @@ class _LinearCpLiquid(_CurveStream):
         for T in (T_low, T_hi):
             if cp0 + slope * (T - ZERO_CELSIUS_K) <= 0.0:
                 raise StreamError(
-                    f"{self.label} cp = {cp0 / 1e3:.4g} {slope / 1e3:+.4g}*T_C kJ/(kg K) is not positive at "
-                    f"{T - ZERO_CELSIUS_K:.1f} °C; check cp_kJ_kgK and cp_slope_kJ_kgK2"
+                    f"source.cp_slope_kJ_kgK2 = {slope / 1e3:.6g}: the {self.label} cp = {cp0 / 1e3:.4g} "
+                    f"{slope / 1e3:+.4g}*T_C kJ/(kg K) is not positive at {T - ZERO_CELSIUS_K:.1f} °C; "
+                    f"allowed: cp_kJ_kgK and cp_slope_kJ_kgK2 that keep cp above zero from "
+                    f"{T_low - ZERO_CELSIUS_K:.1f} to {T_hi - ZERO_CELSIUS_K:.1f} °C"
                 )
         self._set_curve(_LinearCpCurve(cp0, slope, T_low, T_hi))
 
@@ -812,8 +823,9 @@ class FlueGas(_CurveStream):
             y = _normalised_fractions(self.composition, self.basis)
         if not _GAS_T_LO_K < self.T_in_K <= _GAS_T_HI_K:
             raise StreamError(
-                f"flue-gas inlet at {self.T_in_K - ZERO_CELSIUS_K:.1f} °C is outside the gas model's range "
-                f"{_GAS_T_LO_K - ZERO_CELSIUS_K:.0f} to {_GAS_T_HI_K - ZERO_CELSIUS_K:.0f} °C"
+                f"source.inlet_temperature_C = {self.T_in_K - ZERO_CELSIUS_K:.6g}: outside the flue-gas "
+                f"model's range; allowed: above {_GAS_T_LO_K - ZERO_CELSIUS_K:.0f} and up to "
+                f"{_GAS_T_HI_K - ZERO_CELSIUS_K:.0f} °C"
             )
         M = {k: props.molar_mass_kg_mol(GAS_SPECIES[k]) for k in y}
         M_mix = sum(y[k] * M[k] for k in y)
@@ -882,41 +894,55 @@ class FluidSource(_CurveStream):
         try:
             fl = props.get_fluid(self.fluid)
         except PropertyError:
-            raise StreamError(f"source fluid {self.fluid!r} is not a CoolProp pure-fluid name") from None
+            raise StreamError(f"source.fluid = {self.fluid!r}: not a CoolProp pure-fluid name; allowed: a "
+                              f"CoolProp fluid name such as 'Water'") from None
         T_in_C = self.T_in_K - ZERO_CELSIUS_K
         x = self.inlet_quality
         if x is not None:
             x = _check_number("inlet quality", x)
             if not 0.0 <= x <= 1.0:
-                raise StreamError(f"inlet quality is {x!r}; it must lie between 0 (liquid) and 1 (vapour)")
+                raise StreamError(f"source.inlet_quality = {x!r}: not a vapour quality; allowed: from 0 "
+                                  f"(liquid) to 1 (vapour)")
             if not fl.T_min_K < self.T_in_K < fl.T_crit_K:
                 raise StreamError(
-                    f"{self.fluid} has no two-phase state at {T_in_C:.2f} °C (saturation exists between "
-                    f"{fl.T_min_K - ZERO_CELSIUS_K:.2f} and {fl.T_crit_K - ZERO_CELSIUS_K:.2f} °C)"
+                    f"source.inlet_temperature_C = {T_in_C:.6g}: {self.fluid} has no two-phase state at "
+                    f"this temperature (an inlet_quality needs one); allowed: between "
+                    f"{fl.T_min_K - ZERO_CELSIUS_K:.2f} and {fl.T_crit_K - ZERO_CELSIUS_K:.2f} °C, or leave "
+                    f"out source.inlet_quality for a single-phase source"
                 )
             p_sat = fl.sat_T(self.T_in_K).p_Pa
             if self.p_Pa is None:
                 object.__setattr__(self, "p_Pa", p_sat)
             elif abs(fl.T_sat_K(self.p_Pa) - self.T_in_K) > 0.05:
                 raise StreamError(
-                    f"a two-phase {self.fluid} inlet at {T_in_C:.2f} °C has the pressure {p_sat / 1e5:.5g} bar, "
-                    f"not {self.p_Pa / 1e5:.5g} bar; give one consistent pair (or leave the pressure out)"
+                    f"source.pressure_bar = {self.p_Pa / 1e5:.6g}: a two-phase {self.fluid} inlet at "
+                    f"{T_in_C:.2f} °C has the pressure {p_sat / 1e5:.5g} bar, not {self.p_Pa / 1e5:.5g} bar; allowed: leave the pressure "
+                    f"out (it follows from the temperature), or give the matching pair"
                 )
         elif self.p_Pa is None:
-            raise StreamError(f"a single-phase {self.fluid} source needs its pressure")
+            raise StreamError(f"source.pressure_bar is missing: a single-phase {self.fluid} source needs "
+                              f"its pressure; allowed: a number > 0 (or give source.inlet_quality)")
         T_low = _check_source(self)
         sat = _saturation_on_isobar(fl, self.p_Pa)
         if x is None and sat is not None and abs(sat.T_K - self.T_in_K) < _SAT_GAP_K:
             raise StreamError(
-                f"{self.fluid} at {T_in_C:.2f} °C is saturated at {self.p_Pa / 1e5:.5g} bar; "
-                f"give the inlet quality (0 liquid .. 1 vapour)"
+                f"source.inlet_temperature_C = {T_in_C:.6g}: {self.fluid} is saturated at "
+                f"{self.p_Pa / 1e5:.5g} bar, so its state needs a vapour quality; allowed: give "
+                f"source.inlet_quality (0 liquid to 1 vapour), or a temperature away from saturation"
             )
         if not self.T_in_K <= fl.T_max_K:
-            raise StreamError(f"{self.fluid} inlet at {T_in_C:.1f} °C is above its equation of state's range")
+            raise StreamError(
+                f"source.inlet_temperature_C = {T_in_C:.6g}: above the range of {self.fluid}'s equation "
+                f"of state; allowed: up to {fl.T_max_K - ZERO_CELSIUS_K:.1f} °C")
         try:
             curve = _isobar_curve(self.fluid, float(self.p_Pa), _grid_down(T_low), _grid_up(self.T_in_K + _MARGIN_K))
-        except PropertyError as exc:
-            raise StreamError(f"cannot tabulate {self.fluid} at {self.p_Pa / 1e5:.5g} bar: {exc}") from None
+        except PropertyError:
+            raise StreamError(
+                f"source.pressure_bar = {self.p_Pa / 1e5:.6g}: {self.fluid}'s equation of state gives no "
+                f"usable states along this pressure between {T_low - ZERO_CELSIUS_K:.1f} and "
+                f"{T_in_C:.1f} °C (below its triple point, or too close to its critical point); "
+                f"allowed: another pressure, or a source.min_outlet_temperature_C inside the fluid's "
+                f"range (from {fl.T_min_K - ZERO_CELSIUS_K:.2f} °C)") from None
         if x is None:
             self._set_curve(curve)
         else:
@@ -1002,14 +1028,16 @@ class CoolingWater(_Sink):
         water = props.get_fluid("Water")
         if self.T_in_K <= water.T_min_K:
             raise StreamError(
-                f"cooling water at {self.T_in_K - ZERO_CELSIUS_K:.1f} °C would freeze; use sink kind 'air'"
+                f"sink.inlet_temperature_C = {self.T_in_K - ZERO_CELSIUS_K:.6g}: cooling water would "
+                f"freeze; allowed: above {water.T_min_K - ZERO_CELSIUS_K:.2f} °C, or sink kind 'air'"
             )
         T_sat = water.T_sat_K(self.p_Pa) if self.p_Pa < water.p_crit_Pa else math.inf
         if self.T_out_K >= T_sat - _SAT_GAP_K:
             raise StreamError(
-                f"cooling water leaving at {self.T_out_K - ZERO_CELSIUS_K:.1f} °C would boil at "
-                f"{self.p_Pa / 1e5:.4g} bar (saturation {T_sat - ZERO_CELSIUS_K:.1f} °C); raise the sink "
-                f"pressure or lower the temperature rise"
+                f"sink.pressure_bar = {self.p_Pa / 1e5:.6g}: cooling water leaving at "
+                f"{self.T_out_K - ZERO_CELSIUS_K:.1f} °C would boil at {self.p_Pa / 1e5:.4g} bar (saturation "
+                f"{T_sat - ZERO_CELSIUS_K:.1f} °C); allowed: a higher sink pressure or a smaller "
+                f"sink.temperature_rise_K"
             )
         self._set_curve(_isobar_curve("Water", float(self.p_Pa), _grid_down(self.T_in_K - 10.0),
                                       _grid_up(self.T_out_K + 10.0)))

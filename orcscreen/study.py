@@ -19,6 +19,7 @@ import hashlib
 import itertools
 import json
 import math
+import re
 import tomllib
 from collections.abc import Iterator, Mapping
 from importlib import metadata
@@ -67,6 +68,14 @@ SAFETY_CLASSES = ("A1", "A2L", "A2", "A3", "B1", "B2L", "B2", "B3")
 FLUE_GAS_SPECIES = tuple(_streams.GAS_SPECIES)
 MAX_CASES = 1_000_000
 """Studies with more cases are refused unless explicitly allowed (``allow_huge`` / ``--yes``)."""
+MAX_CASE_TIME_LIMIT_S = 1_000_000.0
+"""Longest case time limit [s] (about 11.6 days): beyond it the per-case timers cannot be set."""
+MAX_NESTING = 20
+"""Deepest nesting of tables and arrays accepted in a study (the schema needs 4)."""
+STREAM_POINTS_EXACT = 2_000
+"""Sweeps of up to this many operating points have the stream models checked at every point."""
+_SHOWN_CHARS = 80
+"""Longest value text shown in a message; longer values are cut with "..."."""
 
 
 def _default_flue_gas() -> dict[str, float]:
@@ -92,8 +101,22 @@ class StudyError(ValueError):
     """A study is invalid. ``errors`` holds one message line per fault; str() joins them."""
 
     def __init__(self, errors: list[str] | str):
-        self.errors = [errors] if isinstance(errors, str) else list(errors)
+        self.errors = [_one_line(e) for e in ([errors] if isinstance(errors, str) else errors)]
         super().__init__("\n".join(self.errors))
+
+
+def _one_line(text: str) -> str:
+    """``text`` with control and line-breaking characters escaped, so one fault stays one line."""
+    return "".join(c if c.isprintable() else c.encode("unicode_escape").decode("ascii") for c in text)
+
+
+_BARE_KEY = re.compile(r"[A-Za-z0-9_-]+")
+
+
+def _key_text(key: Any) -> str:
+    """A key as TOML writes it: bare when it can be, else quoted (with escapes)."""
+    text = str(key)
+    return text if _BARE_KEY.fullmatch(text) else json.dumps(text)
 
 
 # ---------------------------------------------------------------------------------------------
@@ -364,6 +387,7 @@ class Study(BaseModel):
     _origin: str = PrivateAttr("<dict>")
     _fluids: tuple[str, ...] = PrivateAttr(())
     _sweep: dict[str, Any] = PrivateAttr(default_factory=dict)  # path -> list of values or range dict
+    _warnings: tuple[str, ...] = PrivateAttr(())
 
     @property
     def origin(self) -> str:
@@ -374,6 +398,12 @@ class Study(BaseModel):
     def fluids(self) -> tuple[str, ...]:
         """CoolProp names of the fluids selected by the [fluids] section, in catalogue order."""
         return self._fluids
+
+    @property
+    def warnings(self) -> tuple[str, ...]:
+        """Lines about things allowed but probably unintended (a sweep that overrides a value
+        written in its section); `check` and `run` print them."""
+        return self._warnings
 
     @property
     def layouts(self) -> tuple[str, ...]:
@@ -566,9 +596,17 @@ def _show(value: Any) -> str:
     if isinstance(value, float) and not math.isfinite(value):
         return "nan" if math.isnan(value) else ("inf" if value > 0 else "-inf")
     try:
-        return json.dumps(value, ensure_ascii=False, default=str)
-    except (TypeError, ValueError):
-        return repr(value)
+        text = json.dumps(value, ensure_ascii=False, default=str)
+    except (TypeError, ValueError, RecursionError):
+        text = repr(value)
+    return _cut(text)
+
+
+def _cut(text: str) -> str:
+    """``text``, or its first :data:`_SHOWN_CHARS` characters and "..." with the length."""
+    if len(text) <= _SHOWN_CHARS:
+        return text
+    return f"{text[:_SHOWN_CHARS - 20]}... ({len(text):,} characters)"
 
 
 # ---------------------------------------------------------------------------------------------
@@ -601,7 +639,7 @@ def _loc_path(loc: tuple[Any, ...]) -> tuple[str, str]:
             continue
         fields = {(fi.alias or name): name for name, fi in model.model_fields.items()}
         if item not in fields and item not in model.model_fields:
-            parts.append(str(item))
+            parts.append(_key_text(item))
             model = None
             continue
         name = fields.get(item, item)
@@ -628,9 +666,9 @@ def _format_validation_errors(exc: ValidationError, origin: str, prefix: str = "
     suggested = set()
     for path, errs in grouped.items():
         if errs[0]["type"] == "extra_forbidden":
-            section, _, key = path.rpartition(".")
+            section, _, key = path.partition(".")
             model = _SECTION_MODELS.get(section)
-            guess = _nearest(key, list(model.model_fields)) if model is not None else None
+            guess = _nearest(key, list(model.model_fields)) if model is not None and key else None
             if guess:
                 suggested.add(f"{section}.{guess}")
     lines = []
@@ -655,7 +693,9 @@ def _error_line(origin: str, path: str, field_path: str, errs: list[dict[str, An
     if kind == "model_type" or (kind == "dict_type" and path in _SECTION_MODELS):
         return f"{origin}: {path} = {_show(value)}: must be a table [{path}] of keys, not {_type_name(value)}"
     value_errors = [e for e in errs if e["type"] == "value_error"]
-    if value_errors:
+    if isinstance(value, float) and not math.isfinite(value):
+        problem = "must be a finite number"
+    elif value_errors:
         problem = value_errors[0]["msg"].removeprefix("Value error, ")
     elif any(e["type"] in ("literal_error", "enum") for e in errs) and not any(
         e["type"].endswith("_type") and not isinstance(value, (int, float)) for e in errs if e["type"] != "literal_error"
@@ -676,11 +716,15 @@ def _error_line(origin: str, path: str, field_path: str, errs: list[dict[str, An
 
 
 def _unknown_key_line(origin: str, path: str, value: Any) -> str:
-    section, _, key = path.rpartition(".")
+    section, _, key = path.partition(".")
+    if not key:
+        section, key = "", section
+    if key.startswith('"'):
+        key = json.loads(key)
     if not section:
         guess = _nearest(key, _TOP_KEYS)
         hint = f"; did you mean [{guess}]?" if guess else ""
-        return f"{origin}: [{key}]: unknown section{hint} allowed: {', '.join(_TOP_KEYS)}"
+        return f"{origin}: [{_key_text(key)}]: unknown section{hint} allowed: {', '.join(_TOP_KEYS)}"
     model = _SECTION_MODELS.get(section)
     choices = list(model.model_fields) if model is not None else []
     guess = _nearest(key, choices)
@@ -725,7 +769,7 @@ def _flatten_sweep(raw: Any, origin: str, errors: list[str]) -> dict[str, tuple[
     def walk(prefix: str, table: Mapping[str, Any], where: str) -> None:
         for key, value in table.items():
             path = f"{prefix}.{key}" if prefix else key
-            file_path = f'{where}."{key}"' if "." in key else f"{where}.{key}"
+            file_path = f"{where}.{_key_text(key)}"
             is_range = isinstance(value, Mapping) and any(k in value for k in _RANGE_KEYS)
             if isinstance(value, Mapping) and not is_range:
                 if path.count(".") >= 1:
@@ -772,7 +816,9 @@ def _check_sweep(flat: dict[str, tuple[str, Any]], origin: str, errors: list[str
                 try:
                     values.append(adapter.validate_python(item))
                 except ValidationError:
-                    errors.append(f"{origin}: {file_path}[{i}] = {_show(item)}: not valid for {path}; allowed: {allowed}")
+                    why = ("must be a finite number" if isinstance(item, float) and not math.isfinite(item)
+                           else f"not valid for {path}")
+                    errors.append(f"{origin}: {file_path}[{i}] = {_show(item)}: {why}; allowed: {allowed}")
                     bad = True
             if bad:
                 continue
@@ -793,6 +839,14 @@ def _check_sweep(flat: dict[str, tuple[str, Any]], origin: str, errors: list[str
     return specs
 
 
+def _finite(x: int | float) -> bool:
+    """True for a number that is finite as a float (a huge integer is not)."""
+    try:
+        return math.isfinite(float(x))
+    except OverflowError:
+        return False
+
+
 def _check_range(path: str, file_path: str, spec: Mapping[str, Any], origin: str, errors: list[str]) -> dict | None:
     ok = True
     for key in spec:
@@ -807,8 +861,11 @@ def _check_range(path: str, file_path: str, spec: Mapping[str, Any], origin: str
         if key not in spec:
             errors.append(f"{origin}: {file_path}.{key}: required key of a sweep range is missing; allowed: a number")
             ok = False
-        elif isinstance(spec[key], bool) or not isinstance(spec[key], (int, float)) or not math.isfinite(spec[key]):
+        elif isinstance(spec[key], bool) or not isinstance(spec[key], (int, float)):
             errors.append(f"{origin}: {file_path}.{key} = {_show(spec[key])}: wrong type ({_type_name(spec[key])}); allowed: a finite number")
+            ok = False
+        elif not _finite(spec[key]):
+            errors.append(f"{origin}: {file_path}.{key} = {_show(spec[key])}: must be a finite number; allowed: a finite number")
             ok = False
     if not ok:
         return None
@@ -820,6 +877,12 @@ def _check_range(path: str, file_path: str, spec: Mapping[str, Any], origin: str
         errors.append(
             f"{origin}: {file_path}.stop = {_show(spec['stop'])}: below start = {_show(spec['start'])}; allowed: stop >= start"
         )
+        return None
+    span = (stop - start) / step
+    if not math.isfinite(span) or span >= 10 * MAX_CASES:
+        errors.append(f"{origin}: {file_path}.step = {_show(spec['step'])}: from {_show(spec['start'])} to "
+                      f"{_show(spec['stop'])} this gives more than {10 * MAX_CASES:,} values; allowed: a "
+                      f"larger step")
         return None
     rng = {"start": start, "stop": stop, "step": step}
     n = _range_length(start, stop, step)
@@ -869,6 +932,70 @@ def _water_saturation_pressure_bar(T_C: float) -> float:
     return water.sat_T(T_K).p_Pa / 1e5
 
 
+def _water_limits() -> tuple[float, float, float]:
+    """Triple-point temperature [°C], critical temperature [°C] and critical pressure [bar]
+    of water (IAPWS-95 through orcscreen.properties)."""
+    from orcscreen.properties import get_fluid
+
+    water = get_fluid("Water")
+    return water.T_min_K - 273.15, water.T_crit_K - 273.15, water.p_crit_Pa / 1e5
+
+
+def _hot_water_problem(T_C: float, p_bar: float) -> tuple[str, str, str] | None:
+    """(check id, key, message) when a hot-water source at ``T_C`` [°C] and ``p_bar`` [bar]
+    cannot be liquid (ice, steam above the critical temperature, boiling), else None."""
+    from orcscreen.properties import PropertyError
+
+    T_triple, T_crit, p_crit = _water_limits()
+    if not T_C > T_triple:
+        return ("freezing-source", "source.inlet_temperature_C",
+                f"source.inlet_temperature_C = {_show(T_C)}: hot water at {T_C:g} °C would be ice "
+                f"(freezing point {T_triple:.2f} °C, IAPWS-95); allowed: above {T_triple:.2f} °C")
+    if p_bar >= p_crit:
+        return None
+    if T_C >= T_crit:
+        return ("steam-source", "source.inlet_temperature_C",
+                f"source.inlet_temperature_C = {_show(T_C)}: water above its critical temperature "
+                f"({T_crit:.1f} °C) is steam at {p_bar:g} bar, not hot water; allowed: below "
+                f"{T_crit:.1f} °C, source.pressure_bar above the critical pressure {p_crit:.4g} bar, "
+                f'or kind = "fluid" for steam')
+    try:
+        p_sat = _water_saturation_pressure_bar(T_C)
+    except PropertyError:
+        return None  # left to the stream model, whose message names the key
+    if not p_bar > p_sat:
+        return ("boiling-source", "source.pressure_bar",
+                f"source.pressure_bar = {_show(p_bar)}: hot water at {T_C:g} °C boils at this pressure "
+                f"(saturation {p_sat:.4g} bar, IAPWS-95); allowed: a pressure above {p_sat:.4g} bar, "
+                f'or kind = "fluid" for steam')
+    return None
+
+
+def _cooling_water_problem(T_in_C: float, rise_K: float, p_bar: float | None) -> tuple[str, str, str] | None:
+    """(check id, key, message) when cooling water entering at ``T_in_C`` [°C] and heated by
+    ``rise_K`` [K] at ``p_bar`` [bar] would boil or turn to steam, else None."""
+    from orcscreen.properties import PropertyError
+
+    _, T_crit, p_crit = _water_limits()
+    T_out = T_in_C + rise_K
+    if p_bar is None or p_bar >= p_crit:
+        return None
+    if T_out >= T_crit:
+        return ("steam-sink", "sink.temperature_rise_K",
+                f"sink.temperature_rise_K = {_show(rise_K)}: cooling water leaving at {T_out:g} °C is "
+                f"above the critical temperature of water ({T_crit:.1f} °C) and would be steam at "
+                f"{p_bar:g} bar; allowed: a rise that keeps the outlet below {T_crit:.1f} °C")
+    try:
+        p_sat = _water_saturation_pressure_bar(T_out)
+    except PropertyError:
+        return None
+    if not p_bar > p_sat:
+        return ("boiling-sink", "sink.pressure_bar",
+                f"sink.pressure_bar = {_show(p_bar)}: cooling water leaving at {T_out:g} °C boils at this "
+                f"pressure (saturation {p_sat:.4g} bar, IAPWS-95); allowed: above {p_sat:.4g} bar")
+    return None
+
+
 def _point_problems(study: Study, base: Mapping[str, Any], v: Mapping[str, Any],
                     with_streams: bool = True) -> list[tuple[str, str, str]]:
     """(check id, key path, message) for every cross-key rule the point v breaks."""
@@ -898,14 +1025,9 @@ def _point_problems(study: Study, base: Mapping[str, Any], v: Mapping[str, Any],
     kind = study.source.kind
     p_src = v["source.pressure_bar"]
     if kind == "water" and p_src is not None:
-        p_sat = _water_saturation_pressure_bar(T_src)
-        if not p_src > p_sat:
-            out.append((
-                "boiling-source", "source.pressure_bar",
-                f"source.pressure_bar = {_show(p_src)}: hot water at {T_src:g} °C boils at this pressure "
-                f"(saturation {p_sat:.4g} bar, IAPWS-95); allowed: a pressure above {p_sat:.4g} bar, "
-                f'or kind = "fluid" for steam',
-            ))
+        found = _hot_water_problem(T_src, p_src)
+        if found:
+            out.append(found)
     if study.sink.kind == "water":
         if not T_sink > 0:
             out.append((
@@ -913,15 +1035,10 @@ def _point_problems(study: Study, base: Mapping[str, Any], v: Mapping[str, Any],
                 f"sink.inlet_temperature_C = {_show(T_sink)}: cooling water would freeze; allowed: above 0 °C, "
                 f'or sink.kind = "air"',
             ))
-        p_sink = v["sink.pressure_bar"]
-        T_out = T_sink + rise
-        p_sat = _water_saturation_pressure_bar(T_out)
-        if p_sink is not None and not p_sink > p_sat:
-            out.append((
-                "boiling-sink", "sink.pressure_bar",
-                f"sink.pressure_bar = {_show(p_sink)}: cooling water leaving at {T_out:g} °C boils at this "
-                f"pressure (saturation {p_sat:.4g} bar, IAPWS-95); allowed: above {p_sat:.4g} bar",
-            ))
+        else:
+            found = _cooling_water_problem(T_sink, rise, v["sink.pressure_bar"])
+            if found:
+                out.append(found)
     p_max, p_cmin = v["limits.max_pressure_bar"], v["limits.min_condensing_pressure_bar"]
     if p_max is not None and p_cmin is not None and not p_cmin < p_max:
         out.append((
@@ -940,10 +1057,26 @@ def _point_problems(study: Study, base: Mapping[str, Any], v: Mapping[str, Any],
         for name in ("source", "sink"):
             section = dict(base[name])
             section.update({p.split(".", 1)[1]: x for p, x in v.items() if p.startswith(name + ".")})
-            problem = _stream_problem(name, _canonical(section))
+            problem = _stream_problem(name, _canonical_or_none(section))
             if problem:
-                out.append((f"stream-{name}", name, f"{name} = {_show(section)}: {problem}"))
+                out.append((f"stream-{name}", name, _stream_line(name, section, problem)))
     return out
+
+
+def _canonical_or_none(section: Mapping[str, Any]) -> str:
+    try:
+        return _canonical(section)
+    except ValueError:  # a non-finite number: refused by the section models already
+        return json.dumps(section, sort_keys=True, default=str)
+
+
+def _stream_line(name: str, section: Mapping[str, Any], problem: str) -> str:
+    """One line for a refusal of the stream model: the model's own message when it names a
+    key of the section (``source.xxx = ...``), else the kind of stream and the reason."""
+    if problem.startswith(f"{name}."):
+        return problem
+    kind = section.get("kind") or ("water" if name == "sink" else None)
+    return f"{name}.kind = {_show(kind)}: the {name} model refuses these settings: {problem}"
 
 
 @functools.lru_cache(maxsize=4096)
@@ -956,8 +1089,14 @@ def _stream_problem(name: str, section_json: str) -> str | None:
     build = streams.source_from_settings if name == "source" else streams.sink_from_settings
     try:
         build(section)
-    except (streams.StreamError, PropertyError) as exc:
-        return f"the {name} model refuses these settings: {exc}"
+    except streams.StreamError as exc:
+        return str(exc)
+    except (PropertyError, ValueError, ArithmeticError):
+        # a fluid-property failure: said in plain words, CoolProp's own text left out
+        key = f"{name}.inlet_temperature_C"
+        return (f"{key} = {_show(section.get('inlet_temperature_C'))}: the {name}'s properties "
+                f"cannot be evaluated at these settings (outside the range of its model or "
+                f"equation of state); allowed: a temperature and pressure inside that range")
     return None
 
 
@@ -975,24 +1114,37 @@ def _check_points(study: Study, specs: dict[str, Any], origin: str, errors: list
     else:
         axes = [_axis_values(specs[p]) for p in swept]
         exact = True
+    # The stream models (a table per source and sink setting) are built at every point of a
+    # sweep of at most STREAM_POINTS_EXACT points, else at the corners of the sweep box only.
+    streams_exact = n_total <= STREAM_POINTS_EXACT
     seen: dict[str, tuple[str, dict[str, Any], int]] = {}
     n_points = 0
     for combo in itertools.product(*axes):
         n_points += 1
         values = dict(fixed)
         values.update(zip(swept, combo))
-        for check, path, message in _point_problems(study, base, values, with_streams):
+        for check, path, message in _point_problems(study, base, values, with_streams and streams_exact):
             if check in seen:
                 first = seen[check]
                 seen[check] = (first[0], first[1], first[2] + 1)
             else:
                 seen[check] = (message, dict(zip(swept, combo)), 1)
+    at_corners: dict[str, tuple[str, dict[str, Any]]] = {}
+    if with_streams and not streams_exact and not seen:
+        for combo in itertools.product(*(_axis_bounds(specs[p]) for p in swept)):
+            values = dict(fixed)
+            values.update(zip(swept, combo))
+            for check, path, message in _point_problems(study, base, values, True):
+                at_corners.setdefault(check, (message, dict(zip(swept, combo))))
     for message, point, count in seen.values():
         where = ""
         if point:
             where = " (at sweep point " + ", ".join(f"{p} = {_show(x)}" for p, x in point.items())
             where += f"; {count} of {n_points} points)" if exact else "; a corner of the sweep)"
         errors.append(f"{origin}: {message}{where}")
+    for message, point in at_corners.values():
+        where = ", ".join(f"{p} = {_show(x)}" for p, x in point.items())
+        errors.append(f"{origin}: {message} (at sweep point {where}; a corner of the sweep)")
 
 
 def _axis_bounds(spec: Any) -> list[Any]:
@@ -1133,18 +1285,141 @@ def load_study(path: str | Path, *, allow_huge: bool = False) -> Study:
     except OSError as exc:
         raise StudyError(f"{origin}: cannot read the study file: {exc.strerror or exc}") from None
     try:
-        data = tomllib.loads(raw_bytes.decode("utf-8"))
+        text = raw_bytes.decode("utf-8")
     except UnicodeDecodeError as exc:
-        raise StudyError(f"{origin}: not UTF-8 text (byte {exc.start}); allowed: a UTF-8 TOML file") from None
+        line = raw_bytes.count(b"\n", 0, exc.start) + 1
+        raise StudyError(f"{origin}: line {line}: not UTF-8 text (byte {exc.start}); allowed: a UTF-8 TOML "
+                         f"file") from None
+    text = text.removeprefix("\ufeff")  # a UTF-8 byte-order mark, as some editors write, is accepted
+    too_long = _long_dotted_key(text)
+    if too_long is not None:  # the TOML parser's time and memory grow with its square
+        raise StudyError(f"{origin}: line {too_long}: a key of more than {MAX_NESTING} dotted parts; "
+                         f"allowed: at most {MAX_NESTING} levels (a study needs 4)")
+    try:
+        data = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
-        raise StudyError(f"{origin}: TOML syntax error: {exc}") from None
+        where = "" if " line " in str(exc) else f" (line {_line_of(text, len(text))}, the last line)"
+        raise StudyError(f"{origin}: TOML syntax error: {exc}{where}") from None
+    except RecursionError:
+        raise StudyError(_deep_text_message(origin, text)) from None
+    except ValueError as exc:  # e.g. an integer literal beyond Python's digit limit
+        raise StudyError(_long_literal_message(origin, text, exc)) from None
     return study_from_dict(data, origin=origin, allow_huge=allow_huge)
+
+
+_KEY_PART = re.compile(r"^[ \t]*\[*([^=\]\n#]*)", re.MULTILINE)
+
+
+def _long_dotted_key(text: str) -> int | None:
+    """The line of the first key or table header with more than :data:`MAX_NESTING` dots in
+    it (the text before "=" or inside the brackets), or None."""
+    for match in _KEY_PART.finditer(text):
+        if match.group(1).count(".") > MAX_NESTING:
+            return _line_of(text, match.start())
+    return None
+
+
+def _line_of(text: str, pos: int) -> int:
+    return text.count("\n", 0, pos) + 1
+
+
+def _deep_text_message(origin: str, text: str) -> str:
+    """The message for TOML text nested too deeply for the parser: the line where the
+    nesting passes :data:`MAX_NESTING` (brackets and braces outside strings and comments)."""
+    depth, pos, n = 0, None, len(text)
+    i = 0
+    while i < n:
+        c = text[i]
+        if c in "\"'":
+            triple = text.startswith(c * 3, i)
+            end = text.find(c * 3 if triple else c, i + (3 if triple else 1))
+            while end != -1 and c == '"' and text[end - 1] == "\\":
+                end = text.find(c * 3 if triple else c, end + 1)
+            i = n if end == -1 else end + (3 if triple else 1)
+            continue
+        if c == "#":
+            end = text.find("\n", i)
+            i = n if end == -1 else end
+            continue
+        if c in "[{":
+            depth += 1
+            if depth > MAX_NESTING and pos is None:
+                pos = i
+        elif c in "]}":
+            depth -= 1
+        i += 1
+    where = f"line {_line_of(text, pos)}" if pos is not None else "line 1"
+    return (f"{origin}: {where}: tables or arrays nested more than {MAX_NESTING} levels deep; "
+            f"allowed: at most {MAX_NESTING} levels (a study needs 4)")
+
+
+def _long_literal_message(origin: str, text: str, exc: ValueError) -> str:
+    """The message for a literal the TOML parser cannot convert (an integer of thousands of
+    digits): the line of the longest run of digits."""
+    import re
+
+    runs = [(m.end() - m.start(), m.start()) for m in re.finditer(r"[0-9_]{100,}", text)]
+    if runs:
+        length, start = max(runs)
+        return (f"{origin}: line {_line_of(text, start)}: a number literal of {length:,} digits; allowed: "
+                f"an ordinary number (at most a few hundred digits)")
+    return f"{origin}: line 1: the TOML text cannot be read ({exc}); allowed: a TOML study file"
+
+
+def _nesting_problem(d: Mapping[str, Any], origin: str) -> str | None:
+    """A message when tables or arrays in ``d`` nest deeper than :data:`MAX_NESTING` (found
+    without recursion), naming the key path where it happens."""
+    stack: list[tuple[Any, str, int]] = [(d, "", 0)]
+    while stack:
+        value, path, depth = stack.pop()
+        if depth > MAX_NESTING:
+            return (f"{origin}: {_cut(path)}: tables or arrays nested more than {MAX_NESTING} levels "
+                    f"deep; allowed: at most {MAX_NESTING} levels (a study needs 4)")
+        if isinstance(value, Mapping):
+            stack.extend((v, f"{path}.{k}" if path else str(k), depth + 1) for k, v in value.items())
+        elif isinstance(value, list):
+            stack.extend((v, f"{path}[{i}]", depth + 1) for i, v in enumerate(value))
+    return None
+
+
+def _time_limit_problems(study: Study, specs: Mapping[str, Any], origin: str, errors: list[str]) -> None:
+    """A case time limit beyond :data:`MAX_CASE_TIME_LIMIT_S` cannot be timed."""
+    values = [study.study.case_time_limit_s]
+    path = "study.case_time_limit_s"
+    if path in specs:
+        values = [v for v in _axis_bounds(specs[path]) if isinstance(v, float)]
+    for value in values:
+        if value > MAX_CASE_TIME_LIMIT_S:
+            errors.append(f"{origin}: {path} = {_show(value)}: longer than a case can be timed; allowed: a "
+                          f"number > 0 and at most {MAX_CASE_TIME_LIMIT_S:.0f} s (about 11.6 days)")
+            return
+
+
+def _sweep_override_warnings(raw: Mapping[str, Any], flat: Mapping[str, tuple[str, Any]],
+                             specs: Mapping[str, Any], origin: str) -> tuple[str, ...]:
+    """One warning per swept setting that is also written in its section: the sweep wins. A
+    required key (no default, e.g. source.inlet_temperature_C) must be written even when swept,
+    so it gets no warning (there would be no way to silence it)."""
+    lines = []
+    for path in specs:
+        section, _, key = path.partition(".")
+        table = raw.get(section)
+        model = _SECTION_MODELS.get(section)
+        required = model is not None and key in model.model_fields and model.model_fields[key].is_required()
+        if isinstance(table, Mapping) and key in table and not required:
+            lines.append(f"{origin}: warning: {flat[path][0]} overrides {path} = {_show(table[key])} "
+                         f"written in [{section}]; the swept values are used, the written one is "
+                         f"ignored; remove one of the two to silence this warning")
+    return tuple(lines)
 
 
 def study_from_dict(d: Mapping[str, Any], origin: str = "<dict>", *, allow_huge: bool = False) -> Study:
     """Validate a study given as a dictionary (the parsed TOML); raise :class:`StudyError`."""
     if not isinstance(d, Mapping):
         raise StudyError(f"{origin}: a study must be a table of sections, not {_type_name(d)}")
+    deep = _nesting_problem(d, origin)
+    if deep:
+        raise StudyError(deep)
     errors: list[str] = []
     raw = dict(d)
     raw_sweep = raw.pop("sweep", {})
@@ -1166,11 +1441,13 @@ def study_from_dict(d: Mapping[str, Any], origin: str = "<dict>", *, allow_huge:
         raise StudyError(errors)
     study = _check_source_keys(study, origin, errors)
     _check_swept_source_keys(study, flat, specs, origin, errors)
+    _time_limit_problems(study, specs, origin, errors)
     fluids = _resolve_fluids(study.fluid_filter, origin, errors)
     _check_points(study, specs, origin, errors, with_streams=not errors)
     study._origin = origin
     study._fluids = fluids
     study._sweep = specs
+    study._warnings = _sweep_override_warnings(raw, flat, specs, origin)
     if not errors and not allow_huge and study.n_cases > MAX_CASES:
         sizes = " x ".join(f"{n} {p}" for p, n in study.sweep_sizes.items())
         sizes = f"{sizes} x " if sizes else ""

@@ -68,7 +68,35 @@ EXPECTED = {
     "unknown-source-kind": ['source.kind = "steam"', '"water", "brine", "thermal-oil", "flue-gas", "fluid"'],
     "wrong-type-boolean-flow": ["source.mass_flow_kg_s = true", "wrong type", "a number > 0"],
     "wrong-type-temperature-string": ['source.inlet_temperature_C = "130"', "wrong type", "-50 to 1000"],
+    # robustness cases (a fuzzing pass and hand-made faults): every one named by key or line
+    "bom-then-unknown-key": ["source.mass_flow_kgs", "did you mean source.mass_flow_kg_s"],
+    "brine-cp-turns-negative": ["source.cp_slope_kJ_kgK2 = -0.01", "not positive", "allowed"],
+    "case-time-limit-too-long": ["study.case_time_limit_s = 10000000000.0", "at most 1000000 s"],
+    "cooling-water-leaves-as-steam": ["sink.temperature_rise_K = 400", "420 °C", "critical temperature",
+                                      "below 373.9 °C"],
+    "fluid-source-above-eos-range": ["source.inlet_temperature_C = 900", "R134a's equation of state",
+                                     "up to"],
+    "fluid-source-pressure-below-triple-point": ["source.pressure_bar = 0.001", "no usable states",
+                                                 "allowed"],
+    "fluid-source-quality-above-critical": ["source.inlet_temperature_C = 400", "no two-phase state",
+                                            "inlet_quality"],
+    "fluid-source-saturated-without-quality": ["source.inlet_temperature_C = 151.83", "saturated at 5 bar",
+                                               "source.inlet_quality"],
+    "hot-water-above-critical-temperature": ["source.inlet_temperature_C = 999", "critical temperature",
+                                             'kind = "fluid"'],
+    "dotted-key-5000-parts": ["line 6", "more than 20 dotted parts"],
+    "nesting-10000-deep": ["line 8", "nested more than 20 levels"],
+    "nul-byte": ["TOML syntax error", "line 4, column 26"],
+    "number-literal-10000-digits": ["line 4", "10,001 digits"],
+    "sink-water-far-below-freezing": ["sink.inlet_temperature_C = -20", "would freeze", '"air"'],
+    "superheat-infinite": ["cycle.superheat_K = inf", "must be a finite number"],
+    "sweep-range-absurd-step": ['sweep."source.inlet_temperature_C".step = 1e-09', "larger step"],
+    "sweep-range-stop-infinite": ['sweep."source.inlet_temperature_C".stop = inf', "must be a finite number"],
+    "sweep-value-nan": ['sweep."sink.inlet_temperature_C"[1] = nan', "must be a finite number"],
 }
+
+#: Words of CoolProp's own error texts: a message about bad input says things in plain words.
+RAW_PROPERTY_TEXT = ("QT_flash", "PT_flash", "PropertyError", "Temperature to", "must be in range [")
 
 
 def run(capsys, *argv):
@@ -94,6 +122,10 @@ def test_malformed_study_exits_2_with_one_clear_message(capsys, name):
     assert lines[0].startswith(f"{path}: ")  # names the file
     for fragment in EXPECTED[name]:
         assert fragment in lines[0], f"{fragment!r} not in {lines[0]!r}"
+    assert not any(word in lines[0] for word in RAW_PROPERTY_TEXT), lines[0]
+    rest = lines[0][len(f"{path}: "):]
+    assert " inf bar" not in rest
+    assert not rest.startswith(("source = {", "sink = {")), rest  # the key, not the whole section
 
 
 @pytest.mark.parametrize("name", ["negative-mass-flow", "unknown-key-typo"])
