@@ -49,6 +49,7 @@ orcscreen.properties (Bell et al., Ind. Eng. Chem. Res. 53 (2014) 2498).
 
 from __future__ import annotations
 
+import difflib
 import functools
 import math
 from bisect import bisect_right
@@ -588,10 +589,45 @@ class Stream(Protocol):
 
 
 class _CurveStream:
-    """Shared behaviour: delegate the property calls to the curve built in __post_init__."""
+    """Shared behaviour: delegate the property calls to the curve built in __post_init__.
+
+    Besides the model, each kind owns the study-file rules that are its own (the study schema
+    reads them through the registries below, and names no kind itself): ``own_keys`` (keys of
+    its section that only some kinds take), :meth:`settings_defaults`, :meth:`settings_problems`
+    (rules between keys that do not vary with a sweep) and :meth:`point_problems` (physical rules
+    checked at every operating point).
+    """
 
     kind: ClassVar[str]
     label: ClassVar[str]
+    default_pressure_bar: ClassVar[float | None] = None
+    #: keys of the study's section that only some kinds take: these are this kind's
+    own_keys: ClassVar[tuple[str, ...]] = ()
+
+    @classmethod
+    def settings_defaults(cls, section: Mapping[str, Any]) -> dict[str, Any]:
+        """Defaults of this kind for the keys the study left out (None): its pressure."""
+        if section.get("pressure_bar") is None and cls.default_pressure_bar is not None:
+            return {"pressure_bar": cls.default_pressure_bar}
+        return {}
+
+    @classmethod
+    def settings_problems(cls, section: Mapping[str, Any], where: str, show) -> tuple[list[str], dict[str, Any]]:
+        """Rules between keys of the section (where: "source" or "sink") that a sweep cannot change:
+        (messages "key = value: reason; allowed: ...", fixes to apply to the section). show(value)
+        writes a value as in the study file."""
+        return [], {}
+
+    @classmethod
+    def swept_key_problem(cls, key: str, section: Mapping[str, Any]) -> str | None:
+        """Why a sweep of one of the section's keys does not apply to this kind, or None."""
+        return None
+
+    @classmethod
+    def point_problems(cls, values: Mapping[str, Any], show) -> list[tuple[str, str, str]]:
+        """(check id, key path, message) for each physical rule the operating point breaks;
+        values holds the point's settings by dotted path (source.*, sink.*)."""
+        return []
 
     def _set_curve(self, curve, h_in: float | None = None, s_in: float | None = None) -> None:
         object.__setattr__(self, "_curve", curve)
@@ -709,6 +745,37 @@ class HotWater(_CurveStream):
         T_in, m, p, T_min = _read_common(section, cls)
         return cls(T_in, m, p, T_min, T_low_K)
 
+    @classmethod
+    def point_problems(cls, values: Mapping[str, Any], show) -> list[tuple[str, str, str]]:
+        """Hot water must be liquid: not ice, not steam above the critical temperature, not
+        boiling at its pressure (IAPWS-95 through orcscreen.properties)."""
+        T_C, p_bar = values["source.inlet_temperature_C"], values["source.pressure_bar"]
+        if p_bar is None:
+            return []
+        T_triple, T_crit, p_crit = _water_limits()
+        if not T_C > T_triple:
+            return [("freezing-source", "source.inlet_temperature_C",
+                     f"source.inlet_temperature_C = {show(T_C)}: hot water at {T_C:g} °C would be ice "
+                     f"(freezing point {T_triple:.2f} °C, IAPWS-95); allowed: above {T_triple:.2f} °C")]
+        if p_bar >= p_crit:
+            return []
+        if T_C >= T_crit:
+            return [("steam-source", "source.inlet_temperature_C",
+                     f"source.inlet_temperature_C = {show(T_C)}: water above its critical temperature "
+                     f"({T_crit:.1f} °C) is steam at {p_bar:g} bar, not hot water; allowed: below "
+                     f"{T_crit:.1f} °C, source.pressure_bar above the critical pressure {p_crit:.4g} bar, "
+                     f'or kind = "fluid" for steam')]
+        try:
+            p_sat = _water_saturation_pressure_bar(T_C)
+        except props.PropertyError:
+            return []  # left to the stream model, whose message names the key
+        if not p_bar > p_sat:
+            return [("boiling-source", "source.pressure_bar",
+                     f"source.pressure_bar = {show(p_bar)}: hot water at {T_C:g} °C boils at this pressure "
+                     f"(saturation {p_sat:.4g} bar, IAPWS-95); allowed: a pressure above {p_sat:.4g} bar, "
+                     f'or kind = "fluid" for steam')]
+        return []
+
 
 @dataclass(frozen=True)
 class _LinearCpLiquid(_CurveStream):
@@ -731,6 +798,14 @@ class _LinearCpLiquid(_CurveStream):
 
     default_pressure_bar: ClassVar[float]
     default_cp_kJ_kgK: ClassVar[float]
+    own_keys: ClassVar[tuple[str, ...]] = ("cp_kJ_kgK", "cp_slope_kJ_kgK2")
+
+    @classmethod
+    def settings_defaults(cls, section: Mapping[str, Any]) -> dict[str, Any]:
+        out = super().settings_defaults(section)
+        if section.get("cp_kJ_kgK") is None:
+            out["cp_kJ_kgK"] = cls.default_cp_kJ_kgK
+        return out
 
     def __post_init__(self):
         T_low = _check_source(self)
@@ -866,6 +941,28 @@ class FlueGas(_CurveStream):
                 raise StreamError(f"source.composition = {dict(composition) if isinstance(composition, Mapping) else composition!r}: {exc}") from None
         return cls(T_in, m, p, composition, basis, T_min, T_low_K)
 
+    own_keys: ClassVar[tuple[str, ...]] = ("composition",)
+
+    @classmethod
+    def settings_defaults(cls, section: Mapping[str, Any]) -> dict[str, Any]:
+        """The default composition (natural-gas exhaust) for a mole-basis section without one."""
+        out = super().settings_defaults(section)
+        if section.get("composition") is None and (section.get("composition_basis") or "mole") == "mole":
+            out["composition"] = dict(methane_flue_gas_mole_fractions())
+        return out
+
+    @classmethod
+    def settings_problems(cls, section, where, show):
+        comp = section.get("composition")
+        if comp is None:
+            return [f'{where}.composition: required when composition_basis = "mass"; allowed: a table '
+                    f"of {', '.join(GAS_SPECIES)} mass fractions"], {}
+        total = sum(comp.values())
+        if not abs(total - 1.0) <= 0.01:
+            return [f"{where}.composition = {show(comp)}: fractions sum to {total:.6g}; "
+                    f"allowed: fractions of {', '.join(GAS_SPECIES)} summing to 1 (within 0.01)"], {}
+        return [], {"composition": {k: x / total for k, x in comp.items()}}
+
 
 @dataclass(frozen=True)
 class FluidSource(_CurveStream):
@@ -959,6 +1056,40 @@ class FluidSource(_CurveStream):
         q = "" if self.inlet_quality is None else f", inlet quality {self.inlet_quality:.3g}"
         return self._describe(f" {self.fluid}") + q
 
+    own_keys: ClassVar[tuple[str, ...]] = ("fluid", "inlet_quality")
+
+    @classmethod
+    def settings_problems(cls, section, where, show):
+        """The fluid must be CoolProp's (its canonical name is kept); the pressure comes either from
+        the section or, with an inlet quality, from the temperature."""
+        errors, fixes = [], {}
+        name = section.get("fluid")
+        if name is None:
+            errors.append(f'{where}.fluid: required for kind = "fluid"; allowed: a CoolProp fluid name such as "Water"')
+        else:
+            names = props.coolprop_fluid_names()
+            canonical = name if name in names else {n.lower(): n for n in names}.get(str(name).lower())
+            if canonical is None:
+                close = difflib.get_close_matches(str(name), names, n=3, cutoff=0.5)
+                hint = f"; close matches: {', '.join(close)}" if close else ""
+                errors.append(f"{where}.fluid = {show(name)}: unknown to CoolProp{hint}; allowed: a CoolProp fluid name")
+            else:
+                fixes["fluid"] = canonical
+        quality, pressure = section.get("inlet_quality"), section.get("pressure_bar")
+        if quality is None and pressure is None:
+            errors.append(f'{where}.pressure_bar: required for kind = "fluid" without inlet_quality; '
+                          f"allowed: a number > 0 (or give {where}.inlet_quality for a saturated source)")
+        if quality is not None and pressure is not None:
+            errors.append(f"{where}.pressure_bar = {show(pressure)}: a saturated source "
+                          f"(inlet_quality given) takes its pressure from the temperature; allowed: leave it out")
+        return errors, fixes
+
+    @classmethod
+    def swept_key_problem(cls, key: str, section: Mapping[str, Any]) -> str | None:
+        if key == "pressure_bar" and section.get("inlet_quality") is not None:
+            return "a saturated source (inlet_quality given) takes its pressure from the temperature"
+        return None
+
     @classmethod
     def from_settings(cls, section: Mapping[str, Any], T_low_K: float | None = None) -> FluidSource:
         fluid = section.get("fluid")
@@ -1022,6 +1153,33 @@ class CoolingWater(_Sink):
     kind: ClassVar[str] = "water"
     label: ClassVar[str] = "cooling water"
     default_pressure_bar: ClassVar[float] = 2.0
+
+    @classmethod
+    def point_problems(cls, values: Mapping[str, Any], show) -> list[tuple[str, str, str]]:
+        """Cooling water must stay liquid from inlet to outlet: not frozen, not steam, not boiling."""
+        T_in_C, rise_K, p_bar = values["sink.inlet_temperature_C"], values["sink.temperature_rise_K"], values["sink.pressure_bar"]
+        if not T_in_C > 0:
+            return [("freezing-sink", "sink.inlet_temperature_C",
+                     f"sink.inlet_temperature_C = {show(T_in_C)}: cooling water would freeze; allowed: above 0 °C, "
+                     f'or sink.kind = "air"')]
+        _, T_crit, p_crit = _water_limits()
+        T_out = T_in_C + rise_K
+        if p_bar is None or p_bar >= p_crit:
+            return []
+        if T_out >= T_crit:
+            return [("steam-sink", "sink.temperature_rise_K",
+                     f"sink.temperature_rise_K = {show(rise_K)}: cooling water leaving at {T_out:g} °C is "
+                     f"above the critical temperature of water ({T_crit:.1f} °C) and would be steam at "
+                     f"{p_bar:g} bar; allowed: a rise that keeps the outlet below {T_crit:.1f} °C")]
+        try:
+            p_sat = _water_saturation_pressure_bar(T_out)
+        except props.PropertyError:
+            return []
+        if not p_bar > p_sat:
+            return [("boiling-sink", "sink.pressure_bar",
+                     f"sink.pressure_bar = {show(p_bar)}: cooling water leaving at {T_out:g} °C boils at this "
+                     f"pressure (saturation {p_sat:.4g} bar, IAPWS-95); allowed: above {p_sat:.4g} bar")]
+        return []
 
     def __post_init__(self):
         self._check_sink()
@@ -1121,6 +1279,23 @@ def _read_common(section: Mapping[str, Any], cls) -> tuple[float, float, float |
     if T_min is not None:
         T_min = _read(section, "min_outlet_temperature_C", None) + ZERO_CELSIUS_K
     return T_in, m, p, T_min
+
+
+@functools.lru_cache(maxsize=4096)
+def _water_saturation_pressure_bar(T_C: float) -> float:
+    """Saturation pressure of pure water [bar] (IAPWS-95 through orcscreen.properties)."""
+    water = props.get_fluid("Water")
+    T_K = T_C + ZERO_CELSIUS_K
+    if T_K >= water.T_crit_K:
+        return math.inf
+    return water.sat_T(T_K).p_Pa / 1e5
+
+
+def _water_limits() -> tuple[float, float, float]:
+    """Triple-point temperature [°C], critical temperature [°C] and critical pressure [bar]
+    of water (IAPWS-95 through orcscreen.properties)."""
+    water = props.get_fluid("Water")
+    return water.T_min_K - ZERO_CELSIUS_K, water.T_crit_K - ZERO_CELSIUS_K, water.p_crit_Pa / 1e5
 
 
 #: Source models by study-file kind (each class carries its kind, defaults and from_settings).

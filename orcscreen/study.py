@@ -78,11 +78,6 @@ _SHOWN_CHARS = 80
 """Longest value text shown in a message; longer values are cut with "..."."""
 
 
-def _default_flue_gas() -> dict[str, float]:
-    """Default flue gas: natural gas (methane) burnt with 15 % excess air (streams.py owns the model)."""
-    return dict(_streams.methane_flue_gas_mole_fractions())
-
-
 # Defaults that depend on the kind of stream, read from the stream classes (each class carries
 # its own, with the reasons in streams.py): pressure by kind, and the specific heat of the
 # kinds whose model takes a cp (brine, thermal oil).
@@ -213,19 +208,14 @@ class SourceSection(_Section):
     @model_validator(mode="before")
     @classmethod
     def _kind_defaults(cls, data: Any) -> Any:
-        """Fill the defaults that depend on the kind of source."""
+        """Fill the defaults that depend on the kind of source (the stream class's own)."""
         if not isinstance(data, Mapping):
             return data
         data = dict(data)
         kind = data.get("kind")
-        if not isinstance(kind, str):
-            return data
-        if data.get("pressure_bar") is None and kind in _DEFAULT_SOURCE_PRESSURE_bar:
-            data["pressure_bar"] = _DEFAULT_SOURCE_PRESSURE_bar[kind]
-        if data.get("cp_kJ_kgK") is None and kind in _DEFAULT_CP_kJ_kgK:
-            data["cp_kJ_kgK"] = _DEFAULT_CP_kJ_kgK[kind]
-        if data.get("composition") is None and kind == "flue-gas" and data.get("composition_basis", "mole") == "mole":
-            data["composition"] = _default_flue_gas()
+        model = _streams.SOURCE_KINDS.get(kind) if isinstance(kind, str) else None
+        if model is not None:
+            data.update(model.settings_defaults(data))
         return data
 
 
@@ -245,12 +235,14 @@ class SinkSection(_Section):
     @model_validator(mode="before")
     @classmethod
     def _kind_defaults(cls, data: Any) -> Any:
+        """Fill the defaults that depend on the kind of sink (the stream class's own)."""
         if not isinstance(data, Mapping):
             return data
         data = dict(data)
         kind = data.get("kind", "water")
-        if data.get("pressure_bar") is None and isinstance(kind, str) and kind in _DEFAULT_SINK_PRESSURE_bar:
-            data["pressure_bar"] = _DEFAULT_SINK_PRESSURE_bar[kind]
+        model = _streams.SINK_KINDS.get(kind) if isinstance(kind, str) else None
+        if model is not None:
+            data.update(model.settings_defaults(data))
         return data
 
 
@@ -269,7 +261,7 @@ class MachinesSection(_Section):
     """[machines]: efficiencies of turbine, pump, generator and motor."""
 
     turbine_model: Literal[TURBINE_MODELS] = _f(
-        "constant", "Turbine efficiency model (orcscreen.turbine.TURBINE_MODELS).", _choices(TURBINE_MODELS)
+        _turbine.DEFAULT_TURBINE_MODEL, "Turbine efficiency model (orcscreen.turbine.TURBINE_MODELS).", _choices(TURBINE_MODELS)
     )
     turbine_efficiency: float = _f(0.80, "Isentropic efficiency of the turbine [-] (turbine_model \"constant\").", "a number in (0, 1]", gt=0, le=1)
     pump_efficiency: float = _f(0.70, "Isentropic efficiency of the pump [-].", "a number in (0, 1]", gt=0, le=1)
@@ -920,82 +912,6 @@ _POINT_PATHS = tuple(dict.fromkeys(
 ))
 
 
-@functools.lru_cache(maxsize=4096)
-def _water_saturation_pressure_bar(T_C: float) -> float:
-    """Saturation pressure of pure water [bar] (IAPWS-95 through orcscreen.properties)."""
-    from orcscreen.properties import get_fluid
-
-    water = get_fluid("Water")
-    T_K = T_C + 273.15
-    if T_K >= water.T_crit_K:
-        return math.inf
-    return water.sat_T(T_K).p_Pa / 1e5
-
-
-def _water_limits() -> tuple[float, float, float]:
-    """Triple-point temperature [°C], critical temperature [°C] and critical pressure [bar]
-    of water (IAPWS-95 through orcscreen.properties)."""
-    from orcscreen.properties import get_fluid
-
-    water = get_fluid("Water")
-    return water.T_min_K - 273.15, water.T_crit_K - 273.15, water.p_crit_Pa / 1e5
-
-
-def _hot_water_problem(T_C: float, p_bar: float) -> tuple[str, str, str] | None:
-    """(check id, key, message) when a hot-water source at ``T_C`` [°C] and ``p_bar`` [bar]
-    cannot be liquid (ice, steam above the critical temperature, boiling), else None."""
-    from orcscreen.properties import PropertyError
-
-    T_triple, T_crit, p_crit = _water_limits()
-    if not T_C > T_triple:
-        return ("freezing-source", "source.inlet_temperature_C",
-                f"source.inlet_temperature_C = {_show(T_C)}: hot water at {T_C:g} °C would be ice "
-                f"(freezing point {T_triple:.2f} °C, IAPWS-95); allowed: above {T_triple:.2f} °C")
-    if p_bar >= p_crit:
-        return None
-    if T_C >= T_crit:
-        return ("steam-source", "source.inlet_temperature_C",
-                f"source.inlet_temperature_C = {_show(T_C)}: water above its critical temperature "
-                f"({T_crit:.1f} °C) is steam at {p_bar:g} bar, not hot water; allowed: below "
-                f"{T_crit:.1f} °C, source.pressure_bar above the critical pressure {p_crit:.4g} bar, "
-                f'or kind = "fluid" for steam')
-    try:
-        p_sat = _water_saturation_pressure_bar(T_C)
-    except PropertyError:
-        return None  # left to the stream model, whose message names the key
-    if not p_bar > p_sat:
-        return ("boiling-source", "source.pressure_bar",
-                f"source.pressure_bar = {_show(p_bar)}: hot water at {T_C:g} °C boils at this pressure "
-                f"(saturation {p_sat:.4g} bar, IAPWS-95); allowed: a pressure above {p_sat:.4g} bar, "
-                f'or kind = "fluid" for steam')
-    return None
-
-
-def _cooling_water_problem(T_in_C: float, rise_K: float, p_bar: float | None) -> tuple[str, str, str] | None:
-    """(check id, key, message) when cooling water entering at ``T_in_C`` [°C] and heated by
-    ``rise_K`` [K] at ``p_bar`` [bar] would boil or turn to steam, else None."""
-    from orcscreen.properties import PropertyError
-
-    _, T_crit, p_crit = _water_limits()
-    T_out = T_in_C + rise_K
-    if p_bar is None or p_bar >= p_crit:
-        return None
-    if T_out >= T_crit:
-        return ("steam-sink", "sink.temperature_rise_K",
-                f"sink.temperature_rise_K = {_show(rise_K)}: cooling water leaving at {T_out:g} °C is "
-                f"above the critical temperature of water ({T_crit:.1f} °C) and would be steam at "
-                f"{p_bar:g} bar; allowed: a rise that keeps the outlet below {T_crit:.1f} °C")
-    try:
-        p_sat = _water_saturation_pressure_bar(T_out)
-    except PropertyError:
-        return None
-    if not p_bar > p_sat:
-        return ("boiling-sink", "sink.pressure_bar",
-                f"sink.pressure_bar = {_show(p_bar)}: cooling water leaving at {T_out:g} °C boils at this "
-                f"pressure (saturation {p_sat:.4g} bar, IAPWS-95); allowed: above {p_sat:.4g} bar")
-    return None
-
-
 def _point_problems(study: Study, base: Mapping[str, Any], v: Mapping[str, Any],
                     with_streams: bool = True) -> list[tuple[str, str, str]]:
     """(check id, key path, message) for every cross-key rule the point v breaks."""
@@ -1022,23 +938,9 @@ def _point_problems(study: Study, base: Mapping[str, Any], v: Mapping[str, Any],
             f"source.min_outlet_temperature_C = {_show(T_min)}: not below the source inlet temperature "
             f"{T_src:g} °C; allowed: a number below source.inlet_temperature_C",
         ))
-    kind = study.source.kind
-    p_src = v["source.pressure_bar"]
-    if kind == "water" and p_src is not None:
-        found = _hot_water_problem(T_src, p_src)
-        if found:
-            out.append(found)
-    if study.sink.kind == "water":
-        if not T_sink > 0:
-            out.append((
-                "freezing-sink", "sink.inlet_temperature_C",
-                f"sink.inlet_temperature_C = {_show(T_sink)}: cooling water would freeze; allowed: above 0 °C, "
-                f'or sink.kind = "air"',
-            ))
-        else:
-            found = _cooling_water_problem(T_sink, rise, v["sink.pressure_bar"])
-            if found:
-                out.append(found)
+    # the physical rules of the source's and the sink's own kinds (orcscreen.streams)
+    out.extend(_streams.SOURCE_KINDS[study.source.kind].point_problems(v, _show))
+    out.extend(_streams.SINK_KINDS[study.sink.kind].point_problems(v, _show))
     p_max, p_cmin = v["limits.max_pressure_bar"], v["limits.min_condensing_pressure_bar"]
     if p_max is not None and p_cmin is not None and not p_cmin < p_max:
         out.append((
@@ -1157,55 +1059,32 @@ def _axis_bounds(spec: Any) -> list[Any]:
     return sorted({min(spec, key=key), max(spec, key=key)}, key=key)
 
 
+def _kinds_owning(key: str) -> list[str]:
+    """The source kinds that take a key only some kinds take (their classes' own_keys)."""
+    return [k for k, c in _streams.SOURCE_KINDS.items() if key in c.own_keys]
+
+
+#: Keys of [source] that only some kinds take, from the stream classes.
+_KIND_KEYS = tuple(dict.fromkeys(k for c in _streams.SOURCE_KINDS.values() for k in c.own_keys))
+
+
 def _check_source_keys(study: Study, origin: str, errors: list[str]) -> Study:
-    """Rules between keys of [source] that do not vary with the sweep; returns the study with
-    the flue-gas composition normalised and the source fluid name canonical."""
+    """Rules between keys of [source] that do not vary with the sweep: keys that only other
+    kinds take, then the kind's own rules (orcscreen.streams); returns the study with the kind's
+    fixes applied (e.g. the flue-gas composition normalised, the source fluid name canonical)."""
     src = study.source
     kind = src.kind
-    fixes: dict[str, Any] = {}
-    if src.cp_kJ_kgK is not None and kind not in _DEFAULT_CP_kJ_kgK:
-        errors.append(f"{origin}: source.cp_kJ_kgK = {_show(src.cp_kJ_kgK)}: only for kind brine or thermal-oil "
-                      f"(this source is {kind!r}, whose properties come from its equation of state); allowed: leave it out")
-    if src.cp_slope_kJ_kgK2 != 0.0 and kind not in _DEFAULT_CP_kJ_kgK:
-        errors.append(f"{origin}: source.cp_slope_kJ_kgK2 = {_show(src.cp_slope_kJ_kgK2)}: only for kind brine or "
-                      f"thermal-oil; allowed: leave it out")
-    if src.composition is not None:
-        if kind != "flue-gas":
-            errors.append(f"{origin}: source.composition = {_show(src.composition)}: only for kind flue-gas; allowed: leave it out")
-        else:
-            total = sum(src.composition.values())
-            if not abs(total - 1.0) <= 0.01:
-                errors.append(f"{origin}: source.composition = {_show(src.composition)}: fractions sum to {total:.6g}; "
-                              f"allowed: fractions of N2, O2, CO2, H2O, Ar summing to 1 (within 0.01)")
-            else:
-                fixes["composition"] = {k: x / total for k, x in src.composition.items()}
-    elif kind == "flue-gas":
-        errors.append(f'{origin}: source.composition: required when composition_basis = "mass"; allowed: a table '
-                      f"of N2, O2, CO2, H2O, Ar mass fractions")
-    if kind == "fluid":
-        if src.fluid is None:
-            errors.append(f'{origin}: source.fluid: required for kind = "fluid"; allowed: a CoolProp fluid name such as "Water"')
-        else:
-            canonical = _coolprop_name(src.fluid)
-            if canonical is None:
-                from orcscreen.properties import coolprop_fluid_names
-
-                close = difflib.get_close_matches(src.fluid, coolprop_fluid_names(), n=3, cutoff=0.5)
-                hint = f"; close matches: {', '.join(close)}" if close else ""
-                errors.append(f"{origin}: source.fluid = {_show(src.fluid)}: unknown to CoolProp{hint}; allowed: a CoolProp fluid name")
-            else:
-                fixes["fluid"] = canonical
-        if src.inlet_quality is None and src.pressure_bar is None:
-            errors.append(f'{origin}: source.pressure_bar: required for kind = "fluid" without inlet_quality; '
-                          f"allowed: a number > 0 (or give source.inlet_quality for a saturated source)")
-        if src.inlet_quality is not None and src.pressure_bar is not None:
-            errors.append(f"{origin}: source.pressure_bar = {_show(src.pressure_bar)}: a saturated source "
-                          f"(inlet_quality given) takes its pressure from the temperature; allowed: leave it out")
-    else:
-        for key in ("fluid", "inlet_quality"):
-            if getattr(src, key) is not None:
-                errors.append(f'{origin}: source.{key} = {_show(getattr(src, key))}: only for kind = "fluid"; allowed: leave it out')
-    if fixes:
+    model = _streams.SOURCE_KINDS[kind]
+    section = src.model_dump()
+    defaults = {name: fi.default for name, fi in SourceSection.model_fields.items()}
+    for key in _KIND_KEYS:
+        if key not in model.own_keys and section.get(key) != defaults.get(key):
+            owners = " or ".join(_kinds_owning(key))
+            errors.append(f"{origin}: source.{key} = {_show(section[key])}: only for kind {owners} "
+                          f"(this source is {kind!r}); allowed: leave it out")
+    problems, fixes = model.settings_problems(section, "source", _show)
+    errors.extend(f"{origin}: {p}" for p in problems)
+    if fixes and not problems:
         study = study.model_copy(update={"source": src.model_copy(update=fixes)})
     return study
 
@@ -1214,29 +1093,20 @@ def _check_swept_source_keys(study: Study, flat: dict[str, tuple[str, Any]], spe
                              origin: str, errors: list[str]) -> None:
     """A swept source setting must apply to the kind of source, as a written one must."""
     kind = study.source.kind
-    applies = {
-        "source.cp_kJ_kgK": (kind in _DEFAULT_CP_kJ_kgK, "only for kind brine or thermal-oil"),
-        "source.cp_slope_kJ_kgK2": (kind in _DEFAULT_CP_kJ_kgK, "only for kind brine or thermal-oil"),
-        "source.inlet_quality": (kind == "fluid", 'only for kind = "fluid"'),
-        "source.pressure_bar": (
-            not (kind == "fluid" and study.source.inlet_quality is not None),
-            "a saturated source (inlet_quality given) takes its pressure from the temperature",
-        ),
-    }
-    for path, (ok, why) in applies.items():
-        if path in specs and not ok:
+    model = _streams.SOURCE_KINDS[kind]
+    section = study.source.model_dump()
+    for path in specs:
+        section_name, _, key = path.partition(".")
+        if section_name != "source":
+            continue
+        why = None
+        if key in _KIND_KEYS and key not in model.own_keys:
+            why = f"only for kind {' or '.join(_kinds_owning(key))}"
+        else:
+            why = model.swept_key_problem(key, section)
+        if why:
             errors.append(f"{origin}: {flat[path][0]}: {why} (this source is {kind!r}); allowed: "
                           f"leave this sweep out")
-
-
-def _coolprop_name(name: str) -> str | None:
-    from orcscreen.properties import coolprop_fluid_names
-
-    names = coolprop_fluid_names()
-    if name in names:
-        return name
-    lowered = {n.lower(): n for n in names}
-    return lowered.get(name.lower())
 
 
 # ---------------------------------------------------------------------------------------------

@@ -16,7 +16,7 @@ import math
 from dataclasses import dataclass
 from typing import Protocol
 
-__all__ = ["TurbineModel", "ConstantEfficiency", "size_parameter_m", "volume_ratio", "TURBINE_MODELS"]
+__all__ = ["TurbineModel", "ConstantEfficiency", "size_parameter_m", "volume_ratio", "TURBINE_MODELS", "DEFAULT_TURBINE_MODEL"]
 
 
 def size_parameter_m(V_out_s_m3_s: float, dh_s_J_kg: float) -> float:
@@ -73,3 +73,5 @@ class ConstantEfficiency:
 #: Registry of turbine efficiency models by name (one place: the study's machines.turbine_model
 #: allows these names, and the engine builds the model with the class's from_settings).
 TURBINE_MODELS = {"constant": ConstantEfficiency}
+#: The model a study uses when it names none.
+DEFAULT_TURBINE_MODEL = "constant"
