@@ -25,6 +25,7 @@ Sources:
 
 from __future__ import annotations
 
+import functools
 import math
 from collections.abc import Callable
 from dataclasses import dataclass
@@ -135,7 +136,7 @@ def max_flow_for_pinch(
     usable = dh > 1e-9 * max(abs(h_wf_out_J_kg), 1.0)
     bounds = np.full(h.shape, np.inf)
     bounds[usable] = m_source_kg_s * (h_source_in_J_kg - np.asarray(h_source_at_J_kg)[usable]) / dh[usable]
-    j = int(np.argmin(bounds))
+    j = int(bounds.argmin())
     return float(bounds[j]), j
 
 
@@ -154,15 +155,21 @@ def refine_zone_pinch(h_of_T, source, pinch_K, h_out, hs_in, T_a, T_b, xatol_K=1
     bound is flat at its minimum, so 1e-3 K already gives the flow to about 1e-8); h_wf comes
     from the zone's h_of_T. Returns (flow [kg/s], T [K], h [J/kg]) at the pinch.
     """
-    from scipy.optimize import minimize_scalar
-
     def bound(T):
         h = h_of_T(T)
         return source.m_kg_s * (hs_in - float(source.h_J_kg(T + pinch_K))) / (h_out - h)
 
-    res = minimize_scalar(bound, bounds=(float(T_a), float(T_b)), method="bounded", options={"xatol": xatol_K})
+    res = _minimize_scalar()(bound, bounds=(float(T_a), float(T_b)), method="bounded", options={"xatol": xatol_K})
     T = float(res.x)
     return float(res.fun), T, h_of_T(T)
+
+
+@functools.lru_cache(maxsize=1)
+def _minimize_scalar():
+    """SciPy's bounded scalar minimiser, imported on first use (SciPy's import is slow)."""
+    from scipy.optimize import minimize_scalar
+
+    return minimize_scalar
 
 
 def heater_flow(path: FluidPath, h_out: float, source, pinch_K: float, exact: bool,
@@ -234,10 +241,10 @@ def condenser_approach(fluid, sink, cs, n: int, exact: bool):
     h, T, labels = path.h, path.T_K, path.labels
     frac = (h - h[0]) / (h[-1] - h[0])
     hs_in = sink.h_in_J_kg
-    hs_out = sink.h_J_kg(sink.T_out_K)
+    hs_out = sink.h_out_J_kg
     T_sink = sink.T_K(hs_in + frac * (hs_out - hs_in))
     dT = T - T_sink
-    j = int(np.argmin(dT))
+    j = int(dT.argmin())
     out = float(dT[j]), labels[j], (h, T, T_sink)
     if exact:
         cs.cond_check = out

@@ -37,7 +37,7 @@ __all__ = [
 ]
 
 
-@dataclass(frozen=True)
+@dataclass(slots=True)
 class Zone:
     """A stretch of a path where T rises strictly with h (no plateau inside): points first to
     last (indices, inclusive), its name, and h_of_T(T [K]) -> h [J/kg] anywhere inside it."""
@@ -48,7 +48,7 @@ class Zone:
     h_of_T: Callable[[float], float]
 
 
-@dataclass(frozen=True)
+@dataclass(slots=True)
 class FluidPath:
     """Points of a working-fluid path, in the direction of the flow.
 
@@ -162,11 +162,12 @@ def add_zone(fluid, p_Pa: float, T_a: float, T_b: float, n: int, phase: str, lab
     labels.extend([label] * len(Tz))
 
 
-def heating_path(fluid, sat_e: SatPoint, st_in: State, st3: State, n: int, exact: bool) -> FluidPath:
+def heating_path(fluid, sat_e: SatPoint, st_in: State, st3: State, n: int, exact: bool, zones: bool = True) -> FluidPath:
     """Subcritical heating path from the heater inlet st_in to the turbine inlet st3.
 
     Corners: economiser inlet, bubble point, dew point and, with superheat, the hot end; with
-    exact, n segments in each single-phase zone (economiser, superheater).
+    exact, n segments in each single-phase zone (economiser, superheater). zones=False leaves
+    out the zones (a caller that never searches between points saves their making).
     """
     h = [st_in.h]
     T = [st_in.T_K]
@@ -185,13 +186,15 @@ def heating_path(fluid, sat_e: SatPoint, st_in: State, st3: State, n: int, exact
         h.append(st3.h)
         T.append(st3.T_K)
         labels.append("hot end")
+    if not zones:
+        return FluidPath(np.array(h), np.array(T), tuple(labels))
     p = sat_e.p_Pa
     ib, id_ = labels.index("bubble point"), labels.index("dew point")
-    zones = (
+    found = (
         Zone(0, ib, "economiser", lambda T_K: fluid.h_pT(p, T_K, "liquid")),
         Zone(id_, len(labels) - 1, "superheater", lambda T_K: fluid.h_pT(p, T_K, "gas")),
     )
-    return FluidPath(np.array(h), np.array(T), tuple(labels), zones)
+    return FluidPath(np.array(h), np.array(T), tuple(labels), found)
 
 
 def supercritical_heating_path(fluid, p_Pa: float, st_in: State, st3: State, n: int, rounds: int = 4) -> FluidPath:

@@ -1121,6 +1121,11 @@ class _Sink(_CurveStream):
         """Sink outlet temperature [K] = T_in_K + rise_K."""
         return self.T_in_K + self.rise_K
 
+    @functools.cached_property
+    def h_out_J_kg(self) -> float:
+        """Specific enthalpy [J/kg] at the outlet temperature (computed once per sink)."""
+        return self.h_J_kg(self.T_out_K)
+
     def mass_flow_kg_s(self, Q_W):
         """Sink mass flow [kg/s] that takes the heat duty Q_W [W] with the fixed temperature rise."""
         return Q_W / (self.h_J_kg(self.T_out_K) - self.h_in_J_kg)

@@ -301,7 +301,7 @@ def pump(fluid, st_in: State, p_out_Pa: float, efficiency: float) -> State:
     return flash_ph(fluid, p_out_Pa, h2, "liquid", st2s)
 
 
-@dataclass(frozen=True)
+@dataclass(slots=True)
 class Expansion:
     """One expansion: isentropic outlet st_out_s, actual outlet st_out, and the efficiency used."""
 

@@ -276,7 +276,7 @@ class Subcritical(Layout):
         Q_out = m_wf * cs.q_rejected()
         W_aux = s.aux_power_per_W_rejected * Q_out
         W_net = s.generator_efficiency * W_t - W_p / s.motor_efficiency - W_aux
-        dh_sink = float(sink.h_J_kg(sink.T_out_K) - sink.h_in_J_kg) if sink is not None else math.nan
+        dh_sink = float(sink.h_out_J_kg - sink.h_in_J_kg) if sink is not None else math.nan
         st_t, st_ts, share = cs.turbine_figures(st3)
         V4s = m_wf * share * st_ts.v if share != 1.0 else m_wf * st_ts.v
         if W_net <= 0.0:
@@ -327,7 +327,8 @@ class Subcritical(Layout):
         """(heating path from the heater inlet, outlet enthalpy [J/kg], fast interior-pinch test)."""
         fluid, source, s = ctx.fluid, ctx.source, ctx.settings
         st_in = cs.heater_inlet
-        path = heating_path(fluid, sat_e, st_in, st3, n, exact)
+        # the closed-form model tests the zones with its own slope test: no zones needed there
+        path = heating_path(fluid, sat_e, st_in, st3, n, exact, zones=exact or source is None)
         if source is None:
             return path, st3.h, None
         hs_in = float(source.h_in_J_kg)
@@ -361,7 +362,7 @@ class Subcritical(Layout):
         W_aux = s.aux_power_per_W_rejected * Q_out
         m_sink = math.nan
         if sink is not None:
-            m_sink = Q_out / float(sink.h_J_kg(sink.T_out_K) - sink.h_in_J_kg)
+            m_sink = Q_out / float(sink.h_out_J_kg - sink.h_in_J_kg)
         path, h_out, _ = self.heater_path(ctx, sat_e, cs, st3, s.n_zone_segments, False)
         st_t, st_ts, share = cs.turbine_figures(st3)
         return CycleResult(

@@ -268,7 +268,7 @@ class Transcritical(Layout):
         W_aux = s.aux_power_per_W_rejected * Q_out
         m_sink = math.nan
         if sink is not None:
-            m_sink = Q_out / float(sink.h_J_kg(sink.T_out_K) - sink.h_in_J_kg)
+            m_sink = Q_out / float(sink.h_out_J_kg - sink.h_in_J_kg)
         states = ({"1": st1, "2": st2, "2r": st2r, "3": st3, "4": st4, "4r": st4r} if self.recuperator
                   else {"1": st1, "2": st2, "3": st3, "4": st4})
         return CycleResult(
