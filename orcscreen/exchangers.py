@@ -131,13 +131,20 @@ def max_flow_for_pinch(
     with h_j >= h_out (the hot end) carry no bound on the flow; a point with a source too cold
     gives a bound <= 0.
     """
+    bounds = flow_bounds(h_wf_J_kg, h_wf_out_J_kg, h_source_in_J_kg, h_source_at_J_kg, m_source_kg_s)
+    j = int(bounds.argmin())
+    return float(bounds[j]), j
+
+
+def flow_bounds(h_wf_J_kg, h_wf_out_J_kg: float, h_source_in_J_kg: float, h_source_at_J_kg, m_source_kg_s: float) -> np.ndarray:
+    """The flow bound [kg/s] of every point of a heating path (see :func:`max_flow_for_pinch`;
+    inf at points with no heat left to take)."""
     h = np.asarray(h_wf_J_kg, dtype=float)
     dh = h_wf_out_J_kg - h
     usable = dh > 1e-9 * max(abs(h_wf_out_J_kg), 1.0)
     bounds = np.full(h.shape, np.inf)
     bounds[usable] = m_source_kg_s * (h_source_in_J_kg - np.asarray(h_source_at_J_kg)[usable]) / dh[usable]
-    j = int(bounds.argmin())
-    return float(bounds[j]), j
+    return bounds
 
 
 def _C(T_K: float) -> str:
@@ -173,7 +180,8 @@ def _minimize_scalar():
 
 
 def heater_flow(path: FluidPath, h_out: float, source, pinch_K: float, exact: bool,
-                fast_interior: Callable[[], tuple[float, str]] | None = None, xatol_fast_K: float = 1e-3):
+                fast_interior: Callable[[], tuple[float, str]] | None = None, xatol_fast_K: float = 1e-3,
+                fast_parabola: bool = False):
     """Largest working-fluid flow [kg/s] through a heater, where it binds, and the path checked.
 
     path: the working fluid's heating path, inlet first; h_out [J/kg]: its outlet enthalpy. The
@@ -181,14 +189,27 @@ def heater_flow(path: FluidPath, h_out: float, source, pinch_K: float, exact: bo
     has one, its outlet at or above its limit. Between two points of a zone the pinch is
     searched (:func:`refine_zone_pinch`) around the discrete minimum: to 1e-5 K when exact (and
     the pinch point is added to the returned path), else by fast_interior() when the layout
-    gives one (a cheaper test; returns (bound, zone name)) or to xatol_fast_K.
+    gives one (a cheaper test; returns (bound, zone name)), else, with fast_parabola, at the
+    vertex of the bound's parabola through the discrete minimum and its neighbours (for a path
+    whose points follow the curve closely), else to xatol_fast_K (the closed-form models of the
+    search; the discretised model decides what is reported).
     Returns (flow, pinch location, path); raises :class:`CycleInfeasible` when no flow is possible.
     """
     hs_in = float(source.h_in_J_kg)
     hs_at = source.h_J_kg(path.T_K + pinch_K)
-    m_wf, j = max_flow_for_pinch(path.h, path.T_K, h_out, hs_in, hs_at, source.m_kg_s)
+    bounds = flow_bounds(path.h, h_out, hs_in, hs_at, source.m_kg_s)
+    j = int(bounds.argmin())
+    m_wf = float(bounds[j])
     location = path.labels[j]
-    if exact or fast_interior is None:
+    if not exact and fast_interior is None and fast_parabola:
+        # closed-form model without a test of its own: the bound's parabola through the discrete
+        # minimum and its neighbours, checked at its vertex (one more point)
+        zone = path.zone_at(j)
+        if zone is not None:
+            m_int = _parabolic_pinch(zone, path.T_K, bounds, j, source, pinch_K, h_out, hs_in)
+            if m_int < m_wf:
+                m_wf, location = m_int, zone.name
+    elif exact or fast_interior is None:
         # the pinch may lie between two points of a single-phase zone: search between the
         # neighbours of the discrete minimum, inside its zone
         zone = path.zone_at(j)
@@ -210,6 +231,24 @@ def heater_flow(path: FluidPath, h_out: float, source, pinch_K: float, exact: bo
         if m_lim < m_wf:
             m_wf, location = m_lim, "source outlet limit"
     return m_wf, location, path
+
+
+def _parabolic_pinch(zone, T, bounds, j, source, pinch_K, h_out, hs_in) -> float:
+    """The flow bound at the vertex of the parabola through three points of the zone around the
+    discrete minimum j (inf when the vertex falls outside them or no parabola opens upwards)."""
+    i = min(max(j - 1, zone.first), zone.last - 2)
+    if i < zone.first or i + 2 > zone.last:
+        return math.inf
+    (x0, x1, x2), (y0, y1, y2) = (float(T[i]), float(T[i + 1]), float(T[i + 2])), (bounds[i], bounds[i + 1], bounds[i + 2])
+    if not (math.isfinite(y0) and math.isfinite(y1) and math.isfinite(y2)) or not x0 < x1 < x2:
+        return math.inf
+    d = (x1 - x0) * (y1 - y2) - (x1 - x2) * (y1 - y0)
+    if d == 0.0:
+        return math.inf
+    x = x1 - 0.5 * ((x1 - x0) ** 2 * (y1 - y2) - (x1 - x2) ** 2 * (y1 - y0)) / d
+    if not x0 < x < x2:
+        return math.inf
+    return source.m_kg_s * (hs_in - float(source.h_J_kg(x + pinch_K))) / (h_out - zone.h_of_T(x))
 
 
 def heater_profile(path: FluidPath, m_wf: float, h_out: float, source) -> Profile:

@@ -273,12 +273,16 @@ def _optimise_nested(layout: Layout, ctx: CycleContext, variables: tuple[Variabl
         if len(inner_vars) > 1:
             return inner(v)
         iv = inner_vars[0]
-        known = sorted((abs(k - v), res[0].variables[iv.name]) for k, res in memo.items() if res[0] is not None)
+        known = sorted((abs(k - v), res[0].variables[iv.name], k) for k, res in memo.items() if res[0] is not None)
         if not known:
             return inner(v)
         point = {**fixed, outer.name: v}
         wi = layout.window(ctx, iv.name, point)
         x0 = known[0][1]
+        if iv.near_predict and len(known) >= 2 and known[0][2] != known[1][2]:
+            # follow the ridge: the inner optimum extrapolated along the two nearest outer values
+            (_, xa, va), (_, xb, vb) = known[0], known[1]
+            x0 = min(max(xa + (xb - xa) * (v - va) / (vb - va), wi.lo), wi.hi)
         a, b = max(wi.lo, x0 - iv.near_half_width), min(wi.hi, x0 + iv.near_half_width)
         obj = _Objective(layout, ctx, iv, point, exact=False)
         if b - a < iv.near_min_width or not a < x0 < b:
@@ -295,20 +299,21 @@ def _optimise_nested(layout: Layout, ctx: CycleContext, variables: tuple[Variabl
                 a, edge_a = _feasible_edge(obj, x0, a)[0], True
             if not obj(b).ok:
                 b, edge_b = _feasible_edge(obj, x0, b)[0], True
-        x = _refine(obj.power, a, b, iv.xatol)
+        tol = iv.near_xatol or iv.xatol
+        x = _refine(obj.power, a, b, tol)
         for _ in range(2):
             # an optimum at a bracket end that is no edge: walk the bracket that way, twice at most
-            if b - x < 10 * iv.xatol and not edge_b and b < wi.hi:
+            if b - x < 10 * tol and not edge_b and b < wi.hi:
                 a, b = x - 0.5 * iv.near_half_width, min(wi.hi, x + iv.near_half_width)
-            elif x - a < 10 * iv.xatol and not edge_a and a > wi.lo:
+            elif x - a < 10 * tol and not edge_a and a > wi.lo:
                 a, b = max(wi.lo, x - iv.near_half_width), x + 0.5 * iv.near_half_width
             else:
                 break
             if not (obj(a).ok and obj(b).ok):
                 break
-            x = _refine(obj.power, a, b, iv.xatol)
+            x = _refine(obj.power, a, b, tol)
         total += obj.n
-        if (x - a < 10 * iv.xatol and not edge_a and a > wi.lo) or (b - x < 10 * iv.xatol and not edge_b and b < wi.hi):
+        if (x - a < 10 * tol and not edge_a and a > wi.lo) or (b - x < 10 * tol and not edge_b and b < wi.hi):
             return inner(v)
         memo[v] = (obj(x), "none (interior optimum)", obj.n, ([], [], []))
         return memo[v]

@@ -115,6 +115,9 @@ class Variable:
     scan_points: points of the bracketing scan; xatol: tolerance of the refinement [SI];
     near_half_width: half width [SI] of the warm-started bracket when an outer variable moves;
     near_min_width: a warm-started bracket narrower than this [SI] uses the full search instead;
+    near_xatol: tolerance of a warm-started search inside an outer search (None: xatol); the
+    optimum's own search always uses xatol; near_predict: centre that bracket on the optimum
+    extrapolated along the two nearest outer values (a ridge) rather than on the nearest one;
     scan_from_top: as an outer variable, scan from the top of its window down, each point's inner
     optimum warm-started from the point above (one full inner search instead of one per point).
     """
@@ -128,6 +131,8 @@ class Variable:
     xatol: float = 2e-3
     near_half_width: float = 3.0
     near_min_width: float = 1.0
+    near_xatol: float | None = None
+    near_predict: bool = False
     scan_from_top: bool = False
 
     def display(self, value: float) -> float:

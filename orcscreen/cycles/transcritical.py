@@ -69,7 +69,8 @@ HEATER_REDUCED_PRESSURE = Variable("heater_reduced_pressure", "heater reduced pr
                                    scan_from_top=True)
 #: The turbine inlet temperature as a free variable (inner: scan of 10, to 2e-3 K).
 TURBINE_INLET_TEMPERATURE = Variable("turbine_inlet_temperature_K", "turbine inlet temperature", "°C", offset=-273.15,
-                                     scan_points=10, xatol=2e-3, near_half_width=3.0, near_min_width=1.0)
+                                     scan_points=10, xatol=2e-3, near_half_width=3.0, near_min_width=1.0,
+                                     near_xatol=0.02, near_predict=True)
 #: Lowest heater pressure searched, over the critical pressure: just above it, where the
 #: equation of state is still well behaved (common practice: screens start at about 1.01).
 LOWEST_REDUCED_PRESSURE = 1.01
@@ -241,7 +242,7 @@ class Transcritical(Layout):
         if m_wf_fixed is not None:
             return self._result(ctx, cs, st3, m_wf_fixed, "", math.nan, {}, known)
         path = supercritical_heating_path(fluid, p_h, st2r, st3, s.n_zone_segments if exact else N_FAST_SEGMENTS)
-        m_wf, location, path = heater_flow(path, st3.h, source, s.pinch_evaporator_K, exact)
+        m_wf, location, path = heater_flow(path, st3.h, source, s.pinch_evaporator_K, exact, fast_parabola=True)
         if not m_wf > 0.0:
             raise CycleInfeasible("heater pinch", f"the source is too cold for a heater at {p_h / 1e5:.2f} bar with a {s.pinch_evaporator_K:g} K pinch")
         hs_out = float(source.h_in_J_kg) - m_wf * (st3.h - st2r.h) / source.m_kg_s
