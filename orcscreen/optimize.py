@@ -226,6 +226,18 @@ def _optimise_innermost(layout: Layout, ctx: CycleContext, var: Variable, fixed:
         return None, _no_feasible_reason(var, info, w), fast.n, scan
     if not polish:
         return fast(x_opt), info, fast.n, scan
+    r, limit, n = _polish(layout, ctx, var, fixed, fast, x_opt, info, w)
+    if r is None:
+        return None, limit, fast.n + n, scan
+    return r, limit, fast.n + n, scan
+
+
+def _polish(layout: Layout, ctx: CycleContext, var: Variable, fixed: Mapping[str, float], fast: _Objective, x_opt: float,
+            info: str, w: Window):
+    """The closed-form optimum x_opt evaluated on the discretised profiles: (result or None,
+    binding limit or reason, evaluations). Where the two models differ by more than
+    EXACT_REFINE_RTOL, the optimum is searched again on the discretised model, one scan step
+    either side."""
     exact = _Objective(layout, ctx, var, fixed, exact=True)
     exact.T_cond_guess = fast(x_opt).T_cond_K
     r = exact(x_opt)
@@ -234,7 +246,7 @@ def _optimise_innermost(layout: Layout, ctx: CycleContext, var: Variable, fixed:
     if not r.ok or abs(r.W_net_W - fr.W_net_W) > EXACT_REFINE_RTOL * abs(fr.W_net_W):
         # the discretised profiles bind somewhere the closed-form candidates do not see:
         # refine again on the discretised model around the fast optimum
-        step = (w.hi - w.lo) / (n_scan - 1)
+        step = (w.hi - w.lo) / (var.scan_points - 1)
         a, b = max(w.lo, x_opt - step), min(w.hi, x_opt + step)
         x2 = _refine(exact.power, a, b, var.xatol)
         if exact.power(x2) > -math.inf:
@@ -242,8 +254,8 @@ def _optimise_innermost(layout: Layout, ctx: CycleContext, var: Variable, fixed:
             where = "heater" if layout.supercritical else "evaporator"
             limit = info if abs(x2 - x_opt) < 10 * var.xatol else f"{where} pinch (discretised)"
     if not r.ok:
-        return None, r.reason, fast.n + exact.n, scan
-    return r, limit, fast.n + exact.n + 1, scan
+        return None, r.reason, exact.n
+    return r, limit, exact.n + 1
 
 
 def _optimise_nested(layout: Layout, ctx: CycleContext, variables: tuple[Variable, ...], fixed: Mapping[str, float],
@@ -289,6 +301,7 @@ def _optimise_nested(layout: Layout, ctx: CycleContext, variables: tuple[Variabl
             total += obj.n
             return inner(v)
         edge_a = edge_b = False
+        name_a = name_b = ""
         if not obj(a).ok or not obj(b).ok:
             # an edge of the feasible region inside the bracket: from the nearest optimum,
             # which is feasible here too or the full search decides, to each infeasible end
@@ -296,9 +309,9 @@ def _optimise_nested(layout: Layout, ctx: CycleContext, variables: tuple[Variabl
                 total += obj.n
                 return inner(v)
             if not obj(a).ok:
-                a, edge_a = _feasible_edge(obj, x0, a)[0], True
+                (a, name_a), edge_a = _feasible_edge(obj, x0, a), True
             if not obj(b).ok:
-                b, edge_b = _feasible_edge(obj, x0, b)[0], True
+                (b, name_b), edge_b = _feasible_edge(obj, x0, b), True
         tol = iv.near_xatol or iv.xatol
         x = _refine(obj.power, a, b, tol)
         for _ in range(2):
@@ -315,7 +328,17 @@ def _optimise_nested(layout: Layout, ctx: CycleContext, variables: tuple[Variabl
         total += obj.n
         if (x - a < 10 * tol and not edge_a and a > wi.lo) or (b - x < 10 * tol and not edge_b and b < wi.hi):
             return inner(v)
-        memo[v] = (obj(x), "none (interior optimum)", obj.n, ([], [], []))
+        if edge_b and b - x < 10 * tol:
+            limit = name_b
+        elif edge_a and x - a < 10 * tol:
+            limit = name_a
+        elif x >= wi.hi - 10 * tol:
+            limit = wi.hi_name
+        elif x <= wi.lo + 10 * tol:
+            limit = wi.lo_name
+        else:
+            limit = "none (interior optimum)"
+        memo[v] = (obj(x), limit, obj.n, ([], [], []))
         return memo[v]
 
     def power(v: float, near: bool = False) -> float:
@@ -328,8 +351,14 @@ def _optimise_nested(layout: Layout, ctx: CycleContext, variables: tuple[Variabl
         grid = np.linspace(w.lo, w.hi, outer.scan_points)
     if outer.scan_from_top:
         # the full inner search at the top of the grid, then each lower point warm-started
-        # from its neighbour (a full search wherever that cannot be trusted, see inner_near)
-        W = [power(float(g), near=True) for g in grid[::-1]][::-1]
+        # from its neighbour (a full search wherever that cannot be trusted, see inner_near),
+        # down to where the objective has fallen twice in a row past its best (one peak)
+        W = [-math.inf] * len(grid)
+        for k in range(len(grid) - 1, -1, -1):
+            W[k] = power(float(grid[k]), near=True)
+            best_k = max(range(k, len(grid)), key=lambda m: W[m])
+            if k <= best_k - 2 and W[k] < W[k + 1] < W[best_k]:
+                break
     else:
         W = [power(float(g)) for g in grid]
     if not np.any(np.isfinite(W)):
@@ -346,9 +375,23 @@ def _optimise_nested(layout: Layout, ctx: CycleContext, variables: tuple[Variabl
     if not polish:
         r, limit, _, scan = inner_near(best)
         return r, limit, total, scan
-    # polish at the best outer value with the full inner search
-    r, limit, n, scan = _optimise_nested(layout, ctx, inner_vars, {**fixed, outer.name: best}, polish=True)
-    total += n
+    point = {**fixed, outer.name: best}
+    if outer.scan_from_top and len(inner_vars) == 1 and memo.get(best, (None,))[0] is not None:
+        # polish the warm-started inner optimum at the best outer value on the discretised
+        # model; the chart's scan of the inner variable there is the coarse scan alone
+        iv = inner_vars[0]
+        x_in = memo[best][0].variables[iv.name]
+        fast = _Objective(layout, ctx, iv, point, exact=False)
+        wi = layout.window(ctx, iv.name, point)
+        grid_in = np.linspace(wi.lo, wi.hi, iv.scan_points)
+        results = [fast(float(x)) for x in grid_in]
+        scan = (list(grid_in), [r.W_net_W if r.ok else -np.inf for r in results], [r.limit for r in results])
+        r, limit, n = _polish(layout, ctx, iv, point, fast, x_in, memo[best][1], wi)
+        total += fast.n + n
+    else:
+        # polish at the best outer value with the full inner search
+        r, limit, n, scan = _optimise_nested(layout, ctx, inner_vars, point, polish=True)
+        total += n
     if r is None:
         return None, limit, total, scan
     return r, _with_bound(limit, outer, w, best), total, scan
