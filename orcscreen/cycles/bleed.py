@@ -27,7 +27,7 @@ from dataclasses import dataclass
 from ..exchangers import Profile, open_heater_bleed_fraction
 from ..states import CycleInfeasible, SatPoint, State
 from .base import CycleContext, Variable, Window, condenser_outlet, expand, isobar_ts, pump
-from .subcritical import EVAPORATION_TEMPERATURE, SUPERHEAT, Subcritical
+from .subcritical import EVAPORATION_TEMPERATURE_NESTED, SUPERHEAT, Subcritical
 
 __all__ = ["BleedRegenerative", "BLEED_REGENERATIVE", "BLEED_PLACE", "BLEED_PRESSURE_KEY"]
 
@@ -115,8 +115,8 @@ class BleedRegenerative(Subcritical):
 
     def variables(self, ctx: CycleContext) -> tuple[Variable, ...]:
         if ctx.settings.superheat_K is None:
-            return (EVAPORATION_TEMPERATURE, BLEED_PLACE, SUPERHEAT)
-        return (EVAPORATION_TEMPERATURE, BLEED_PLACE)
+            return (EVAPORATION_TEMPERATURE_NESTED, BLEED_PLACE, SUPERHEAT)
+        return (EVAPORATION_TEMPERATURE_NESTED, BLEED_PLACE)
 
     hand_inputs = Subcritical.hand_inputs + (BLEED_PRESSURE_KEY,)
 

@@ -28,7 +28,7 @@ from ..exchangers import Profile
 from ..paths import composite_path, heating_path, reheating_path
 from ..states import CycleInfeasible, SatPoint, State
 from .base import C, CycleContext, Variable, Window, condenser_outlet, expand, isobar_ts, pump
-from .subcritical import EVAPORATION_TEMPERATURE, SUPERHEAT, Subcritical
+from .subcritical import EVAPORATION_TEMPERATURE_NESTED, SUPERHEAT, Subcritical
 
 __all__ = ["Reheat", "REHEAT", "REHEAT_PLACE", "REHEAT_PRESSURE_KEY"]
 
@@ -114,8 +114,8 @@ class Reheat(Subcritical):
 
     def variables(self, ctx: CycleContext) -> tuple[Variable, ...]:
         if ctx.settings.superheat_K is None:
-            return (EVAPORATION_TEMPERATURE, REHEAT_PLACE, SUPERHEAT)
-        return (EVAPORATION_TEMPERATURE, REHEAT_PLACE)
+            return (EVAPORATION_TEMPERATURE_NESTED, REHEAT_PLACE, SUPERHEAT)
+        return (EVAPORATION_TEMPERATURE_NESTED, REHEAT_PLACE)
 
     hand_inputs = Subcritical.hand_inputs + (REHEAT_PRESSURE_KEY, REHEAT_TEMPERATURE_KEY)
 

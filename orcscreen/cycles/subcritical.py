@@ -26,6 +26,7 @@ Sust. Energy Rev. 22 (2013) 168-186, doi:10.1016/j.rser.2013.01.028).
 
 from __future__ import annotations
 
+import dataclasses
 import math
 from collections.abc import Mapping
 from dataclasses import dataclass
@@ -61,11 +62,16 @@ from .base import (
     unused_inputs,
 )
 
-__all__ = ["Subcritical", "BASIC", "RECUPERATED", "EVAPORATION_TEMPERATURE", "SUPERHEAT", "evaporation_window"]
+__all__ = ["Subcritical", "BASIC", "RECUPERATED", "EVAPORATION_TEMPERATURE", "EVAPORATION_TEMPERATURE_NESTED", "SUPERHEAT",
+           "evaporation_window"]
 
 #: The evaporation temperature as a free variable (scan of 10, refined to 2e-3 K).
 EVAPORATION_TEMPERATURE = Variable("evaporation_temperature_K", "evaporation temperature", "°C", offset=-273.15,
                                    scan_points=10, xatol=2e-3, near_half_width=3.0, near_min_width=1.0)
+#: The evaporation temperature inside the search of a layout's own outer variable (bleed or reheat
+#: pressure): warm starts follow the ridge of optima and stop at 0.02 K (the optimum's own search
+#: keeps 2e-3 K).
+EVAPORATION_TEMPERATURE_NESTED = dataclasses.replace(EVAPORATION_TEMPERATURE, near_xatol=0.02, near_predict=True)
 #: The turbine-inlet superheat as a free variable (scan of 6, refined to 0.1 K).
 SUPERHEAT = Variable("superheat_K", "superheat", "K", scan_points=6, xatol=0.1)
 
