@@ -106,12 +106,14 @@ def _cmd_check(args: argparse.Namespace) -> int:
     factors = [str(n) for n in sizes.values()] + [str(len(fluids)), str(len(study.layouts))]
     print(f"  cases: {' x '.join(factors)} = {study.n_cases:,}")
     cores = args.jobs or _cores()
-    per_case = SECONDS_PER_CASE_PER_CORE
+    from orcscreen.cycles import LAYOUTS
+
+    per_case = SECONDS_PER_CASE_PER_CORE * sum(LAYOUTS[n].cost_factor for n in study.layouts) / len(study.layouts)
     if study.cycle.superheat_K == "optimise":
         per_case *= SUPERHEAT_SEARCH_FACTOR
     seconds = START_UP_S + study.n_cases * per_case / cores
     print(f"  time: about {_duration(seconds)} on {cores} core{'s' if cores != 1 else ''} "
-          f"(a rough estimate at {per_case * 1000:g} ms per case per core plus {START_UP_S:g} s start-up; "
+          f"(a rough estimate at {per_case * 1000:.3g} ms per case per core, the layouts' measured costs, plus {START_UP_S:g} s start-up; "
           f"real cases vary with fluid and layout)")
     print("nothing was run or written.")
     return EXIT_OK

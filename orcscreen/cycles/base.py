@@ -227,6 +227,9 @@ class Layout:
     columns: tuple[str, ...] = ()
     #: a supercritical heater (no evaporation plateau)
     supercritical: bool = False
+    #: cost of one optimisation relative to the basic layout's, as measured (benchmarks/
+    #: bench_layouts.py, 2026-12-02): for the time estimate of `orcscreen check`
+    cost_factor: float = 1.0
 
     def variables(self, ctx: CycleContext) -> tuple[Variable, ...]:
         """The free variables for this case, innermost (searched most often) first."""

@@ -97,6 +97,7 @@ class BleedRegenerative(Subcritical):
     """Subcritical layout with one open feed-liquid heater fed by turbine bleed (module docstring)."""
 
     columns = ("bleed_pressure_bar", "bleed_fraction")
+    cost_factor = 8.0
 
     def __init__(self):
         super().__init__("bleed-regenerative", "basic layout plus turbine bleed into an open feed-liquid heater and a second pump",

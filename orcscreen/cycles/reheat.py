@@ -97,6 +97,7 @@ class Reheat(Subcritical):
     """Subcritical layout with one reheat between two turbines (module docstring)."""
 
     columns = ("reheat_pressure_bar", "reheat_temperature_C")
+    cost_factor = 15.0
 
     def __init__(self):
         super().__init__("reheat", "basic layout with the expansion split by a reheater heated by the source",

@@ -121,6 +121,7 @@ class Transcritical(Layout):
     """Transcritical layout, with or without a recuperator (module docstring)."""
 
     supercritical = True
+    cost_factor = 5.0
     limits = ("max pressure", "max supercritical reduced pressure", "thermal stability", "turbine outlet quality",
               "min condensing pressure", "condensation below the critical temperature", "heater pinch",
               "condenser pinch", "source outlet limit")
