@@ -13,7 +13,6 @@ is SI inside the engine.
 
 from __future__ import annotations
 
-import math
 import time
 from collections.abc import Mapping
 from pathlib import Path

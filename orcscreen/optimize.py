@@ -166,13 +166,18 @@ def _refine(power, a: float, b: float, xatol: float) -> float:
     return max([a, b, float(res.x)], key=power)
 
 
+def _scan(obj: _Objective, grid) -> tuple[list[CycleResult], tuple[list, list, list]]:
+    """Results at the grid points, and the scan for the chart: (x values, net power [W] or -inf, limits)."""
+    results = [obj(float(x)) for x in grid]
+    return results, (list(grid), [r.W_net_W if r.ok else -np.inf for r in results], [r.limit for r in results])
+
+
 def _scan_and_refine(obj: _Objective, w: Window, n_scan: int):
     """Scan, bracket, refine one variable. Returns (x_opt, binding limit, scan) or (None, results, scan)."""
     xatol = obj.var.xatol
     grid = np.linspace(w.lo, w.hi, n_scan)
-    results = [obj(float(x)) for x in grid]
-    W = np.array([r.W_net_W if r.ok else -np.inf for r in results])
-    scan = (list(grid), list(W), [r.limit for r in results])
+    results, scan = _scan(obj, grid)
+    W = np.array(scan[1])
     if not np.any(np.isfinite(W)):
         return None, results, scan
     i = int(np.argmax(W))
@@ -383,9 +388,7 @@ def _optimise_nested(layout: Layout, ctx: CycleContext, variables: tuple[Variabl
         x_in = memo[best][0].variables[iv.name]
         fast = _Objective(layout, ctx, iv, point, exact=False)
         wi = layout.window(ctx, iv.name, point)
-        grid_in = np.linspace(wi.lo, wi.hi, iv.scan_points)
-        results = [fast(float(x)) for x in grid_in]
-        scan = (list(grid_in), [r.W_net_W if r.ok else -np.inf for r in results], [r.limit for r in results])
+        _, scan = _scan(fast, np.linspace(wi.lo, wi.hi, iv.scan_points))
         r, limit, n = _polish(layout, ctx, iv, point, fast, x_in, memo[best][1], wi)
         total += fast.n + n
     else:

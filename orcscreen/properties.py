@@ -33,7 +33,6 @@ import json
 import math
 import os
 import sys
-from dataclasses import dataclass
 
 _NO_EAGER_SUPERANC_ENV = "COOLPROP_DISABLE_SUPERANCILLARIES_ENTIRELY"
 

@@ -19,7 +19,7 @@ from pathlib import Path
 
 import pytest
 
-from orcscreen import fluids, streams
+from orcscreen import fluids
 from orcscreen.api import case_context
 from orcscreen.cycles import LAYOUTS
 from orcscreen.study import study_from_dict

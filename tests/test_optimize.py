@@ -12,7 +12,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from orcscreen import fluids, streams
+from orcscreen import fluids
 from orcscreen.api import case_context, run_case
 from orcscreen.cycles import LAYOUTS
 from orcscreen.cycles.subcritical import evaporation_window

@@ -176,6 +176,10 @@ def test_wheel_carries_the_catalogue_and_no_top_level_fluids_package(built_wheel
         assert zipfile.ZipFile(built_wheel).read(f"orcscreen/catalogue/{name}") == (REPO / "fluids" / name).read_bytes()
     top_level = {n.split("/")[0] for n in names if not n.split("/")[0].endswith(".dist-info")}
     assert top_level == {"orcscreen"}  # no "fluids": a PyPI library has that name
+    # every module of the source tree is in the wheel (a subpackage left out of pyproject's
+    # package list would be missing, as orcscreen/cycles once was)
+    modules = {str(p.relative_to(REPO)).replace("\\", "/") for p in (REPO / "orcscreen").rglob("*.py")}
+    assert modules <= set(names), sorted(modules - set(names))
     entry_points = zipfile.ZipFile(built_wheel).read(
         next(n for n in names if n.endswith(".dist-info/entry_points.txt"))).decode()
     assert "orcscreen = orcscreen.cli:main" in entry_points
@@ -194,10 +198,12 @@ def test_installed_wheel_lists_fluids_and_runs_a_study_outside_the_checkout(buil
     (run_dir / "tiny.toml").write_text(tiny, encoding="utf-8")
     env = {**os.environ, "PYTHONPATH": str(site)}  # the wheel's files only, not the checkout
 
-    where = subprocess.run([sys.executable, "-c", "import orcscreen.fluids as f; print(f.__file__); "
-                            "print(f.DEFAULT_CATALOGUE)"], cwd=run_dir, env=env, capture_output=True,
-                           text=True, check=True).stdout.split()
-    assert [Path(p).resolve().is_relative_to(site.resolve()) for p in where] == [True, True], where
+    where = subprocess.run([sys.executable, "-c", "import orcscreen.fluids as f, orcscreen.cycles as c; "
+                            "print(f.__file__); print(f.DEFAULT_CATALOGUE); print(c.__file__)"],
+                           cwd=run_dir, env=env, capture_output=True, text=True, check=True).stdout.split()
+    # (the checkout's editable install would serve a subpackage missing from the wheel: every
+    # file must come from the wheel's copy)
+    assert [Path(p).resolve().is_relative_to(site.resolve()) for p in where] == [True, True, True], where
 
     fluids_cmd = subprocess.run([sys.executable, "-m", "orcscreen", "fluids", "--format", "csv"],
                                 cwd=run_dir, env=env, capture_output=True, text=True, timeout=300)

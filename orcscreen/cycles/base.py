@@ -26,13 +26,18 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from ..exchangers import Profile, condenser_approach, heater_profile
 from ..paths import flash_ph, state_from_ph, two_phase_state
 from ..states import CycleInfeasible, SatPoint, State
-from ..turbine import ConstantEfficiency, TurbineModel
+from ..turbine import ConstantEfficiency, TurbineModel, size_parameter_m, volume_ratio
 
 __all__ = [
     "CycleSettings",
     "CycleContext",
+    "ColdSide",
+    "STATE_LABELS",
+    "cycle_result",
+    "exchanger_profiles",
     "CycleResult",
     "CycleInfeasible",
     "Variable",
@@ -415,3 +420,134 @@ def saturation_dome(fluid, T_low_K: float, n: int = 60) -> tuple[list[float], li
         sL.append(sat.sL)
         sV.append(sat.sV)
     return T_ok, sL, sV
+
+
+# ---------------------------------------------------------------------------------------------
+# cold side and result of the layouts with one pump and one turbine
+# ---------------------------------------------------------------------------------------------
+@dataclass
+class ColdSide:
+    """Condenser outlet, pump, expansion and (optional) recuperator at one condensing temperature:
+    the cold side of the layouts with one pump and one turbine (basic, recuperated, transcritical).
+    A layout's cold side offers these accessors and per-kg figures to :func:`cycle_result`."""
+
+    T_cond_K: float
+    p_cond_Pa: float
+    sat: SatPoint
+    s1: State
+    s2: State
+    s4s: State
+    s4: State
+    eta_t: float
+    s2r: State
+    s4r: State
+    q_rec: float
+    recuperator_active: bool
+    rec_profile: Profile | None = None  # per unit mass flow (Q in J/kg), exact mode only
+    cond_check: tuple | None = None  # exact condenser approach, kept once computed
+
+    @property
+    def condenser_inlet(self) -> State:
+        return self.s4r
+
+    @property
+    def heater_inlet(self) -> State:
+        return self.s2r
+
+    @property
+    def turbine_outlet(self) -> State:
+        return self.s4
+
+    def w_turbine(self, st3: State) -> float:
+        """Turbine work per kg through the heater [J/kg]."""
+        return st3.h - self.s4.h
+
+    def w_pump(self) -> float:
+        """Pump work per kg through the heater [J/kg]."""
+        return self.s2.h - self.s1.h
+
+    def q_rejected(self) -> float:
+        """Heat rejected in the condenser per kg through the heater [J/kg]."""
+        return self.s4r.h - self.s1.h
+
+    #: flow through the condenser per kg through the heater [-]
+    condenser_share = 1.0
+
+    def turbine_figures(self, st3: State) -> tuple[State, State, float]:
+        """(inlet, isentropic outlet, outlet flow per kg through the heater) of the expansion
+        whose size parameter and volume ratio are reported."""
+        return st3, self.s4s, 1.0
+
+    def figures(self) -> dict:
+        """The layout's own output figures (column name -> value)."""
+        return {}
+
+
+#: Words for the states of the layouts with one pump and one turbine.
+STATE_LABELS = {
+    "1": "condenser outlet",
+    "2": "pump outlet",
+    "2r": "recuperator cold-side outlet",
+    "3": "turbine inlet",
+    "4": "turbine outlet",
+    "4r": "recuperator hot-side outlet",
+}
+
+
+def cycle_result(ctx: CycleContext, layout: Layout, cs, st3: State, m_wf: float, q_in: float, states: dict, known: dict,
+                 location: str = "", T_source_out_K: float = math.nan, profiles: dict | None = None,
+                 **fields) -> CycleResult:
+    """The result of a cycle whose cold side cs (per-kg figures, see :class:`ColdSide`) and
+    working-fluid flow m_wf [kg/s] are known: powers, duties, sink flow, turbine figures.
+    q_in [J/kg]: heat taken per kg through the heater; fields: further CycleResult fields."""
+    s, sink = ctx.settings, ctx.sink
+    W_t = m_wf * cs.w_turbine(st3)
+    W_p = m_wf * cs.w_pump()
+    Q_out = m_wf * cs.q_rejected()
+    W_aux = s.aux_power_per_W_rejected * Q_out
+    W_net = s.generator_efficiency * W_t - W_p / s.motor_efficiency - W_aux
+    dh_sink = float(sink.h_out_J_kg - sink.h_in_J_kg) if sink is not None else math.nan
+    st_t, st_ts, share = cs.turbine_figures(st3)
+    V4s = m_wf * share * st_ts.v if share != 1.0 else m_wf * st_ts.v
+    return CycleResult(
+        status="ok",
+        limit=location,
+        layout=layout.name,
+        variables=known["variables"],
+        T_cond_K=cs.T_cond_K,
+        p_cond_Pa=cs.p_cond_Pa,
+        states=states,
+        m_wf_kg_s=m_wf,
+        m_sink_kg_s=Q_out / dh_sink,
+        W_turbine_W=W_t,
+        W_pump_W=W_p,
+        W_aux_W=W_aux,
+        W_net_W=W_net,
+        Q_in_W=m_wf * q_in,
+        Q_out_W=Q_out,
+        Q_rec_W=m_wf * cs.q_rec,
+        T_source_out_K=T_source_out_K,
+        pinch_location=location,
+        eta_turbine=cs.eta_t,
+        size_parameter_m=size_parameter_m(V4s, st_t.h - st_ts.h),
+        volume_ratio=volume_ratio(st_ts.v, st_t.v),
+        figures=cs.figures(),
+        profiles=profiles or {},
+        **fields,
+    )
+
+
+def exchanger_profiles(ctx: CycleContext, cs, heater_path, m_wf: float, h_out: float) -> dict:
+    """Discretised T-Q profiles of an evaluated cycle (exact mode): heater, condenser (when a
+    sink is given) and an active recuperator. heater_path: the checked heating path, inlet first."""
+    fluid, source, sink, n = ctx.fluid, ctx.source, ctx.sink, ctx.settings.n_zone_segments
+    out = {"evaporator": heater_profile(heater_path, m_wf, h_out, source)}
+    if sink is None:  # a condensing temperature given by hand: no sink to draw
+        return out
+    h, T, T_sink = condenser_approach(fluid, sink, cs, n, True)[2]
+    m_c = m_wf if cs.condenser_share == 1.0 else m_wf * cs.condenser_share
+    out["condenser"] = Profile(m_c * (h - h[0]), T, np.asarray(T_sink, dtype=float))
+    if cs.recuperator_active:
+        prof = cs.rec_profile
+        out["recuperator"] = Profile(m_wf * prof.Q_W, prof.T_hot_K, prof.T_cold_K)
+    return out

@@ -29,25 +29,15 @@ from __future__ import annotations
 import dataclasses
 import math
 from collections.abc import Mapping
-from dataclasses import dataclass
 
-import numpy as np
 
-from ..exchangers import (
-    COND_TOL_FAST_K,
-    Profile,
-    condenser_approach,
-    heater_flow,
-    heater_profile,
-    recuperate,
-    refine_zone_pinch,
-    solve_condensing_temperature,
-)
-from ..paths import FluidPath, heating_path
+from ..exchangers import COND_TOL_FAST_K, heater_flow, recuperate, refine_zone_pinch, solve_condensing_temperature
+from ..paths import heating_path
 from ..states import CycleInfeasible, SatPoint, State
-from ..turbine import size_parameter_m, volume_ratio
 from .base import (
+    STATE_LABELS,
     C,
+    ColdSide,
     CycleContext,
     CycleResult,
     Layout,
@@ -55,6 +45,8 @@ from .base import (
     Window,
     condenser_outlet,
     condensing_floor_K,
+    cycle_result,
+    exchanger_profiles,
     expand,
     infeasible,
     isobar_ts,
@@ -76,63 +68,7 @@ EVAPORATION_TEMPERATURE_NESTED = dataclasses.replace(EVAPORATION_TEMPERATURE, ne
 SUPERHEAT = Variable("superheat_K", "superheat", "K", scan_points=6, xatol=0.1)
 
 
-@dataclass
-class ColdSide:
-    """Condenser outlet, pump, expansion and recuperator at one condensing temperature."""
-
-    T_cond_K: float
-    p_cond_Pa: float
-    sat: SatPoint
-    s1: State
-    s2: State
-    s4s: State
-    s4: State
-    eta_t: float
-    s2r: State
-    s4r: State
-    q_rec: float
-    recuperator_active: bool
-    rec_profile: Profile | None = None  # per unit mass flow (Q in J/kg), exact mode only
-    cond_check: tuple | None = None  # exact condenser approach, kept once computed
-
-    @property
-    def condenser_inlet(self) -> State:
-        return self.s4r
-
-    @property
-    def heater_inlet(self) -> State:
-        return self.s2r
-
-    @property
-    def turbine_outlet(self) -> State:
-        return self.s4
-
-    def w_turbine(self, st3: State) -> float:
-        """Turbine work per kg through the heater [J/kg]."""
-        return st3.h - self.s4.h
-
-    def w_pump(self) -> float:
-        """Pump work per kg through the heater [J/kg]."""
-        return self.s2.h - self.s1.h
-
-    def q_rejected(self) -> float:
-        """Heat rejected in the condenser per kg through the heater [J/kg]."""
-        return self.s4r.h - self.s1.h
-
-    #: flow through the condenser per kg through the heater [-]
-    condenser_share = 1.0
-
-    def turbine_figures(self, st3: State) -> tuple[State, State, float]:
-        """(inlet, isentropic outlet, outlet flow per kg through the heater) of the expansion
-        whose size parameter and volume ratio are reported."""
-        return st3, self.s4s, 1.0
-
-    def figures(self) -> dict:
-        """The layout's own output figures (column name -> value)."""
-        return {}
-
-
-def evaporation_window(ctx: CycleContext, superheat_K: float, supercritical_ok: bool = False) -> Window:
+def evaporation_window(ctx: CycleContext, superheat_K: float) -> Window:
     """Range of evaporation temperatures [K] worth searching at one superheat, and its limits.
 
     Lower end: 1 K above the hottest condensing temperature the sink can need (sink outlet plus
@@ -164,7 +100,7 @@ class Subcritical(Layout):
         self.description = description
         self.recuperator = recuperator
         keys = ("1", "2", "2r", "3", "4", "4r") if recuperator else ("1", "2", "3", "4")
-        self.state_labels = {k: _LABELS[k] for k in keys}
+        self.state_labels = {k: STATE_LABELS[k] for k in keys}
         self.exchangers = ("evaporator", "condenser", "recuperator") if recuperator else ("evaporator", "condenser")
         if recuperator:
             self.limits = self.limits + ("recuperator pinch",)
@@ -266,55 +202,22 @@ class Subcritical(Layout):
         # evaporator: the largest flow that keeps the pinch and the source outlet limit
         n = s.n_zone_segments
         path, h_out, fast_interior = self.heater_path(ctx, sat_e, cs, st3, n, exact)
-        if m_wf_fixed is not None:
-            return self._fixed_flow_result(ctx, sat_e, cs, st3, m_wf_fixed, known)
+        if m_wf_fixed is not None:  # exploring by hand: the flow is given, no source
+            return cycle_result(ctx, self, cs, st3, m_wf_fixed, h_out - float(path.h[0]), self._state_table(cs, st3), known,
+                                T_evap_K=T_evap_K, p_evap_Pa=sat_e.p_Pa, superheat_K=superheat_K)
         hs_in = float(source.h_in_J_kg)
         m_wf, location, path = heater_flow(path, h_out, source, s.pinch_evaporator_K, exact, fast_interior=fast_interior)
         if not m_wf > 0.0:
             raise CycleInfeasible("evaporator pinch", f"the source is too cold for evaporation at {C(T_evap_K)} with a {s.pinch_evaporator_K:g} K pinch")
 
         q_in = h_out - float(path.h[0])
-        Q_in = m_wf * q_in
-        hs_out = hs_in - Q_in / source.m_kg_s
-        T_s_out = float(source.T_K(hs_out))
-        W_t = m_wf * cs.w_turbine(st3)
-        W_p = m_wf * cs.w_pump()
-        Q_out = m_wf * cs.q_rejected()
-        W_aux = s.aux_power_per_W_rejected * Q_out
-        W_net = s.generator_efficiency * W_t - W_p / s.motor_efficiency - W_aux
-        dh_sink = float(sink.h_out_J_kg - sink.h_in_J_kg) if sink is not None else math.nan
-        st_t, st_ts, share = cs.turbine_figures(st3)
-        V4s = m_wf * share * st_ts.v if share != 1.0 else m_wf * st_ts.v
-        if W_net <= 0.0:
-            return infeasible("net power", f"net power {W_net / 1e3:.3g} kW is not positive", W_net, **known)
-        return CycleResult(
-            status="ok",
-            limit=location,
-            layout=self.name,
-            variables=known["variables"],
-            T_evap_K=T_evap_K,
-            p_evap_Pa=sat_e.p_Pa,
-            superheat_K=superheat_K,
-            T_cond_K=cs.T_cond_K,
-            p_cond_Pa=cs.p_cond_Pa,
-            states=self._state_table(cs, st3),
-            m_wf_kg_s=m_wf,
-            m_sink_kg_s=Q_out / dh_sink,
-            W_turbine_W=W_t,
-            W_pump_W=W_p,
-            W_aux_W=W_aux,
-            W_net_W=W_net,
-            Q_in_W=Q_in,
-            Q_out_W=Q_out,
-            Q_rec_W=m_wf * cs.q_rec,
-            T_source_out_K=T_s_out,
-            pinch_location=location,
-            eta_turbine=cs.eta_t,
-            size_parameter_m=size_parameter_m(V4s, st_t.h - st_ts.h),
-            volume_ratio=volume_ratio(st_ts.v, st_t.v),
-            figures=cs.figures(),
-            profiles=self._profiles(fluid, source, sink, cs, path, m_wf, h_out, n) if exact else {},
-        )
+        T_s_out = float(source.T_K(hs_in - m_wf * q_in / source.m_kg_s))
+        r = cycle_result(ctx, self, cs, st3, m_wf, q_in, self._state_table(cs, st3), known, location, T_s_out,
+                         exchanger_profiles(ctx, cs, path, m_wf, h_out) if exact else None,
+                         T_evap_K=T_evap_K, p_evap_Pa=sat_e.p_Pa, superheat_K=superheat_K)
+        if r.W_net_W <= 0.0:
+            return infeasible("net power", f"net power {r.W_net_W / 1e3:.3g} kW is not positive", r.W_net_W, **known)
+        return r
 
     def _check_cold_side(self, ctx: CycleContext, sat_e: SatPoint, cs) -> None:
         """Limits on the cold side: the heater inlet stays liquid, the turbine outlet dry enough."""
@@ -340,61 +243,11 @@ class Subcritical(Layout):
         hs_in = float(source.h_in_J_kg)
         return path, st3.h, lambda: _fast_interior_pinch(fluid, source, s, sat_e, st_in, st3, hs_in)
 
-    def _profiles(self, fluid, source, sink, cs: ColdSide, path: FluidPath, m_wf, h_out, n) -> dict[str, Profile]:
-        """Discretised T-Q profiles of every exchanger of an evaluated cycle (exact mode)."""
-        out = {"evaporator": heater_profile(path, m_wf, h_out, source)}
-        if sink is None:  # a condensing temperature given by hand: no sink to draw
-            return out
-        h, T, T_sink = condenser_approach(fluid, sink, cs, n, True)[2]
-        m_c = m_wf if cs.condenser_share == 1.0 else m_wf * cs.condenser_share
-        out["condenser"] = Profile(m_c * (h - h[0]), T, np.asarray(T_sink, dtype=float))
-        if cs.recuperator_active:
-            prof = cs.rec_profile
-            out["recuperator"] = Profile(m_wf * prof.Q_W, prof.T_hot_K, prof.T_cold_K)
-        return out
-
     def _state_table(self, cs: ColdSide, st3: State) -> dict[str, State]:
         """The states of the layout in cycle order: 1, 2, (2r), 3, 4, (4r)."""
         if self.recuperator:
             return {"1": cs.s1, "2": cs.s2, "2r": cs.s2r, "3": st3, "4": cs.s4, "4r": cs.s4r}
         return {"1": cs.s1, "2": cs.s2, "3": st3, "4": cs.s4}
-
-    def _fixed_flow_result(self, ctx, sat_e, cs: ColdSide, st3: State, m_wf: float, known) -> CycleResult:
-        """Cycle with a given working-fluid flow and no source stream (exploring by hand)."""
-        s, sink = ctx.settings, ctx.sink
-        W_t = m_wf * cs.w_turbine(st3)
-        W_p = m_wf * cs.w_pump()
-        Q_out = m_wf * cs.q_rejected()
-        W_aux = s.aux_power_per_W_rejected * Q_out
-        m_sink = math.nan
-        if sink is not None:
-            m_sink = Q_out / float(sink.h_out_J_kg - sink.h_in_J_kg)
-        path, h_out, _ = self.heater_path(ctx, sat_e, cs, st3, s.n_zone_segments, False)
-        st_t, st_ts, share = cs.turbine_figures(st3)
-        return CycleResult(
-            status="ok",
-            layout=self.name,
-            variables=known["variables"],
-            T_evap_K=sat_e.T_K,
-            p_evap_Pa=sat_e.p_Pa,
-            superheat_K=known["superheat_K"],
-            T_cond_K=cs.T_cond_K,
-            p_cond_Pa=cs.p_cond_Pa,
-            states=self._state_table(cs, st3),
-            m_wf_kg_s=m_wf,
-            m_sink_kg_s=m_sink,
-            W_turbine_W=W_t,
-            W_pump_W=W_p,
-            W_aux_W=W_aux,
-            W_net_W=s.generator_efficiency * W_t - W_p / s.motor_efficiency - W_aux,
-            Q_in_W=m_wf * (h_out - float(path.h[0])),
-            Q_out_W=Q_out,
-            Q_rec_W=m_wf * cs.q_rec,
-            eta_turbine=cs.eta_t,
-            size_parameter_m=size_parameter_m(m_wf * share * st_ts.v, st_t.h - st_ts.h),
-            volume_ratio=volume_ratio(st_ts.v, st_t.v),
-            figures=cs.figures(),
-        )
 
     def ts_path(self, fluid, r: CycleResult, n: int = 8) -> tuple[list[float], list[float]]:
         """Pump and turbine as straight lines between their end states, heat exchange along isobars."""
@@ -406,16 +259,6 @@ class Subcritical(Layout):
         s_hi, T_hi = isobar_ts(fluid, sat_e, st["2"].h, st["3"].h, n)
         s_lo, T_lo = isobar_ts(fluid, sat_c, st["4"].h, st["1"].h, n)
         return s_pts + s_hi + s_lo, T_pts + T_hi + T_lo
-
-
-_LABELS = {
-    "1": "condenser outlet",
-    "2": "pump outlet",
-    "2r": "recuperator cold-side outlet",
-    "3": "turbine inlet",
-    "4": "turbine outlet",
-    "4r": "recuperator hot-side outlet",
-}
 
 
 def _fast_interior_pinch(fluid, source, s, sat_e, st_in: State, st3: State, hs_in: float) -> tuple[float, str]:

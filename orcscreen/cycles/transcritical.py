@@ -28,24 +28,15 @@ from __future__ import annotations
 
 import math
 from collections.abc import Mapping
-from dataclasses import dataclass
 
-import numpy as np
 
-from ..exchangers import (
-    COND_TOL_FAST_K,
-    Profile,
-    condenser_approach,
-    heater_flow,
-    heater_profile,
-    recuperate,
-    solve_condensing_temperature,
-)
+from ..exchangers import COND_TOL_FAST_K, heater_flow, recuperate, solve_condensing_temperature
 from ..paths import supercritical_heating_path
-from ..states import CycleInfeasible, SatPoint, State
-from ..turbine import size_parameter_m, volume_ratio
+from ..states import CycleInfeasible, State
 from .base import (
+    STATE_LABELS,
     C,
+    ColdSide,
     CycleContext,
     CycleResult,
     Layout,
@@ -53,6 +44,8 @@ from .base import (
     Window,
     condenser_outlet,
     condensing_floor_K,
+    cycle_result,
+    exchanger_profiles,
     expand,
     infeasible,
     isobar_ts,
@@ -83,40 +76,6 @@ N_FAST_SEGMENTS = 8
 XATOL_FAST_K = 1e-2
 
 
-@dataclass
-class ColdSide:
-    """Condenser outlet, pump, expansion and recuperator at one condensing temperature."""
-
-    T_cond_K: float
-    p_cond_Pa: float
-    sat: SatPoint
-    s1: State
-    s2: State
-    s4s: State
-    s4: State
-    eta_t: float
-    s2r: State
-    s4r: State
-    q_rec: float
-    recuperator_active: bool
-    rec_profile: Profile | None = None
-    cond_check: tuple | None = None
-
-    @property
-    def condenser_inlet(self) -> State:
-        return self.s4r
-
-
-_LABELS = {
-    "1": "condenser outlet",
-    "2": "pump outlet",
-    "2r": "recuperator cold-side outlet",
-    "3": "turbine inlet",
-    "4": "turbine outlet",
-    "4r": "recuperator hot-side outlet",
-}
-
-
 class Transcritical(Layout):
     """Transcritical layout, with or without a recuperator (module docstring)."""
 
@@ -131,7 +90,7 @@ class Transcritical(Layout):
         self.description = description
         self.recuperator = recuperator
         keys = ("1", "2", "2r", "3", "4", "4r") if recuperator else ("1", "2", "3", "4")
-        self.state_labels = {k: _LABELS[k] for k in keys}
+        self.state_labels = {k: STATE_LABELS[k] for k in keys}
         self.exchangers = ("evaporator", "condenser", "recuperator") if recuperator else ("evaporator", "condenser")
         if recuperator:
             self.limits = self.limits + ("recuperator pinch",)
@@ -244,64 +203,21 @@ class Transcritical(Layout):
                 f"turbine outlet quality {st4.q:.3f} is below the limit {s.min_turbine_outlet_quality:.3f} (a wet expansion; a hotter turbine inlet may help)",
                 st4.q - s.min_turbine_outlet_quality,
             )
+        q_in = st3.h - st2r.h
+        states = ({"1": st1, "2": st2, "2r": st2r, "3": st3, "4": st4, "4r": st4r} if self.recuperator
+                  else {"1": st1, "2": st2, "3": st3, "4": st4})
         if m_wf_fixed is not None:
-            return self._result(ctx, cs, st3, m_wf_fixed, "", math.nan, {}, known)
+            return cycle_result(ctx, self, cs, st3, m_wf_fixed, q_in, states, known, p_evap_Pa=st3.p_Pa)
         path = supercritical_heating_path(fluid, p_h, st2r, st3, s.n_zone_segments if exact else N_FAST_SEGMENTS)
         m_wf, location, path = heater_flow(path, st3.h, source, s.pinch_evaporator_K, exact, xatol_fast_K=XATOL_FAST_K)
         if not m_wf > 0.0:
             raise CycleInfeasible("heater pinch", f"the source is too cold for a heater at {p_h / 1e5:.2f} bar with a {s.pinch_evaporator_K:g} K pinch")
-        hs_out = float(source.h_in_J_kg) - m_wf * (st3.h - st2r.h) / source.m_kg_s
-        profiles = {}
-        if exact:
-            profiles["evaporator"] = heater_profile(path, m_wf, st3.h, source)
-            if sink is not None:
-                h, T, T_sink = condenser_approach(fluid, sink, cs, s.n_zone_segments, True)[2]
-                profiles["condenser"] = Profile(m_wf * (h - h[0]), T, np.asarray(T_sink, dtype=float))
-            if cs.recuperator_active:
-                prof = cs.rec_profile
-                profiles["recuperator"] = Profile(m_wf * prof.Q_W, prof.T_hot_K, prof.T_cold_K)
-        r = self._result(ctx, cs, st3, m_wf, location, float(source.T_K(hs_out)), profiles, known)
+        T_s_out = float(source.T_K(float(source.h_in_J_kg) - m_wf * q_in / source.m_kg_s))
+        r = cycle_result(ctx, self, cs, st3, m_wf, q_in, states, known, location, T_s_out,
+                         exchanger_profiles(ctx, cs, path, m_wf, st3.h) if exact else None, p_evap_Pa=st3.p_Pa)
         if r.W_net_W <= 0.0:
             return infeasible("net power", f"net power {r.W_net_W / 1e3:.3g} kW is not positive", r.W_net_W, **known)
         return r
-
-    def _result(self, ctx, cs: ColdSide, st3: State, m_wf: float, location: str, T_s_out: float, profiles, known) -> CycleResult:
-        s, sink = ctx.settings, ctx.sink
-        st1, st2, st2r, st4, st4r = cs.s1, cs.s2, cs.s2r, cs.s4, cs.s4r
-        W_t = m_wf * (st3.h - st4.h)
-        W_p = m_wf * (st2.h - st1.h)
-        Q_out = m_wf * (st4r.h - st1.h)
-        W_aux = s.aux_power_per_W_rejected * Q_out
-        m_sink = math.nan
-        if sink is not None:
-            m_sink = Q_out / float(sink.h_out_J_kg - sink.h_in_J_kg)
-        states = ({"1": st1, "2": st2, "2r": st2r, "3": st3, "4": st4, "4r": st4r} if self.recuperator
-                  else {"1": st1, "2": st2, "3": st3, "4": st4})
-        return CycleResult(
-            status="ok",
-            limit=location,
-            layout=self.name,
-            variables=known["variables"],
-            p_evap_Pa=st3.p_Pa,
-            T_cond_K=cs.T_cond_K,
-            p_cond_Pa=cs.p_cond_Pa,
-            states=states,
-            m_wf_kg_s=m_wf,
-            m_sink_kg_s=m_sink,
-            W_turbine_W=W_t,
-            W_pump_W=W_p,
-            W_aux_W=W_aux,
-            W_net_W=s.generator_efficiency * W_t - W_p / s.motor_efficiency - W_aux,
-            Q_in_W=m_wf * (st3.h - st2r.h),
-            Q_out_W=Q_out,
-            Q_rec_W=m_wf * cs.q_rec,
-            T_source_out_K=T_s_out,
-            pinch_location=location,
-            eta_turbine=cs.eta_t,
-            size_parameter_m=size_parameter_m(m_wf * cs.s4s.v, st3.h - cs.s4s.h),
-            volume_ratio=volume_ratio(cs.s4s.v, st3.v),
-            profiles=profiles,
-        )
 
     def ts_path(self, fluid, r: CycleResult, n: int = 8) -> tuple[list[float], list[float]]:
         """Pump and turbine as straight lines; the heater along its supercritical isobar."""
