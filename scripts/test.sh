@@ -1,0 +1,5 @@
+#!/usr/bin/env bash
+# Run the test suite (creates and fills .venv on first use). Extra arguments go to pytest,
+# e.g. scripts/test.sh tests/test_cycle.py -q
+source "$(dirname "${BASH_SOURCE[0]}")/env.sh"
+exec .venv/bin/python -m pytest -p no:cacheprovider "$@"
