@@ -128,6 +128,8 @@ def inputs_from_case(case: dict, coolprop_name: str, max_turbine_inlet_C: float 
     sh = cy.get("superheat_K", 0.0)
     if isinstance(sh, str):
         raise Unsupported("cycle.superheat_K = 'optimise': the baseline takes a fixed superheat")
+    if case["machines"].get("turbine_model", "constant") != "constant":
+        raise Unsupported("machines.turbine_model: the baseline takes a constant turbine efficiency")
     T_min_out = src.get("min_outlet_temperature_C")
     p_max = li.get("max_pressure_bar")
     p_cond_min = li.get("min_condensing_pressure_bar")

@@ -25,7 +25,7 @@ DEFAULT_STUDY = {
     "source": {"kind": "brine", "inlet_temperature_C": 150.0, "mass_flow_kg_s": 30.0, "pressure_bar": 10.0},
     "sink": {"kind": "water", "inlet_temperature_C": 20.0, "temperature_rise_K": 8.0},
     "exchangers": {"pinch_evaporator_K": 6.0, "pinch_condenser_K": 5.0},
-    "machines": {"turbine_efficiency": 0.82, "pump_efficiency": 0.7},
+    "machines": {"turbine_model": "constant", "turbine_efficiency": 0.82, "pump_efficiency": 0.7},
     "fluids": {"include": ["R134a", "R1234yf", "R227ea", "n-Propane", "IsoButane", "R1234ze(E)", "R152a",
                            "n-Butane", "Ammonia"]},
 }

@@ -41,7 +41,7 @@ def settings_from_case(case, info=None) -> CycleSettings:
         pinch_recuperator_K=ex.pinch_recuperator_K,
         recuperator_effectiveness=ex.recuperator_effectiveness,
         pump_efficiency=ma.pump_efficiency,
-        turbine=TURBINE_MODELS[ma.turbine_model].from_settings(ma),
+        turbine=TURBINE_MODELS[ma.turbine_model].from_settings(ma, li),
         generator_efficiency=ma.generator_efficiency,
         motor_efficiency=ma.motor_efficiency,
         aux_power_per_W_rejected=sk.aux_power_per_kW_rejected or 0.0,
@@ -50,6 +50,9 @@ def settings_from_case(case, info=None) -> CycleSettings:
         max_supercritical_reduced_pressure=li.max_supercritical_reduced_pressure,
         min_turbine_outlet_quality=li.min_turbine_outlet_quality,
         min_condensing_pressure_Pa=None if li.min_condensing_pressure_bar is None else li.min_condensing_pressure_bar * 1e5,
+        flag_condensing_pressure_below_Pa=(None if li.flag_condensing_pressure_below_bar is None
+                                           else li.flag_condensing_pressure_below_bar * 1e5),
+        flag_size_parameter_above_m=li.flag_size_parameter_above_m,
         subcooling_K=cy.subcooling_K or 0.0,
         superheat_K=None if cy.superheat_K == "optimise" else float(cy.superheat_K),
         max_superheat_K=cy.max_superheat_K,
@@ -94,7 +97,7 @@ def run_case(case) -> dict:
         except PropertyError as exc:  # chart data only: the result itself stands
             detail = {"error": f"detail not available: {exc}"}
         row = result_row(case.fluid, layout, info, ctx.fluid, ctx.source, ctx.sink, opt.cycle, opt.binding_limit,
-                         opt.evaluations, time.perf_counter() - t0)
+                         opt.evaluations, time.perf_counter() - t0, ctx.settings)
         return {"row": row, "detail": detail}
     except (PropertyError, ValueError, ArithmeticError) as exc:
         msg = f"{type(exc).__name__}: {exc}"

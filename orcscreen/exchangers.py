@@ -305,7 +305,7 @@ def solve_condensing_temperature(fluid, sink, cold_side, pinch_K: float, T_floor
     """
     if T_floor_K >= T_ceiling_K:
         raise CycleInfeasible("sink", f"the condensing temperature would be {_C(T_floor_K)}, not below {ceiling_what} {_C(T_ceiling_K)}")
-    T = T_guess_K if T_guess_K is not None else sink.T_out_K + pinch_K
+    T = T_guess_K if T_guess_K is not None and math.isfinite(T_guess_K) else sink.T_out_K + pinch_K
     T = max(T, T_floor_K)
     args = (fluid, sink, cold_side, pinch_K, T_floor_K, T_ceiling_K, ceiling_what, n)
     if exact:

@@ -12,7 +12,7 @@ import math
 
 from . import streams
 from .cycles import LAYOUTS, CycleResult, Layout, saturation_dome
-from .cycles.base import P_ATM_PA
+from .cycles.base import P_ATM_PA, CycleSettings
 
 __all__ = ["ROW_COLUMNS", "COMMON_COLUMNS", "LAYOUT_COLUMNS", "result_row", "empty_row", "energy_figures", "case_detail"]
 
@@ -29,7 +29,7 @@ COMMON_COLUMNS = (
     "turbine_outlet_quality", "wf_mass_flow_kg_s", "sink_mass_flow_kg_s", "source_outlet_temperature_C",
     "pinch_location", "pinch_evaporator_K", "pinch_condenser_K", "pinch_recuperator_K", "ua_evaporator_kW_K",
     "ua_condenser_kW_K", "ua_recuperator_kW_K", "ua_total_kW_K", "size_parameter_m",
-    "volume_ratio", "turbine_efficiency",
+    "volume_ratio", "turbine_model", "turbine_stages", "volume_ratio_per_stage", "turbine_efficiency",
 )
 _TAIL_COLUMNS = (
     "binding_limit", "sub_atmospheric_condenser", "family",
@@ -94,8 +94,9 @@ def carnot_efficiency(r: CycleResult) -> float:
 
 
 def result_row(fluid_name: str, layout: Layout, info, fluid, source, sink, r: CycleResult, binding: str, n: int,
-               elapsed: float) -> dict:
-    """The row of a feasible case (DESIGN section 5)."""
+               elapsed: float, settings: CycleSettings | None = None) -> dict:
+    """The row of a feasible case (DESIGN section 5); settings: the case's (for the turbine model's
+    name and the plausibility flags)."""
     T0 = sink.T_in_K
     ex_source = streams.source_exergy_W(source, T0)
     q_avail = streams.available_heat_W(source, T0)
@@ -140,6 +141,9 @@ def result_row(fluid_name: str, layout: Layout, info, fluid, source, sink, r: Cy
         "ua_total_kW_K": sum(ua.values()),
         "size_parameter_m": r.size_parameter_m,
         "volume_ratio": r.volume_ratio,
+        "turbine_model": getattr(getattr(settings, "turbine", None), "name", ""),
+        "turbine_stages": getattr(r.turbine_design, "stages", math.nan),
+        "volume_ratio_per_stage": getattr(r.turbine_design, "vr_per_stage", math.nan),
         "turbine_efficiency": r.eta_turbine,
         "binding_limit": binding,
         "sub_atmospheric_condenser": bool(r.p_cond_Pa < P_ATM_PA),
@@ -147,13 +151,13 @@ def result_row(fluid_name: str, layout: Layout, info, fluid, source, sink, r: Cy
         "elapsed_s": elapsed,
     })
     row.update({k: v for k, v in r.figures.items() if k in layout.columns})
-    row["warnings"] = "; ".join(_warnings(layout, source, r))
+    row["warnings"] = "; ".join(_warnings(layout, source, r, settings))
     _add_fluid_columns(row, info)
     return {k: row[k] for k in ROW_COLUMNS}
 
 
-def _warnings(layout: Layout, source, r: CycleResult) -> list[str]:
-    """Plain-words notes on a feasible result that the engineer should see."""
+def _warnings(layout: Layout, source, r: CycleResult, settings: CycleSettings | None = None) -> list[str]:
+    """Plain-words notes on a feasible result that the engineer should see (soft limits passed)."""
     out = []
     dew = getattr(source, "water_dew_point_K", None)
     if callable(dew):
@@ -163,10 +167,20 @@ def _warnings(layout: Layout, source, r: CycleResult) -> list[str]:
                 f"flue gas leaves at {r.T_source_out_K - 273.15:.1f} °C, below its water dew point "
                 f"{T_dew - 273.15:.1f} °C: condensation is not modelled and corrodes (raise min_outlet_temperature_C)"
             )
-    if r.p_cond_Pa < P_ATM_PA:
+    p_flag = getattr(settings, "flag_condensing_pressure_below_Pa", None)
+    if p_flag is not None and r.p_cond_Pa < p_flag:
+        out.append(f"condenser at {r.p_cond_Pa / 1e5:.3g} bar, below limits.flag_condensing_pressure_below_bar = "
+                   f"{p_flag / 1e5:g}: a deep vacuum, very large condenser and turbine exhaust, air ingress")
+    elif r.p_cond_Pa < P_ATM_PA:
         out.append(f"condenser below atmospheric pressure ({r.p_cond_Pa / 1e5:.3g} bar): air ingress, larger equipment")
     if "recuperator" in layout.exchangers and r.Q_rec_W <= 0.0:
         out.append("recuperator inactive: the turbine outlet is not hotter than the pump outlet plus the pinch")
+    turbine_notes = getattr(r.turbine_design, "warnings", ())
+    out.extend(turbine_notes)
+    sp_flag = getattr(settings, "flag_size_parameter_above_m", None)
+    if sp_flag is not None and r.size_parameter_m > sp_flag and not any("size parameter" in w for w in turbine_notes):
+        out.append(f"turbine size parameter {r.size_parameter_m:.3g} m above limits.flag_size_parameter_above_m = "
+                   f"{sp_flag:g} m: a very large machine, beyond the size the efficiency correlations cover")
     return out
 
 

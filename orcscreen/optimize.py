@@ -77,17 +77,19 @@ class _Objective:
         self.n = 0
         self.T_cond_guess = None
         self.cache: dict[float, CycleResult] = {}
-        self._solved: list[tuple[float, float]] = []  # (x, T_cond) of feasible points
+        self.eta_guess = None
+        self._solved: list[tuple[float, float, float]] = []  # (x, T_cond, turbine efficiency) of feasible points
 
-    def _predict_T_cond(self, x: float) -> float | None:
-        """Condensing temperature predicted from the two nearest solved points (linear)."""
+    def _predict(self, x: float) -> tuple[float | None, float | None]:
+        """Condensing temperature and turbine efficiency predicted from the two nearest solved
+        points (linear in x)."""
         pts = self._solved
         if len(pts) < 2:
-            return self.T_cond_guess
-        (x1, y1), (x2, y2) = sorted(pts, key=lambda p: abs(p[0] - x))[:2]
+            return self.T_cond_guess, self.eta_guess
+        (x1, t1, e1), (x2, t2, e2) = sorted(pts, key=lambda p: abs(p[0] - x))[:2]
         if x1 == x2:
-            return y1
-        return y1 + (y2 - y1) * (x - x1) / (x2 - x1)
+            return t1, e1
+        return t1 + (t2 - t1) * (x - x1) / (x2 - x1), float(e1 + (e2 - e1) * (x - x1) / (x2 - x1))
 
     def point(self, x: float) -> dict[str, float]:
         return {self.var.name: x, **self.fixed}
@@ -97,11 +99,14 @@ class _Objective:
         if hit is not None:
             return hit
         self.n += 1
-        guess = self._predict_T_cond(x)
-        r = self.layout.evaluate(self.ctx, self.point(x), exact=self.exact, T_cond_guess_K=guess, cond_tol_K=self.cond_tol_K)
+        guess, eta = self._predict(x)
+        r = self.layout.evaluate(self.ctx, self.point(x), exact=self.exact, T_cond_guess_K=guess, cond_tol_K=self.cond_tol_K,
+                                 eta_guess=eta)
         if r.ok:
-            self.T_cond_guess = r.T_cond_K
-            self._solved.append((x, r.T_cond_K))
+            # a size-dependent turbine's efficiency at the size found: the next point's best guess
+            eta_found = getattr(r.turbine_design, "efficiency", r.eta_turbine)
+            self.T_cond_guess, self.eta_guess = r.T_cond_K, eta_found
+            self._solved.append((x, r.T_cond_K, eta_found))
         self.cache[x] = r
         return r
 
@@ -151,6 +156,27 @@ def _feasible_edge(obj: _Objective, x_ok: float, x_bad: float) -> tuple[float, s
     return x_ok, limit
 
 
+def _regime_edge(obj: _Objective, x_in: float, x_out: float) -> tuple[float, float]:
+    """The jump of the regime (see CycleResult.regime) between x_in and x_out, by bisection to
+    1/20 of the variable's tolerance: (a point of x_in's regime two tolerances short of the jump,
+    where the closed-form and the discretised models agree on the regime; the first point
+    beyond the jump that is feasible, else x_out)."""
+    tol = obj.var.xatol / 20.0
+    start, regime = x_in, obj(x_in).regime
+    far = x_out
+    while abs(x_out - x_in) > tol:
+        mid = 0.5 * (x_in + x_out)
+        r = obj(mid)
+        if r.ok and r.regime == regime:
+            x_in = mid
+        else:
+            x_out = mid
+            if r.ok:
+                far = mid
+    inside = x_in + math.copysign(min(2.0 * obj.var.xatol, abs(x_in - start)), start - x_in)
+    return (inside if obj(inside).ok and obj(inside).regime == regime else x_in), far
+
+
 def _penalised(W: float) -> float:
     """Objective for the minimiser: -W, with infeasible points as a large finite value."""
     return -W if math.isfinite(W) else 1e30
@@ -184,11 +210,22 @@ def _scan_and_refine(obj: _Objective, w: Window, n_scan: int):
     a = float(grid[max(i - 1, 0)])
     b = float(grid[min(i + 1, n_scan - 1)])
     lower_edge = upper_edge = None
+    others = []  # brackets on the far side of a jump of the regime (the turbine's stage count)
     if i > 0 and not results[i - 1].ok:
         a, lower_edge = _feasible_edge(obj, float(grid[i]), a)
+    elif i > 0 and results[i - 1].regime != results[i].regime:
+        (a, far), lower_edge = _regime_edge(obj, float(grid[i]), a), "turbine stage count"
+        others.append((float(grid[i - 1]), far))
     if i < n_scan - 1 and not results[i + 1].ok:
         b, upper_edge = _feasible_edge(obj, float(grid[i]), b)
+    elif i < n_scan - 1 and results[i + 1].regime != results[i].regime:
+        (b, far), upper_edge = _regime_edge(obj, float(grid[i]), b), "turbine stage count"
+        others.append((far, float(grid[i + 1])))
     x_opt = _refine(obj.power, a, b, xatol)
+    for lo, hi in others:
+        x_far = _refine(obj.power, lo, hi, xatol)
+        if obj.power(x_far) > obj.power(x_opt):
+            x_opt, a, b, lower_edge, upper_edge = x_far, lo, hi, "turbine stage count", "turbine stage count"
     if upper_edge is not None and x_opt >= b - 10 * xatol:
         limit = upper_edge
     elif lower_edge is not None and x_opt <= a + 10 * xatol:
@@ -244,9 +281,12 @@ def _polish(layout: Layout, ctx: CycleContext, var: Variable, fixed: Mapping[str
     EXACT_REFINE_RTOL, the optimum is searched again on the discretised model, one scan step
     either side."""
     exact = _Objective(layout, ctx, var, fixed, exact=True)
-    exact.T_cond_guess = fast(x_opt).T_cond_K
+    if fast(x_opt).ok:
+        exact.T_cond_guess = fast(x_opt).T_cond_K
+        exact.eta_guess = getattr(fast(x_opt).turbine_design, "efficiency", fast(x_opt).eta_turbine)
     r = exact(x_opt)
-    fr = layout.evaluate(ctx, fast.point(x_opt), exact=False, T_cond_guess_K=r.T_cond_K if r.ok else None, cond_tol_K=1e-9)
+    fr = layout.evaluate(ctx, fast.point(x_opt), exact=False, T_cond_guess_K=r.T_cond_K if r.ok else None, cond_tol_K=1e-9,
+                         eta_guess=r.eta_turbine if r.ok else None)
     limit = info
     if not r.ok or abs(r.W_net_W - fr.W_net_W) > EXACT_REFINE_RTOL * abs(fr.W_net_W):
         # the discretised profiles bind somewhere the closed-form candidates do not see:
@@ -317,6 +357,11 @@ def _optimise_nested(layout: Layout, ctx: CycleContext, variables: tuple[Variabl
                 (a, name_a), edge_a = _feasible_edge(obj, x0, a), True
             if not obj(b).ok:
                 (b, name_b), edge_b = _feasible_edge(obj, x0, b), True
+        if obj(a).ok and obj(b).ok and obj(a).regime != obj(b).regime:
+            # the turbine's stage count jumps inside the bracket: the net power does too, and the
+            # full search looks at each side of the jump (see _scan_and_refine)
+            total += obj.n
+            return inner(v)
         tol = iv.near_xatol or iv.xatol
         x = _refine(obj.power, a, b, tol)
         for _ in range(2):
@@ -375,7 +420,7 @@ def _optimise_nested(layout: Layout, ctx: CycleContext, variables: tuple[Variabl
         near_power = lambda v: power(v, near=True)  # noqa: E731
         x = _at_bound(near_power, grid, i, outer.xatol) if outer.scan_from_top else None
         if x is None:
-            x = _refine(near_power, a, b, outer.xatol)
+            x = _refine_across_regimes(near_power, lambda v: inner_near(v)[0], a, best, b, outer.xatol)
         best = max([float(grid[i]), x], key=near_power)
     if not polish:
         r, limit, _, scan = inner_near(best)
@@ -398,6 +443,34 @@ def _optimise_nested(layout: Layout, ctx: CycleContext, variables: tuple[Variabl
     if r is None:
         return None, limit, total, scan
     return r, _with_bound(limit, outer, w, best), total, scan
+
+
+def _refine_across_regimes(power, result_at, a: float, x_best: float, b: float, xatol: float) -> float:
+    """Best outer value in [a, b] around the best scan point x_best. Where the regime of the inner
+    optimum (the turbine's stage count, CycleResult.regime) differs between x_best and an end of
+    the bracket, the net power jumps in between: the jump is found by bisection to xatol and
+    each side is refined on its own (a search across the jump may settle on the wrong side)."""
+    def regime(v):
+        r = result_at(v)
+        return None if r is None else r.regime
+
+    own = regime(x_best)
+    lo, hi, far_sides = a, b, []
+    for end in (a, b):
+        other = regime(end) if end != x_best else own
+        if own is None or other is None or other == own:
+            continue
+        x_in, x_out = x_best, end
+        while abs(x_out - x_in) > xatol:
+            mid = 0.5 * (x_in + x_out)
+            x_in, x_out = (mid, x_out) if regime(mid) == own else (x_in, mid)
+        if end < x_best:
+            lo, far = x_in, (end, x_out)
+        else:
+            hi, far = x_in, (x_out, end)
+        far_sides.append(far)
+    candidates = [_refine(power, lo, hi, xatol)] + [_refine(power, p, q, xatol) for p, q in far_sides]
+    return max(candidates, key=power)
 
 
 def _at_bound(power, grid, i: int, xatol: float) -> float | None:

@@ -515,6 +515,20 @@ def top_table(table: pd.DataFrame | RankingSummary, n: int = 10) -> str:
     return _top_text(summary, n)
 
 
+def _warning_lines(best) -> list[str]:
+    """One line per warning of the listed cases: "  #rank fluid · layout: warning"."""
+    if "warnings" not in best:
+        return []
+    lines = []
+    for _, r in best.iterrows():
+        text = r["warnings"]
+        if not isinstance(text, str) or not text:
+            continue
+        name = r.get("display_name") if isinstance(r.get("display_name"), str) else r["fluid"]
+        lines.extend(f"  #{r['rank']} {name} · {r['layout']}: {w}" for w in text.split("; ") if w)
+    return lines
+
+
 def _top_text(summary: RankingSummary, n: int) -> str:
     import pandas as pd
 
@@ -536,7 +550,7 @@ def _top_text(summary: RankingSummary, n: int) -> str:
             ("eta_II %", "exergy_efficiency", ".2%"), ("T_evap C", "evaporation_temperature_C", ".1f"),
             ("p_high bar", "turbine_inlet_pressure_bar", ".2f"),
             ("p_cond bar", "condensing_pressure_bar", ".3f"), ("SP m", "size_parameter_m", ".3f"),
-            ("VR", "volume_ratio", ".1f")]
+            ("VR", "volume_ratio", ".1f"), ("stages", "turbine_stages", ".0f"), ("eta_t", "turbine_efficiency", ".3f")]
     for title, col, fmt in spec:
         if col in best:
             if fmt.endswith("%"):
@@ -549,6 +563,9 @@ def _top_text(summary: RankingSummary, n: int) -> str:
             columns[title] = best[col].map(lambda v: "" if v is None or v != v else
                                            (_fmt(v, ".0f") if isinstance(v, (int, float)) else str(v)))
     text = pd.DataFrame(columns).to_string(index=False)
+    notes = _warning_lines(best)
+    if notes:
+        text += "\nwarnings (soft limits passed; the results stand):\n" + "\n".join(notes)
     if n_points > 1:
         head = f"best {len(best)} of {summary.cases} cases over {n_points} operating points"
     else:

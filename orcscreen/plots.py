@@ -404,6 +404,66 @@ def _joint_label(rows: Sequence[Mapping]) -> str:
                       for name, layouts in by_fluid.items())
 
 
+# --------------------------------------------------------------------------- turbine map
+
+def turbine_map(df: pd.DataFrame, top: pd.DataFrame | None = None, ax: Axes | None = None,
+                title: str | None = "Turbine map: efficiency against size parameter") -> Axes:
+    """Turbine isentropic efficiency [-] against the whole turbine's size parameter SP [m].
+
+    Every feasible case is a point: its fill shows the volume ratio VR (logarithmic colour
+    scale, colour bar), its marker the layout, a small number beside it the stage count where
+    the turbine model gives one. The cases of ``top`` (the ranking's best) are ringed in black
+    and numbered by rank. SP on a logarithmic axis (sizes span orders of magnitude).
+    """
+    from matplotlib.colors import LogNorm
+
+    ok = rank.feasible(df)
+    sp = pd.to_numeric(ok.get("size_parameter_m"), errors="coerce")
+    eta = pd.to_numeric(ok.get("turbine_efficiency"), errors="coerce")
+    vr = pd.to_numeric(ok.get("volume_ratio"), errors="coerce")
+    keep = np.isfinite(sp) & np.isfinite(eta) & np.isfinite(vr) & (sp > 0) & (vr > 0)
+    ok = ok[keep]
+    if ok.empty:
+        raise ValueError("turbine map: no feasible case with a size parameter, a volume ratio and an efficiency")
+    sp, eta, vr = sp[keep], eta[keep], vr[keep]
+    ax = _new_axes(ax, 4.2)
+    norm = LogNorm(vmin=max(float(vr.min()), 1.0), vmax=max(float(vr.max()), float(vr.min()) * 1.01, 1.01))
+    points = None
+    for layout, group in ok.groupby("layout", sort=False):
+        style = _layout_style(layout)
+        idx = group.index
+        points = ax.scatter(sp[idx], eta[idx], c=vr[idx], cmap="viridis", norm=norm, marker=style["marker"], s=30,
+                            edgecolor=_GREY, linewidth=0.5, label=str(layout), gid=f"turbine-{layout}")
+    stages = pd.to_numeric(ok.get("turbine_stages"), errors="coerce") if "turbine_stages" in ok else None
+    if stages is not None and stages.notna().any():
+        for i in ok.index[stages.notna()]:
+            ax.annotate(f"{int(stages[i])}", xy=(sp[i], eta[i]), xytext=(3, -7), textcoords="offset points",
+                        fontsize=NOTE_PT - 1.5, color=_GREY, gid="stages")
+    if top is not None and not top.empty:
+        marked = top.assign(_x=pd.to_numeric(top["size_parameter_m"], errors="coerce")).sort_values("_x")
+        for k, (_, r) in enumerate(marked.iterrows()):
+            x, y = _num(r.get("size_parameter_m")), _num(r.get("turbine_efficiency"))
+            if not (math.isfinite(x) and math.isfinite(y) and x > 0):
+                continue
+            ax.scatter([x], [y], s=120, facecolor="none", edgecolor="black", linewidth=1.2, zorder=4, gid="top-case")
+            ax.annotate(f"{_fmt(r.get('rank'), '.0f', '?')} {r.get('display_name') or r.get('fluid')}",
+                        xy=(x, y), xytext=(6, 7 if k % 2 == 0 else -14), textcoords="offset points",
+                        fontsize=NOTE_PT - 0.5, gid="top-label", zorder=5,
+                        bbox={"boxstyle": "round,pad=0.1", "fc": "white", "ec": "none", "alpha": 0.8})
+    ax.set_xscale("log")
+    ax.xaxis.set_major_formatter(FuncFormatter(lambda v, _pos: f"{v:g}"))
+    bar = ax.figure.colorbar(points, ax=ax, pad=0.01)
+    bar.set_label("turbine volume ratio VR [-]", fontsize=LABEL_PT)
+    bar.ax.tick_params(labelsize=TICK_PT)
+    handles = [Line2D([], [], linestyle="none", marker=_layout_style(l)["marker"], markerfacecolor="white",
+                      markeredgecolor="black", label=str(l)) for l in ok["layout"].unique()]
+    if top is not None and not top.empty:
+        handles.append(Line2D([], [], linestyle="none", marker="o", markersize=9, markerfacecolor="none",
+                              markeredgecolor="black", label="best cases (rank)"))
+    ax.legend(handles=handles, fontsize=NOTE_PT, loc="lower right")
+    return _finish(ax, axis_label("size_parameter_m"), "turbine isentropic efficiency [-]", title)
+
+
 # --------------------------------------------------------------------------- landscape
 
 def landscape_chart(cases: Sequence[tuple[Mapping, Mapping]], ax: Axes | None = None,

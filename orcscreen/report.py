@@ -100,7 +100,8 @@ REPORT_COLUMNS = (
     "condensing_temperature_C", "superheat_K", "turbine_inlet_pressure_bar", "turbine_inlet_temperature_C",
     "turbine_outlet_temperature_C", "turbine_outlet_quality", "wf_mass_flow_kg_s",
     "source_outlet_temperature_C", "pinch_location", "ua_total_kW_K", "size_parameter_m",
-    "volume_ratio", "turbine_efficiency", "binding_limit", "sub_atmospheric_condenser",
+    "volume_ratio", "turbine_efficiency", "turbine_model", "turbine_stages", "volume_ratio_per_stage",
+    "warnings", "binding_limit", "sub_atmospheric_condenser",
     "family", "safety_class", "gwp100", "odp", "curve_type",
 ) + LAYOUT_COLUMNS
 
@@ -196,6 +197,11 @@ def make_figures(data: _RunData, fig_dir: Path) -> list[FigureRecord]:
           "a first measure of exchanger size." + (f" At the {note}." if note else ""),
           lambda: plots.tradeoff_chart(at_point, x="ua_total_kW_K",
                                        title="Net power against total UA"))
+    _draw(records, fig_dir, "turbine_map", "Turbine map",
+          "Turbine isentropic efficiency against size parameter for every feasible case; the fill "
+          "shows the volume ratio, the small number the stage count, the rings the best cases by rank. "
+          "Small machines and large volume ratios cost efficiency." + (f" At the {note}." if note else ""),
+          lambda: plots.turbine_map(at_point, data.top))
     cases = [(r, data.details.get(r["case_key"])) for _, r in data.top.iterrows()]
     _draw(records, fig_dir, "landscape", "Optimisation landscape",
           "The optimiser's scan of evaporation temperature for the best fluids; the star is the "
@@ -388,6 +394,7 @@ _RANK_COLUMNS = [
     ("rank", "rank", "d"),
     ("display_name", "fluid", ""),
     ("layout", "layout", ""),
+    ("warnings", "warnings", ""),
     ("net_power_kW", "net power [kW]", ".1f"),
     ("thermal_efficiency", "thermal efficiency [-]", ".4f"),
     ("exergy_efficiency", "exergy efficiency [-]", ".4f"),
@@ -399,6 +406,8 @@ _RANK_COLUMNS = [
     ("source_outlet_temperature_C", "source outlet T [°C]", ".1f"),
     ("size_parameter_m", "size parameter [m]", ".4f"),
     ("volume_ratio", "volume ratio [-]", ".1f"),
+    ("turbine_stages", "turbine stages", ".0f"),
+    ("turbine_efficiency", "turbine efficiency [-]", ".3f"),
     ("ua_total_kW_K", "total UA [kW/K]", ".1f"),
     ("binding_limit", "binding limit", ""),
     ("safety_class", "safety class", ""),
@@ -580,7 +589,9 @@ def _ranking_section(data: _RunData, overview: list[FigureRecord]) -> str:
     figs = "".join(_figure_html(r) for r in overview)
     empty = "<p>No case is feasible.</p>" if ok.empty else ""
     return ('<section id="ranking"><h2>Ranking</h2>' + empty +
-            (_table(headers, rows, "ranking-table", caption) if not ok.empty else "") +
+            (_table(headers, rows, "ranking-table", caption,
+                    wrap=(len(data.sweep_cols) + [c for c, _, _ in _RANK_COLUMNS].index("warnings"),))
+             if not ok.empty else "") +
             f'<div class="charts">{figs}</div></section>')
 
 
@@ -606,6 +617,9 @@ def _card(n: int, row: Mapping, detail: Mapping | None, figs: list[FigureRecord]
         ("pump power [kW]", _fmt(row.get("pump_power_kW"), ".1f")),
         ("auxiliary power [kW]", _fmt(row.get("aux_power_kW"), ".1f")),
         ("turbine efficiency [-]", _fmt(row.get("turbine_efficiency"), ".3f")),
+        ("turbine model", row.get("turbine_model") or ""),
+        ("turbine stages", _fmt(row.get("turbine_stages"), ".0f") or "not modelled"),
+        ("volume ratio per stage [-]", _fmt(row.get("volume_ratio_per_stage"), ".2f") or "not modelled"),
         ("size parameter SP [m]", _fmt(row.get("size_parameter_m"), ".4f")),
         ("volume ratio [-]", _fmt(row.get("volume_ratio"), ".2f")),
         ("inlet / outlet T [°C]", f"{_fmt(row.get('turbine_inlet_temperature_C'), '.1f')} / "
@@ -619,6 +633,10 @@ def _card(n: int, row: Mapping, detail: Mapping | None, figs: list[FigureRecord]
         ("condensing p / T", f"{_fmt(row.get('condensing_pressure_bar'), '.3f')} bar / "
                              f"{_fmt(row.get('condensing_temperature_C'), '.1f')} °C"),
     ]
+    notes = [w for w in str(row.get("warnings") or "").split("; ") if w and w != "nan"]
+    if notes:
+        parts.append('<div class="warnings"><strong>Warnings</strong> (soft limits passed; the result stands):<ul>' +
+                     "".join(f"<li>{_e(w)}</li>" for w in notes) + "</ul></div>")
     parts.append('<div class="cols"><div><h4>Fluid and cycle</h4>' + _kv_table(facts) +
                  '</div><div><h4>Turbine and pump</h4>' + _kv_table(turbine) + "</div></div>")
     if detail:
@@ -718,6 +736,7 @@ table.kv th{font-weight:600;color:var(--muted);width:15rem}
 .card .power{color:var(--accent);font-weight:600;margin-left:.6rem}
 .cols{display:flex;flex-wrap:wrap;gap:2rem}
 .charts{display:flex;flex-wrap:wrap;gap:1rem}
+.warnings{border-left:4px solid #b35900;background:#fff6ec;padding:.3rem .8rem;margin:.5rem 0}
 figure.chart{margin:0;flex:1 1 520px;max-width:100%}
 figure.chart img{width:100%;height:auto;border:1px solid var(--line)}
 figure.failed{border:1px dashed #D55E00;padding:.5rem}

@@ -264,6 +264,10 @@ class MachinesSection(_Section):
         _turbine.DEFAULT_TURBINE_MODEL, "Turbine efficiency model (orcscreen.turbine.TURBINE_MODELS).", _choices(TURBINE_MODELS)
     )
     turbine_efficiency: float = _f(0.80, "Isentropic efficiency of the turbine [-] (turbine_model \"constant\").", "a number in (0, 1]", gt=0, le=1)
+    max_turbine_stages: int = _f(
+        3, "Most stages of an axial turbine (turbine_model \"axial-sp-vr\"); the fewest stages that keep the "
+        "volume ratio per stage within limits.max_volume_ratio_per_stage are taken.", "an integer from 1 to 3", ge=1, le=3
+    )
     pump_efficiency: float = _f(0.70, "Isentropic efficiency of the pump [-].", "a number in (0, 1]", gt=0, le=1)
     generator_efficiency: float = _f(1.0, "Generator efficiency [-].", "a number in (0, 1]", gt=0, le=1)
     motor_efficiency: float = _f(1.0, "Efficiency of the pump motor [-].", "a number in (0, 1]", gt=0, le=1)
@@ -283,8 +287,22 @@ class LimitsSection(_Section):
     min_turbine_outlet_quality: float = _f(
         0.9, "Lowest vapour quality at the turbine outlet when it is two-phase [-].", "a number in [0, 1]", ge=0, le=1
     )
+    max_volume_ratio_per_stage: float = _f(
+        10.0, "Largest isentropic volume ratio per turbine stage, VR^(1/stages) [-]; beyond it with the most "
+        "stages allowed no turbine fits and the case is infeasible (turbine_model \"axial-sp-vr\").",
+        "a number > 1", gt=1
+    )
     min_condensing_pressure_bar: Optional[float] = _f(
-        None, "Lowest condensing pressure [bar]; none by default.", "a number > 0", gt=0
+        None, "Lowest condensing pressure [bar], a hard floor: the condenser is held at or above it; none by "
+        "default.", "a number > 0", gt=0
+    )
+    flag_condensing_pressure_below_bar: Optional[float] = _f(
+        0.05, "A result condensing below this pressure [bar] carries a warning (deep vacuum: a very large "
+        "condenser and exhaust, air in-leakage; common practice); none to switch the flag off.", "a number > 0", gt=0
+    )
+    flag_size_parameter_above_m: Optional[float] = _f(
+        1.0, "A result whose turbine size parameter exceeds this [m] carries a warning (1 m: the top of the "
+        "axial correlation's range); none to switch the flag off.", "a number > 0", gt=0
     )
 
 
@@ -1252,6 +1270,29 @@ def _nesting_problem(d: Mapping[str, Any], origin: str) -> str | None:
     return None
 
 
+def _turbine_key_problems(raw: Mapping[str, Any], study: Study, specs: Mapping[str, Any], origin: str,
+                          errors: list[str]) -> None:
+    """A key that only another turbine model reads (its class's own_keys), written or swept, is
+    refused: with the size-dependent default a written turbine_efficiency would silently be
+    ignored."""
+    chosen = study.machines.turbine_model
+    mine = _turbine.TURBINE_MODELS[chosen].own_keys
+    named = "machines" in raw and isinstance(raw["machines"], Mapping) and "turbine_model" in raw["machines"]
+    which = _show(chosen) + ("" if named else ", the default")
+    for model_name, model in _turbine.TURBINE_MODELS.items():
+        for path in model.own_keys:
+            if path in mine:
+                continue
+            section, _, key = path.partition(".")
+            table = raw.get(section)
+            written = isinstance(table, Mapping) and key in table
+            if written or path in specs:
+                shown = f"{path} = {_show(table[key])}" if written else f"sweep.{path}"
+                errors.append(f"{origin}: {shown}: only for machines.turbine_model = {_show(model_name)} (this study's "
+                              f"model is {which}); allowed: leave it out, or set machines.turbine_model = "
+                              f"{_show(model_name)}")
+
+
 def _time_limit_problems(study: Study, specs: Mapping[str, Any], origin: str, errors: list[str]) -> None:
     """A case time limit beyond :data:`MAX_CASE_TIME_LIMIT_S` cannot be timed."""
     values = [study.study.case_time_limit_s]
@@ -1311,6 +1352,7 @@ def study_from_dict(d: Mapping[str, Any], origin: str = "<dict>", *, allow_huge:
         raise StudyError(errors)
     study = _check_source_keys(study, origin, errors)
     _check_swept_source_keys(study, flat, specs, origin, errors)
+    _turbine_key_problems(raw, study, specs, origin, errors)
     _time_limit_problems(study, specs, origin, errors)
     fluids = _resolve_fluids(study.fluid_filter, origin, errors)
     _check_points(study, specs, origin, errors, with_streams=not errors)

@@ -25,6 +25,7 @@ FIGURES = {
     "ts-diagram.png": "ts_01_*.png",
     "tradeoff-size-parameter.png": "tradeoff_size_parameter.png",
     "landscape.png": "landscape.png",
+    "turbine-map.png": "turbine_map.png",
 }
 SWEEP_FIGURES = {
     "sweep-source-temperature.png": "sweep_source.inlet_temperature_C.png",

@@ -41,7 +41,7 @@ SCENARIO = {
     "source": {"kind": "water", "inlet_temperature_C": 125.0, "mass_flow_kg_s": 10.0, "pressure_bar": 6.0},
     "sink": {"kind": "water", "inlet_temperature_C": 18.0, "temperature_rise_K": 8.0},
     "exchangers": {"pinch_evaporator_K": 8.0, "pinch_condenser_K": 5.0},
-    "machines": {"turbine_efficiency": 0.8, "pump_efficiency": 0.65, "generator_efficiency": 0.95},
+    "machines": {"turbine_model": "constant", "turbine_efficiency": 0.8, "pump_efficiency": 0.65, "generator_efficiency": 0.95},
 }
 
 

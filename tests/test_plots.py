@@ -270,6 +270,33 @@ def test_tradeoff_marks_exactly_the_pareto_cases(run):
         assert ax.get_xlabel() == plots.axis_label(x)
 
 
+# --------------------------------------------------------------------------- turbine map
+
+def test_turbine_map_plots_every_feasible_case_and_rings_the_best(run):
+    df, _ = run
+    ok = df[df["status"] == "ok"]
+    top = ok.assign(rank=ok["net_power_kW"].rank(ascending=False)).nsmallest(3, "rank")
+    ax = plots.turbine_map(df, top)
+    drawn = np.vstack([c.get_offsets() for c in ax.collections if str(c.get_gid()).startswith("turbine-")])
+    want = sorted(zip(ok["size_parameter_m"], ok["turbine_efficiency"]))
+    np.testing.assert_allclose(sorted(map(tuple, drawn)), want)
+    # each point's colour value is its volume ratio
+    values = np.concatenate([c.get_array() for c in ax.collections if str(c.get_gid()).startswith("turbine-")])
+    np.testing.assert_allclose(sorted(values), sorted(ok["volume_ratio"]))
+    rings = [tuple(c.get_offsets()[0]) for c in ax.collections if c.get_gid() == "top-case"]
+    np.testing.assert_allclose(sorted(rings), sorted(zip(top["size_parameter_m"], top["turbine_efficiency"])))
+    labels = [t.get_text() for t in ax.texts if t.get_gid() == "top-label"]
+    assert sorted(labels) == sorted(f"{int(r['rank'])} {r['display_name']}" for _, r in top.iterrows())
+    assert ax.get_xscale() == "log"
+    _assert_units(ax)
+
+
+def test_turbine_map_without_feasible_case_raises_clearly(run):
+    df, _ = run
+    with pytest.raises(ValueError, match="turbine map: no feasible case"):
+        plots.turbine_map(df[df["status"] != "ok"])
+
+
 # --------------------------------------------------------------------------- landscape
 
 def test_landscape_marks_the_optimum_and_its_binding_limit(run):

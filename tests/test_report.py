@@ -174,14 +174,17 @@ def test_ranking_table_follows_ranking_csv(built):
     csv = pd.read_csv(out / "ranking.csv")
     ok = csv[csv["status"] == "ok"].sort_values("rank")
     head = table["head"]
-    assert head[:4] == ["rank", "fluid", "layout", "net power [kW]"]
+    assert head[:5] == ["rank", "fluid", "layout", "warnings", "net power [kW]"]
     assert [int(r[0]) for r in table["rows"]] == ok["rank"].astype(int).tolist()
     assert [r[1] for r in table["rows"]] == ok["display_name"].tolist()
     assert [r[2] for r in table["rows"]] == ok["layout"].tolist()
-    shown = [float(r[3]) for r in table["rows"]]
+    # the warnings next to the fluid, as in ranking.csv (the sub-atmospheric condensers here)
+    assert [r[3] for r in table["rows"]] == ok["warnings"].fillna("").tolist()
+    assert any("below atmospheric pressure" in r[3] for r in table["rows"])
+    shown = [float(r[4]) for r in table["rows"]]
     assert shown == pytest.approx(ok["net_power_kW"].tolist(), abs=0.051)
     # the sort keys carry full precision (ranking.csv holds 6 significant digits)
-    keys = [float(k[3]) for k in table["keys"]]
+    keys = [float(k[4]) for k in table["keys"]]
     assert keys == pytest.approx(ok["net_power_kW"].tolist(), rel=1e-5)
     col = head.index("safety class")
     assert [r[col] for r in table["rows"]] == ok["safety_class"].fillna("").tolist()
@@ -211,6 +214,9 @@ def test_detail_cards_show_the_stored_detail(built):
             assert f" {hx['ua_kW_K']:.2f} " in top_text
         assert f" {row['size_parameter_m']:.4f} " in top_text
         assert f" {row['turbine_power_kW']:.1f} " in top_text
+        assert f" {row['turbine_efficiency']:.3f} " in top_text and f" {int(row['turbine_stages'])} " in top_text
+        for warning in str(row["warnings"] or "").split("; "):
+            assert warning in top_text       # a card shows its case's warnings
     # per-fluid cautions: ASHRAE 34 class meanings (ANSI/ASHRAE 34: A = lower toxicity,
     # B = higher toxicity; 1 = no flame propagation, 3 = higher flammability)
     for _, row in top.iterrows():
@@ -253,7 +259,7 @@ def test_every_chart_has_its_png_and_svg(built):
     pngs = sorted(p.stem for p in figures.glob("*.png"))
     svgs = sorted(p.stem for p in figures.glob("*.svg"))
     assert pngs == svgs
-    for stem in ("ranking", "tradeoff_size_parameter", "tradeoff_ua", "landscape"):
+    for stem in ("ranking", "tradeoff_size_parameter", "tradeoff_ua", "landscape", "turbine_map"):
         assert stem in pngs
     assert len([s for s in pngs if s.startswith("tq_")]) == 3
     assert len([s for s in pngs if s.startswith("ts_")]) == 3

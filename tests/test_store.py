@@ -310,6 +310,18 @@ def test_top_table_lists_best_cases(tmp_path):
     assert one.splitlines()[0] == "best 4 of 6 cases"
 
 
+def test_top_table_shows_the_warnings_of_the_listed_cases_next_to_them(tmp_path):
+    with RunStore(tmp_path) as store:
+        store.put("a", 0, make_result("R134a", power=3.0, warnings="first note; second note"))
+        store.put("b", 1, make_result("R1234yf", power=4.0, warnings=""))
+        store.put("c", 2, make_result("R245fa", power=1.0, warnings="not listed"))
+    text = top_table(write_outputs(tmp_path), n=2)
+    lines = text.splitlines()
+    at = lines.index("warnings (soft limits passed; the results stand):")
+    assert lines[at + 1:at + 3] == ["  #2 R134A · basic: first note", "  #2 R134A · basic: second note"]
+    assert "not listed" not in text and "R1234YF · basic:" not in text
+
+
 def test_write_outputs_needs_a_store(tmp_path):
     with pytest.raises(StoreNotFoundError):
         write_outputs(tmp_path)

@@ -56,10 +56,11 @@ CONTRACT_DEFAULTS = {
              "pressure_bar": 2.0, "aux_power_per_kW_rejected": 0.0},
     "exchangers": {"pinch_evaporator_K": 10.0, "pinch_condenser_K": 5.0, "pinch_recuperator_K": 10.0,
                    "recuperator_effectiveness": 0.8},
-    "machines": {"turbine_model": "constant", "turbine_efficiency": 0.80, "pump_efficiency": 0.70,
-                 "generator_efficiency": 1.0, "motor_efficiency": 1.0},
+    "machines": {"turbine_model": "axial-sp-vr", "turbine_efficiency": 0.80, "max_turbine_stages": 3,
+                 "pump_efficiency": 0.70, "generator_efficiency": 1.0, "motor_efficiency": 1.0},
     "limits": {"max_pressure_bar": None, "max_reduced_pressure": 0.9, "max_supercritical_reduced_pressure": 1.3,
-               "min_turbine_outlet_quality": 0.9, "min_condensing_pressure_bar": None},
+               "min_turbine_outlet_quality": 0.9, "max_volume_ratio_per_stage": 10.0,
+               "min_condensing_pressure_bar": None},
     "cycle": {"superheat_K": 0.0, "max_superheat_K": 50.0, "subcooling_K": 0.0, "reheat_temperature_C": None},
 }
 

@@ -20,6 +20,8 @@ Bailey, *Fundamentals of Engineering Thermodynamics*, 8th ed., Wiley 2014, chapt
 
 from __future__ import annotations
 
+import dataclasses
+import functools
 import math
 from collections.abc import Mapping
 from dataclasses import dataclass, field
@@ -52,6 +54,11 @@ __all__ = [
 ]
 
 P_ATM_PA = 101325.0
+#: Tolerances [-] on the turbine efficiency of a size-dependent model's fixed point (the net power
+#: moves about as much, relatively), in the discretised and the closed-form model; iterations allowed.
+ETA_TOL_EXACT = 1e-8
+ETA_TOL_FAST = 1e-6
+ETA_ITERATIONS = 30
 
 
 @dataclass(frozen=True)
@@ -78,6 +85,8 @@ class CycleSettings:
     max_supercritical_reduced_pressure: float = 1.3
     min_turbine_outlet_quality: float = 0.9
     min_condensing_pressure_Pa: float | None = None
+    flag_condensing_pressure_below_Pa: float | None = None
+    flag_size_parameter_above_m: float | None = None
     subcooling_K: float = 0.0
     superheat_K: float | None = 0.0
     max_superheat_K: float = 50.0
@@ -109,6 +118,18 @@ class CycleContext:
     source: object
     sink: object
     settings: CycleSettings
+    #: results of one evaluation that do not depend on the turbine efficiency (pump outlets,
+    #: isentropic expansion ends, the heater closure), kept across the passes of a size-dependent
+    #: turbine's fixed point (see Layout.evaluate); None outside it
+    memo: dict | None = field(default=None, compare=False)
+    #: the turbine model in effect: settings.turbine, or a constant efficiency while a
+    #: size-dependent model's fixed point is solved (see Layout.evaluate)
+    turbine_now: object = field(default=None, compare=False)
+
+    @property
+    def turbine(self):
+        """The turbine model an expansion uses now."""
+        return self.settings.turbine if self.turbine_now is None else self.turbine_now
 
 
 @dataclass(frozen=True)
@@ -191,6 +212,7 @@ class CycleResult:
     volume_ratio: float = math.nan
     turbine_inlet: str = "3"  # state keys of the turbine inlet and of its (last) outlet
     turbine_outlet: str = "4"
+    turbine_design: object = None  # the size-dependent model's TurbineDesign (stages, warnings), else None
     figures: dict = field(default_factory=dict)
     profiles: dict = field(default_factory=dict)
     margin: float = math.nan  # infeasible: signed distance to the broken limit, if it has one
@@ -198,6 +220,13 @@ class CycleResult:
     @property
     def ok(self) -> bool:
         return self.status == "ok"
+
+    @property
+    def regime(self):
+        """What the net power jumps across: the turbine's stage count (None without one). The
+        optimiser searches each side of such a jump on its own."""
+        stages = getattr(self.turbine_design, "stages", None)
+        return None if stages is None or stages != stages else stages
 
     @property
     def turbine_outlet_quality(self) -> float:
@@ -250,11 +279,71 @@ class Layout:
         raise NotImplementedError
 
     def evaluate(self, ctx: CycleContext, x: Mapping[str, float], exact: bool = True, T_cond_guess_K: float | None = None,
-                 cond_tol_K: float | None = None, T_cond_K: float | None = None, m_wf_kg_s: float | None = None) -> CycleResult:
+                 cond_tol_K: float | None = None, T_cond_K: float | None = None, m_wf_kg_s: float | None = None,
+                 eta_guess: float | None = None, eta_tol: float | None = None) -> CycleResult:
         """One cycle at the free variables x (SI, by name). exact: check every pinch on the
         discretised profiles (what is reported); else on closed-form candidates (the search).
         T_cond_K fixes the condensing temperature (the sink may be None), m_wf_kg_s the
-        working-fluid flow (the source may be None): for exploring by hand."""
+        working-fluid flow (the source may be None): for exploring by hand.
+
+        With a size-dependent turbine model the efficiency depends on the size parameter, which
+        depends on the flow, which depends (through the condenser and a recuperator) on the
+        efficiency: a fixed point, solved by successive substitution from eta_guess (or the
+        model's nominal efficiency) to eta_tol, by default ETA_TOL_EXACT (exact) or ETA_TOL_FAST.
+        The outlet-quality limit depends on the efficiency too: it is checked on the settled
+        cycle. A size the model finds no turbine for is infeasible with its reason."""
+        model = ctx.settings.turbine
+        if not model.size_dependent:
+            return self.evaluate_at(ctx, x, exact, T_cond_guess_K, cond_tol_K, T_cond_K, m_wf_kg_s)
+        eta = float(eta_guess) if eta_guess is not None and 0.05 < eta_guess <= 1.0 else model.nominal_efficiency
+        tol = eta_tol if eta_tol is not None else ETA_TOL_EXACT if exact else ETA_TOL_FAST
+        memo: dict = {}
+        settings = _without_quality_limit(ctx.settings)
+        stages_seen: list = []
+        min_stages = 1
+        for _ in range(ETA_ITERATIONS):
+            fixed = CycleContext(ctx.fluid, ctx.source, ctx.sink, settings, memo, ConstantEfficiency(eta))
+            r = self.evaluate_at(fixed, x, exact, T_cond_guess_K, cond_tol_K, T_cond_K, m_wf_kg_s)
+            if not r.ok:
+                return r
+            design = model.design(r.size_parameter_m, r.volume_ratio, min_stages)
+            stages_seen.append(design.stages)
+            if len(stages_seen) >= 3 and stages_seen[-1] == stages_seen[-3] != stages_seen[-2] and design.stages == design.stages:
+                # at the edge between n and n + 1 stages the count flips with the efficiency it
+                # gives: n + 1 stages (which fit either way) is the turbine that settles
+                min_stages = max(s for s in stages_seen if s == s)
+                design = model.design(r.size_parameter_m, r.volume_ratio, min_stages)
+            if design.reason:
+                return infeasible("turbine", design.reason, math.nan, layout=r.layout, variables=r.variables,
+                                  T_evap_K=r.T_evap_K, p_evap_Pa=r.p_evap_Pa, T_cond_K=r.T_cond_K, p_cond_Pa=r.p_cond_Pa)
+            if abs(design.efficiency - eta) <= tol:
+                wet = self._quality_below(r, ctx.settings.min_turbine_outlet_quality)
+                if wet:
+                    return infeasible("turbine outlet quality", wet[0], wet[1], layout=r.layout, variables=r.variables,
+                                      T_evap_K=r.T_evap_K, p_evap_Pa=r.p_evap_Pa, T_cond_K=r.T_cond_K, p_cond_Pa=r.p_cond_Pa)
+                object.__setattr__(r, "turbine_design", design)  # r is this call's own, just made
+                return r
+            eta, T_cond_guess_K = design.efficiency, r.T_cond_K
+        return infeasible("turbine", f"the turbine efficiency and size did not settle (last {eta:.4f})", math.nan,
+                          layout=r.layout, variables=r.variables)
+
+    #: state keys of the turbine outlets the outlet-quality limit applies to
+    turbine_outlets: tuple[str, ...] = ("4",)
+
+    def _quality_below(self, r: CycleResult, x_min: float) -> tuple[str, float] | None:
+        """(reason, margin) when a turbine outlet of r is wetter than x_min, else None."""
+        for key in self.turbine_outlets:
+            q = r.states[key].q
+            if not math.isnan(q) and q < x_min:
+                where = self.state_labels.get(key, "turbine outlet")
+                return (f"{where} quality {q:.3f} is below the limit {x_min:.3f} (a wet expansion; superheat or a "
+                        f"hotter turbine inlet may help)", q - x_min)
+        return None
+
+    def evaluate_at(self, ctx: CycleContext, x: Mapping[str, float], exact: bool = True,
+                    T_cond_guess_K: float | None = None, cond_tol_K: float | None = None, T_cond_K: float | None = None,
+                    m_wf_kg_s: float | None = None) -> CycleResult:
+        """One cycle with the turbine efficiency of ctx.settings.turbine as it is (see evaluate)."""
         raise NotImplementedError
 
     def ts_path(self, fluid, r: CycleResult) -> tuple[list[float], list[float]]:
@@ -306,12 +395,19 @@ def _superheated_ps(fluid, sat: SatPoint, s: float) -> State:
     return st
 
 
-def pump(fluid, st_in: State, p_out_Pa: float, efficiency: float) -> State:
+def pump(fluid, st_in: State, p_out_Pa: float, efficiency: float, memo: dict | None = None) -> State:
     """Pump outlet state: h2 = h1 + (h2s - h1) / eta, the liquid phase imposed (at any pressure
-    below or above the critical one, the pumped liquid stays below the critical temperature)."""
+    below or above the critical one, the pumped liquid stays below the critical temperature).
+    memo: a CycleContext.memo (the same inlet and pressure give the same outlet)."""
+    key = ("pump", st_in.h, st_in.s, p_out_Pa, efficiency)
+    if memo is not None and key in memo:
+        return memo[key]
     st2s = fluid.state_ps(p_out_Pa, st_in.s, "liquid", st_in.T_K, st_in.v)
     h2 = st_in.h + (st2s.h - st_in.h) / efficiency
-    return flash_ph(fluid, p_out_Pa, h2, "liquid", st2s)
+    out = flash_ph(fluid, p_out_Pa, h2, "liquid", st2s)
+    if memo is not None:
+        memo[key] = out
+    return out
 
 
 @dataclass(slots=True)
@@ -328,19 +424,31 @@ class Expansion:
         return self.st_in.h - self.st_out_s.h
 
 
-def expand(fluid, st_in: State, sat_out: SatPoint, turbine: TurbineModel) -> Expansion:
-    """Expansion from st_in to the saturation pressure of sat_out (two-phase or superheated end)."""
-    if st_in.s <= sat_out.sV:
+def expand(fluid, st_in: State, sat_out: SatPoint, turbine: TurbineModel, memo: dict | None = None) -> Expansion:
+    """Expansion from st_in to the saturation pressure of sat_out (two-phase or superheated end).
+    memo: a CycleContext.memo (the isentropic end does not depend on the efficiency)."""
+    key = ("expansion", st_in.h, st_in.s, sat_out.T_K)
+    if memo is not None and key in memo:
+        st_s = memo[key]
+    elif st_in.s <= sat_out.sV:
         q4s = (st_in.s - sat_out.sL) / (sat_out.sV - sat_out.sL)
         if q4s < 0.0:
             raise CycleInfeasible("turbine outlet quality", "the expansion would end as a liquid", q4s)
         st_s = two_phase_state(sat_out, sat_out.T_K, q4s)
     else:
         st_s = _superheated_ps(fluid, sat_out, st_in.s)
+    if memo is not None:
+        memo[key] = st_s
     eta = turbine.efficiency(math.nan, st_s.v / st_in.v)
     h_out = st_in.h - eta * (st_in.h - st_s.h)
     st_out = state_from_ph(fluid, sat_out, h_out, st_s if h_out > sat_out.hV and math.isnan(st_s.q) else None)
     return Expansion(st_in, st_s, st_out, eta)
+
+
+@functools.lru_cache(maxsize=64)
+def _without_quality_limit(settings: CycleSettings) -> CycleSettings:
+    """The settings with no outlet-quality limit (checked on the settled cycle instead)."""
+    return dataclasses.replace(settings, min_turbine_outlet_quality=0.0)
 
 
 def condensing_floor_K(fluid, sink, s: CycleSettings) -> float:
@@ -481,6 +589,10 @@ class ColdSide:
     def figures(self) -> dict:
         """The layout's own output figures (column name -> value)."""
         return {}
+
+    def heater_key(self) -> tuple:
+        """What the heater closure depends on besides the turbine inlet: the heater inlet."""
+        return (self.s2r.h,)
 
 
 #: Words for the states of the layouts with one pump and one turbine.

@@ -92,6 +92,9 @@ class BleedColdSide:
     def figures(self) -> dict:
         return {"bleed_pressure_bar": self.s3b.p_Pa / 1e5, "bleed_fraction": self.y}
 
+    def heater_key(self) -> tuple:
+        return (self.s2h.h,)
+
 
 class BleedRegenerative(Subcritical):
     """Subcritical layout with one open feed-liquid heater fed by turbine bleed (module docstring)."""
@@ -148,12 +151,12 @@ class BleedRegenerative(Subcritical):
             f = float(x[BLEED_PLACE.name])
             sat_b = fluid.sat_T(T_cond_K + f * (sat_e.T_K - T_cond_K))
         st1 = condenser_outlet(fluid, sat_c, s.subcooling_K)
-        st2 = pump(fluid, st1, sat_b.p_Pa, s.pump_efficiency)
+        st2 = pump(fluid, st1, sat_b.p_Pa, s.pump_efficiency, ctx.memo)
         st2f = State(sat_b.T_K, sat_b.p_Pa, sat_b.hL, sat_b.sL, sat_b.vL, 0.0)
-        st2h = pump(fluid, st2f, sat_e.p_Pa, s.pump_efficiency)
-        hp = expand(fluid, st3, sat_b, s.turbine)
-        lp = expand(fluid, hp.st_out, sat_c, s.turbine)
-        whole = expand(fluid, st3, sat_c, s.turbine)  # the casing's isentropic end, for SP and VR
+        st2h = pump(fluid, st2f, sat_e.p_Pa, s.pump_efficiency, ctx.memo)
+        hp = expand(fluid, st3, sat_b, ctx.turbine, ctx.memo)
+        lp = expand(fluid, hp.st_out, sat_c, ctx.turbine, ctx.memo)
+        whole = expand(fluid, st3, sat_c, ctx.turbine, ctx.memo)  # the casing's isentropic end, for SP and VR
         y = open_heater_bleed_fraction(st2.h, hp.st_out.h, st2f.h)
         return BleedColdSide(T_cond_K, sat_c.p_Pa, sat_c, st1, st2, st2f, st2h, hp.st_out, lp.st_out, whole.st_out_s, y, hp.eta)
 

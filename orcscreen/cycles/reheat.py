@@ -92,11 +92,15 @@ class ReheatColdSide:
     def figures(self) -> dict:
         return {"reheat_pressure_bar": self.sat_rh.p_Pa / 1e5, "reheat_temperature_C": self.s3r.T_K - 273.15}
 
+    def heater_key(self) -> tuple:
+        return (self.s2.h, self.s3e.h, self.s3r.h)
+
 
 class Reheat(Subcritical):
     """Subcritical layout with one reheat between two turbines (module docstring)."""
 
     columns = ("reheat_pressure_bar", "reheat_temperature_C")
+    turbine_outlets = ("3e", "4")
     cost_factor = 15.0
 
     def __init__(self):
@@ -157,12 +161,12 @@ class Reheat(Subcritical):
         if s.max_turbine_inlet_temperature_K is not None and T_rh > s.max_turbine_inlet_temperature_K + 1e-9:
             raise CycleInfeasible("thermal stability", f"reheater outlet {C(T_rh)} is above the thermal-stability limit of {fluid.name} ({C(s.max_turbine_inlet_temperature_K)})")
         st1 = condenser_outlet(fluid, sat_c, s.subcooling_K)
-        st2 = pump(fluid, st1, sat_e.p_Pa, s.pump_efficiency)
-        hp = expand(fluid, st3, sat_rh, s.turbine)
+        st2 = pump(fluid, st1, sat_e.p_Pa, s.pump_efficiency, ctx.memo)
+        hp = expand(fluid, st3, sat_rh, ctx.turbine, ctx.memo)
         st3r = fluid.state_pT(sat_rh.p_Pa, T_rh, "gas")
         if not st3r.h > hp.st_out.h:
             raise CycleInfeasible("reheat temperature", f"the high-pressure turbine leaves at {C(hp.st_out.T_K)}, not below the reheater outlet {C(T_rh)}")
-        lp = expand(fluid, st3r, sat_c, s.turbine)
+        lp = expand(fluid, st3r, sat_c, ctx.turbine, ctx.memo)
         return ReheatColdSide(T_cond_K, sat_c.p_Pa, sat_c, sat_rh, st1, st2, hp.st_out, st3r, lp.st_out, lp.st_out_s, lp.eta)
 
     def _check_cold_side(self, ctx: CycleContext, sat_e: SatPoint, cs: ReheatColdSide) -> None:

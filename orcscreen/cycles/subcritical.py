@@ -143,7 +143,7 @@ class Subcritical(Layout):
         return {EVAPORATION_TEMPERATURE.name: T_evap, SUPERHEAT.name: superheat}
 
     # -- evaluation -----------------------------------------------------------------------
-    def evaluate(self, ctx, x, exact=True, T_cond_guess_K=None, cond_tol_K=None, T_cond_K=None, m_wf_kg_s=None):
+    def evaluate_at(self, ctx, x, exact=True, T_cond_guess_K=None, cond_tol_K=None, T_cond_K=None, m_wf_kg_s=None):
         T_evap_K = float(x[EVAPORATION_TEMPERATURE.name])
         superheat_K = self._superheat(ctx, x)
         known = {"layout": self.name, "variables": dict(x), "T_evap_K": T_evap_K, "superheat_K": superheat_K}
@@ -160,8 +160,8 @@ class Subcritical(Layout):
         fluid, s = ctx.fluid, ctx.settings
         sat_c = fluid.sat_T(T_cond_K)
         st1 = condenser_outlet(fluid, sat_c, s.subcooling_K)
-        st2 = pump(fluid, st1, sat_e.p_Pa, s.pump_efficiency)
-        ex = expand(fluid, st3, sat_c, s.turbine)
+        st2 = pump(fluid, st1, sat_e.p_Pa, s.pump_efficiency, ctx.memo)
+        ex = expand(fluid, st3, sat_c, ctx.turbine, ctx.memo)
         st4 = ex.st_out
         if self.recuperator:
             q_rec, st2r, st4r, active, rec_prof = recuperate(fluid, sat_c, sat_e.p_Pa, st2, st4, s.pinch_recuperator_K,
@@ -206,7 +206,13 @@ class Subcritical(Layout):
             return cycle_result(ctx, self, cs, st3, m_wf_fixed, h_out - float(path.h[0]), self._state_table(cs, st3), known,
                                 T_evap_K=T_evap_K, p_evap_Pa=sat_e.p_Pa, superheat_K=superheat_K)
         hs_in = float(source.h_in_J_kg)
-        m_wf, location, path = heater_flow(path, h_out, source, s.pinch_evaporator_K, exact, fast_interior=fast_interior)
+        key = ("heater", exact, st3.h, cs.heater_key())
+        if ctx.memo is not None and key in ctx.memo:
+            m_wf, location, path = ctx.memo[key]
+        else:
+            m_wf, location, path = heater_flow(path, h_out, source, s.pinch_evaporator_K, exact, fast_interior=fast_interior)
+            if ctx.memo is not None:
+                ctx.memo[key] = m_wf, location, path
         if not m_wf > 0.0:
             raise CycleInfeasible("evaporator pinch", f"the source is too cold for evaporation at {C(T_evap_K)} with a {s.pinch_evaporator_K:g} K pinch")
 

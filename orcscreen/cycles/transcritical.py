@@ -144,7 +144,7 @@ class Transcritical(Layout):
         return {HEATER_REDUCED_PRESSURE.name: p / fluid.p_crit_Pa, TURBINE_INLET_TEMPERATURE.name: T3}
 
     # -- evaluation -----------------------------------------------------------------------
-    def evaluate(self, ctx, x, exact=True, T_cond_guess_K=None, cond_tol_K=None, T_cond_K=None, m_wf_kg_s=None):
+    def evaluate_at(self, ctx, x, exact=True, T_cond_guess_K=None, cond_tol_K=None, T_cond_K=None, m_wf_kg_s=None):
         fluid = ctx.fluid
         p_h = float(x[HEATER_REDUCED_PRESSURE.name]) * fluid.p_crit_Pa
         T3 = float(x[TURBINE_INLET_TEMPERATURE.name])
@@ -159,8 +159,8 @@ class Transcritical(Layout):
         fluid, s = ctx.fluid, ctx.settings
         sat_c = fluid.sat_T(T_cond_K)
         st1 = condenser_outlet(fluid, sat_c, s.subcooling_K)
-        st2 = pump(fluid, st1, p_h, s.pump_efficiency)
-        ex = expand(fluid, st3, sat_c, s.turbine)
+        st2 = pump(fluid, st1, p_h, s.pump_efficiency, ctx.memo)
+        ex = expand(fluid, st3, sat_c, ctx.turbine, ctx.memo)
         st4 = ex.st_out
         if self.recuperator:
             q_rec, st2r, st4r, active, rec_prof = recuperate(fluid, sat_c, p_h, st2, st4, s.pinch_recuperator_K,
@@ -208,8 +208,14 @@ class Transcritical(Layout):
                   else {"1": st1, "2": st2, "3": st3, "4": st4})
         if m_wf_fixed is not None:
             return cycle_result(ctx, self, cs, st3, m_wf_fixed, q_in, states, known, p_evap_Pa=st3.p_Pa)
-        path = supercritical_heating_path(fluid, p_h, st2r, st3, s.n_zone_segments if exact else N_FAST_SEGMENTS)
-        m_wf, location, path = heater_flow(path, st3.h, source, s.pinch_evaporator_K, exact, xatol_fast_K=XATOL_FAST_K)
+        key = ("heater", exact, st3.h, cs.heater_key())
+        if ctx.memo is not None and key in ctx.memo:
+            m_wf, location, path = ctx.memo[key]
+        else:
+            path = supercritical_heating_path(fluid, p_h, st2r, st3, s.n_zone_segments if exact else N_FAST_SEGMENTS)
+            m_wf, location, path = heater_flow(path, st3.h, source, s.pinch_evaporator_K, exact, xatol_fast_K=XATOL_FAST_K)
+            if ctx.memo is not None:
+                ctx.memo[key] = m_wf, location, path
         if not m_wf > 0.0:
             raise CycleInfeasible("heater pinch", f"the source is too cold for a heater at {p_h / 1e5:.2f} bar with a {s.pinch_evaporator_K:g} K pinch")
         T_s_out = float(source.T_K(float(source.h_in_J_kg) - m_wf * q_in / source.m_kg_s))
