@@ -42,6 +42,10 @@ __all__ = ["Optimum", "optimise", "COND_TOL_SEARCH_K"]
 #: power by a few 1e-5 at most, which shifts the located optimum by far less than the variables'
 #: tolerances allow to matter; the optimum itself is re-evaluated tightly (fast and exact).
 COND_TOL_SEARCH_K = 2e-3
+#: Tolerance of a size-dependent turbine's efficiency on the scan's points [-]: the scan only
+#: brackets the optimum, so a noise of ~1e-6 in its net power is harmless; the refining search
+#: settles the efficiency to cycles.base.ETA_TOL_FAST, for a smooth objective.
+ETA_TOL_SCAN = 1e-6
 #: Relative difference between the closed-form and the discretised model at the optimum above
 #: which the optimum is searched again on the discretised model.
 EXACT_REFINE_RTOL = 2e-5
@@ -78,6 +82,9 @@ class _Objective:
         self.T_cond_guess = None
         self.cache: dict[float, CycleResult] = {}
         self.eta_guess = None
+        #: tolerance of a size-dependent turbine's efficiency fixed point (None: the layout's
+        #: default); the scan sets a looser one (ETA_TOL_SCAN)
+        self.eta_tol: float | None = None
         self._solved: list[tuple[float, float, float]] = []  # (x, T_cond, turbine efficiency) of feasible points
 
     def _predict(self, x: float) -> tuple[float | None, float | None]:
@@ -101,7 +108,7 @@ class _Objective:
         self.n += 1
         guess, eta = self._predict(x)
         r = self.layout.evaluate(self.ctx, self.point(x), exact=self.exact, T_cond_guess_K=guess, cond_tol_K=self.cond_tol_K,
-                                 eta_guess=eta)
+                                 eta_guess=eta, eta_tol=self.eta_tol)
         if r.ok:
             # a size-dependent turbine's efficiency at the size found: the next point's best guess
             eta_found = getattr(r.turbine_design, "efficiency", r.eta_turbine)
@@ -194,7 +201,11 @@ def _refine(power, a: float, b: float, xatol: float) -> float:
 
 def _scan(obj: _Objective, grid) -> tuple[list[CycleResult], tuple[list, list, list]]:
     """Results at the grid points, and the scan for the chart: (x values, net power [W] or -inf, limits)."""
-    results = [obj(float(x)) for x in grid]
+    tol, obj.eta_tol = obj.eta_tol, (None if obj.exact else ETA_TOL_SCAN)
+    try:
+        results = [obj(float(x)) for x in grid]
+    finally:
+        obj.eta_tol = tol
     return results, (list(grid), [r.W_net_W if r.ok else -np.inf for r in results], [r.limit for r in results])
 
 

@@ -149,6 +149,7 @@ def axial_efficiency_astolfi_macchi(stages: int, size_parameter_m: float, volume
     (coefficients as transcribed in secondary copies). An attainable maximum for an optimised
     geometry, not a guarantee.
     """
+    size_parameter_m, volume_ratio = float(size_parameter_m), float(volume_ratio)
     x, y = math.log(size_parameter_m), math.log(volume_ratio)
     F = (1.0, x, x * x, x ** 3, x ** 4, volume_ratio, y, y * y, y ** 3, y ** 4, y * x, y * y * x, y * x * x,
          y ** 3 * x, y ** 3 * x * x, y * y * x ** 3)
@@ -199,7 +200,7 @@ class AxialAstolfiMacchi:
 
     def design(self, size_parameter_m: float, volume_ratio: float, min_stages: int = 1) -> TurbineDesign:
         """The turbine of the fewest stages, at least min_stages (see the class docstring)."""
-        SP, VR = size_parameter_m, volume_ratio
+        SP, VR = float(size_parameter_m), float(volume_ratio)
         if not (SP > 0.0 and VR > 0.0):
             return TurbineDesign(math.nan, reason="no expansion: the turbine has no size parameter or volume ratio")
         (sp_lo, sp_hi), (vr_lo, vr_hi) = self.VALIDITY["size_parameter_m"], self.VALIDITY["volume_ratio"]

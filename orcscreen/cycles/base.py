@@ -57,7 +57,7 @@ P_ATM_PA = 101325.0
 #: Tolerances [-] on the turbine efficiency of a size-dependent model's fixed point (the net power
 #: moves about as much, relatively), in the discretised and the closed-form model; iterations allowed.
 ETA_TOL_EXACT = 1e-8
-ETA_TOL_FAST = 1e-6
+ETA_TOL_FAST = 1e-9
 ETA_ITERATIONS = 30
 
 
@@ -484,7 +484,7 @@ def isobar_ts(fluid, sat: SatPoint, h_from: float, h_to: float, n: int) -> tuple
     for h_edge in (sat.hL, sat.hV):  # put the saturation corners on the path
         if min(h_from, h_to) < h_edge < max(h_from, h_to):
             knots.append(h_edge)
-    knots = sorted(knots, reverse=h_from > h_to)
+    knots = sorted(knots, reverse=bool(h_from > h_to))
     for a, b in zip(knots[:-1], knots[1:]):
         for h in np.linspace(a, b, n + 1)[:-1]:
             st = state_from_ph(fluid, sat, float(h))
