@@ -149,11 +149,13 @@ def axial_efficiency_astolfi_macchi(stages: int, size_parameter_m: float, volume
     (coefficients as transcribed in secondary copies). An attainable maximum for an optimised
     geometry, not a guarantee.
     """
-    size_parameter_m, volume_ratio = float(size_parameter_m), float(volume_ratio)
-    x, y = math.log(size_parameter_m), math.log(volume_ratio)
-    F = (1.0, x, x * x, x ** 3, x ** 4, volume_ratio, y, y * y, y ** 3, y ** 4, y * x, y * y * x, y * x * x,
-         y ** 3 * x, y ** 3 * x * x, y * y * x ** 3)
-    return sum(a * f for a, f in zip(_AXIAL_COEFFICIENTS[stages], F))
+    vr = float(volume_ratio)
+    x, y = math.log(float(size_parameter_m)), math.log(vr)
+    x2, y2 = x * x, y * y
+    x3, y3 = x2 * x, y2 * y
+    a0, a1, a2, a3, a4, a5, a6, a7, a8, a9, a10, a11, a12, a13, a14, a15 = _AXIAL_COEFFICIENTS[stages]
+    return (a0 + a1 * x + a2 * x2 + a3 * x3 + a4 * x2 * x2 + a5 * vr + a6 * y + a7 * y2 + a8 * y3 + a9 * y2 * y2
+            + a10 * y * x + a11 * y2 * x + a12 * y * x2 + a13 * y3 * x + a14 * y3 * x2 + a15 * y2 * x3)
 
 
 @dataclass(frozen=True)
@@ -209,8 +211,11 @@ class AxialAstolfiMacchi:
         if vr_used != VR:
             warnings.append(f"turbine volume ratio {VR:.3g} is outside the axial correlation's range {vr_lo:g}-{vr_hi:g}: "
                             f"efficiency taken at {vr_used:g}")
-        n = next((k for k in range(max(1, min_stages), self.max_stages + 1) if VR ** (1.0 / k) <= self.max_vr_per_stage),
-                 None)
+        n = None
+        for k in range(max(1, min_stages), self.max_stages + 1):
+            if VR ** (1.0 / k) <= self.max_vr_per_stage:
+                n = k
+                break
         if n is None:
             return TurbineDesign(math.nan, warnings=tuple(warnings), reason=(
                 f"turbine volume ratio {VR:.4g} needs more than {self.max_stages} stage{'s' if self.max_stages > 1 else ''} "

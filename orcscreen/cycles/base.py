@@ -290,6 +290,8 @@ class Layout:
         depends on the flow, which depends (through the condenser and a recuperator) on the
         efficiency: a fixed point, solved by successive substitution from eta_guess (or the
         model's nominal efficiency) to eta_tol, by default ETA_TOL_EXACT (exact) or ETA_TOL_FAST.
+        A layout may let the efficiency follow the condensing temperature inside its condenser
+        iteration (cold_side_following_turbine), so that one pass usually settles it.
         The outlet-quality limit depends on the efficiency too: it is checked on the settled
         cycle. A size the model finds no turbine for is infeasible with its reason."""
         model = ctx.settings.turbine
@@ -316,7 +318,7 @@ class Layout:
             if design.reason:
                 return infeasible("turbine", design.reason, math.nan, layout=r.layout, variables=r.variables,
                                   T_evap_K=r.T_evap_K, p_evap_Pa=r.p_evap_Pa, T_cond_K=r.T_cond_K, p_cond_Pa=r.p_cond_Pa)
-            if abs(design.efficiency - eta) <= tol:
+            if abs(design.efficiency - r.eta_turbine) <= tol:  # a layout may have moved it (see subcritical)
                 wet = self._quality_below(r, ctx.settings.min_turbine_outlet_quality)
                 if wet:
                     return infeasible("turbine outlet quality", wet[0], wet[1], layout=r.layout, variables=r.variables,
@@ -424,13 +426,13 @@ class Expansion:
         return self.st_in.h - self.st_out_s.h
 
 
-def expand(fluid, st_in: State, sat_out: SatPoint, turbine: TurbineModel, memo: dict | None = None) -> Expansion:
-    """Expansion from st_in to the saturation pressure of sat_out (two-phase or superheated end).
-    memo: a CycleContext.memo (the isentropic end does not depend on the efficiency)."""
+def isentropic_end(fluid, st_in: State, sat_out: SatPoint, memo: dict | None = None) -> State:
+    """The isentropic end of an expansion from st_in to the saturation pressure of sat_out
+    (two-phase or superheated). memo: a CycleContext.memo."""
     key = ("expansion", st_in.h, st_in.s, sat_out.T_K)
     if memo is not None and key in memo:
-        st_s = memo[key]
-    elif st_in.s <= sat_out.sV:
+        return memo[key]
+    if st_in.s <= sat_out.sV:
         q4s = (st_in.s - sat_out.sL) / (sat_out.sV - sat_out.sL)
         if q4s < 0.0:
             raise CycleInfeasible("turbine outlet quality", "the expansion would end as a liquid", q4s)
@@ -439,6 +441,13 @@ def expand(fluid, st_in: State, sat_out: SatPoint, turbine: TurbineModel, memo: 
         st_s = _superheated_ps(fluid, sat_out, st_in.s)
     if memo is not None:
         memo[key] = st_s
+    return st_s
+
+
+def expand(fluid, st_in: State, sat_out: SatPoint, turbine: TurbineModel, memo: dict | None = None) -> Expansion:
+    """Expansion from st_in to the saturation pressure of sat_out (two-phase or superheated end).
+    memo: a CycleContext.memo (the isentropic end does not depend on the efficiency)."""
+    st_s = isentropic_end(fluid, st_in, sat_out, memo)
     eta = turbine.efficiency(math.nan, st_s.v / st_in.v)
     h_out = st_in.h - eta * (st_in.h - st_s.h)
     st_out = state_from_ph(fluid, sat_out, h_out, st_s if h_out > sat_out.hV and math.isnan(st_s.q) else None)
@@ -593,6 +602,61 @@ class ColdSide:
     def heater_key(self) -> tuple:
         """What the heater closure depends on besides the turbine inlet: the heater inlet."""
         return (self.s2r.h,)
+
+
+def cold_side_before_expansion(ctx: CycleContext, p_high_Pa: float, st3: State, T_cond_K: float) -> ColdSide:
+    """The cold side of a layout with one pump and one turbine before its expansion is known:
+    condenser outlet, pump outlet and the isentropic end (what the heater closure and the
+    turbine's size need when no recuperator stands between them); the outlet fields hold the
+    isentropic end, the efficiency NaN."""
+    fluid, s = ctx.fluid, ctx.settings
+    sat_c = fluid.sat_T(T_cond_K)
+    st1 = condenser_outlet(fluid, sat_c, s.subcooling_K)
+    st2 = pump(fluid, st1, p_high_Pa, s.pump_efficiency, ctx.memo)
+    st_s = isentropic_end(fluid, st3, sat_c, ctx.memo)
+    return ColdSide(T_cond_K, sat_c.p_Pa, sat_c, st1, st2, st_s, st_s, math.nan, st2, st_s, 0.0, False)
+
+
+#: Two efficiencies closer than this are one (the cold side is not built again for it) [-].
+ETA_SAME = 1e-11
+
+
+def cold_side_following_turbine(ctx: CycleContext, st3: State, build, flow, before_expansion=None):
+    """A layout's cold-side function (T_cond_K, exact) -> cold side whose turbine efficiency fits
+    the turbine it gives, for use inside a size-dependent turbine's fixed point (Layout.evaluate).
+
+    At each condensing temperature the condenser's iteration tries, the heater closure's flow
+    (``flow(cold side, exact)`` [kg/s]) and the isentropic expansion give the turbine's size
+    parameter and volume ratio, hence the model's efficiency, and the cold side is built again
+    with it (``build(context, T_cond_K, exact)``, the context's turbine_now the efficiency). The
+    efficiency then follows the condensing temperature as it converges, and the fixed point
+    settles in one pass where the flow does not depend on the efficiency; where it does (a
+    recuperator, a bleed, a reheater), the dependence is weak and a pass rarely follows.
+    ``before_expansion(T_cond_K)``: the cold side before the expansion, for layouts whose heater
+    inlet does not depend on it (cheaper than a build at a stale efficiency).
+    ctx.turbine_now carries the first guess."""
+    model, state = ctx.settings.turbine, {"eta": ctx.turbine_now.efficiency()}
+
+    def with_eta(eta: float) -> CycleContext:
+        return CycleContext(ctx.fluid, ctx.source, ctx.sink, ctx.settings, ctx.memo, ConstantEfficiency(eta))
+
+    def cold_side(T_cond_K: float, exact: bool):
+        cs = before_expansion(T_cond_K) if before_expansion else build(with_eta(state["eta"]), T_cond_K, exact)
+        m_wf = math.nan
+        if cs.heater_inlet.h < st3.h:  # else the layout refuses the point with its reason
+            try:
+                m_wf = flow(cs, exact)
+            except (CycleInfeasible, ValueError, ArithmeticError):  # the same: the layout's reason follows
+                pass
+        if m_wf > 0.0:
+            st_in, st_out_s, share = cs.turbine_figures(st3)
+            design = model.design(size_parameter_m(m_wf * share * st_out_s.v, st_in.h - st_out_s.h), st_out_s.v / st_in.v)
+            if not design.reason and 0.0 < design.efficiency <= 1.0 and abs(design.efficiency - state["eta"]) > ETA_SAME:
+                state["eta"] = design.efficiency
+                return build(with_eta(design.efficiency), T_cond_K, exact)
+        return cs if before_expansion is None else build(with_eta(state["eta"]), T_cond_K, exact)
+
+    return cold_side
 
 
 #: Words for the states of the layouts with one pump and one turbine.

@@ -102,6 +102,9 @@ class BleedRegenerative(Subcritical):
     columns = ("bleed_pressure_bar", "bleed_fraction")
     cost_factor = 8.0
 
+    #: the bleed fraction, hence the heater inlet, follows the expansion (see Subcritical.heater_inlet_follows_turbine)
+    heater_inlet_follows_turbine = True
+
     def __init__(self):
         super().__init__("bleed-regenerative", "basic layout plus turbine bleed into an open feed-liquid heater and a second pump",
                          recuperator=False)

@@ -103,6 +103,9 @@ class Reheat(Subcritical):
     turbine_outlets = ("3e", "4")
     cost_factor = 15.0
 
+    #: the reheater inlet is the high-pressure turbine outlet (see Subcritical.heater_inlet_follows_turbine)
+    heater_inlet_follows_turbine = True
+
     def __init__(self):
         super().__init__("reheat", "basic layout with the expansion split by a reheater heated by the source",
                          recuperator=False)

@@ -43,6 +43,8 @@ from .base import (
     Layout,
     Variable,
     Window,
+    cold_side_before_expansion,
+    cold_side_following_turbine,
     condenser_outlet,
     condensing_floor_K,
     cycle_result,
@@ -188,8 +190,14 @@ class Subcritical(Layout):
         else:
             st3 = State(T_evap_K, sat_e.p_Pa, sat_e.hV, sat_e.sV, sat_e.vV, 1.0)
 
-        def cold_side(T, ex):
-            return self.cold_side(ctx, x, sat_e, st3, T, ex)
+        if T_cond_fixed_K is None and m_wf_fixed is None and source is not None and ctx.turbine_now is not None:
+            cold_side = cold_side_following_turbine(
+                ctx, st3, lambda c, T, ex: self.cold_side(c, x, sat_e, st3, T, ex),
+                lambda cs, ex: self._heater_closure(ctx, sat_e, cs, st3, ex)[0],
+                None if self.heater_inlet_follows_turbine else lambda T: cold_side_before_expansion(ctx, sat_e.p_Pa, st3, T))
+        else:
+            def cold_side(T, ex):
+                return self.cold_side(ctx, x, sat_e, st3, T, ex)
 
         if T_cond_fixed_K is None:
             cs = solve_condensing_temperature(fluid, sink, cold_side, s.pinch_condenser_K, condensing_floor_K(fluid, sink, s),
@@ -200,19 +208,12 @@ class Subcritical(Layout):
         self._check_cold_side(ctx, sat_e, cs)
 
         # evaporator: the largest flow that keeps the pinch and the source outlet limit
-        n = s.n_zone_segments
-        path, h_out, fast_interior = self.heater_path(ctx, sat_e, cs, st3, n, exact)
         if m_wf_fixed is not None:  # exploring by hand: the flow is given, no source
+            path, h_out, _ = self.heater_path(ctx, sat_e, cs, st3, s.n_zone_segments, exact)
             return cycle_result(ctx, self, cs, st3, m_wf_fixed, h_out - float(path.h[0]), self._state_table(cs, st3), known,
                                 T_evap_K=T_evap_K, p_evap_Pa=sat_e.p_Pa, superheat_K=superheat_K)
         hs_in = float(source.h_in_J_kg)
-        key = ("heater", exact, st3.h, cs.heater_key())
-        if ctx.memo is not None and key in ctx.memo:
-            m_wf, location, path = ctx.memo[key]
-        else:
-            m_wf, location, path = heater_flow(path, h_out, source, s.pinch_evaporator_K, exact, fast_interior=fast_interior)
-            if ctx.memo is not None:
-                ctx.memo[key] = m_wf, location, path
+        m_wf, location, path, h_out = self._heater_closure(ctx, sat_e, cs, st3, exact)
         if not m_wf > 0.0:
             raise CycleInfeasible("evaporator pinch", f"the source is too cold for evaporation at {C(T_evap_K)} with a {s.pinch_evaporator_K:g} K pinch")
 
@@ -224,6 +225,26 @@ class Subcritical(Layout):
         if r.W_net_W <= 0.0:
             return infeasible("net power", f"net power {r.W_net_W / 1e3:.3g} kW is not positive", r.W_net_W, **known)
         return r
+
+    @property
+    def heater_inlet_follows_turbine(self) -> bool:
+        """True when the heater inlet (hence the flow) depends on the turbine's efficiency: a
+        recuperator, a bleed or a reheater between them."""
+        return self.recuperator
+
+    def _heater_closure(self, ctx: CycleContext, sat_e: SatPoint, cs, st3: State, exact: bool):
+        """(working-fluid flow [kg/s], pinch location, heating path, outlet enthalpy [J/kg]): the
+        largest flow that keeps the evaporator pinch and the source outlet limit, kept in ctx.memo."""
+        path, h_out, fast_interior = self.heater_path(ctx, sat_e, cs, st3, ctx.settings.n_zone_segments, exact)
+        key = ("heater", exact, st3.h, cs.heater_key())
+        if ctx.memo is not None and key in ctx.memo:
+            m_wf, location, path = ctx.memo[key]
+        else:
+            m_wf, location, path = heater_flow(path, h_out, ctx.source, ctx.settings.pinch_evaporator_K, exact,
+                                               fast_interior=fast_interior)
+            if ctx.memo is not None:
+                ctx.memo[key] = m_wf, location, path
+        return m_wf, location, path, h_out
 
     def _check_cold_side(self, ctx: CycleContext, sat_e: SatPoint, cs) -> None:
         """Limits on the cold side: the heater inlet stays liquid, the turbine outlet dry enough."""

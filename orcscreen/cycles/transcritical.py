@@ -29,7 +29,6 @@ from __future__ import annotations
 import math
 from collections.abc import Mapping
 
-
 from ..exchangers import COND_TOL_FAST_K, heater_flow, recuperate, solve_condensing_temperature
 from ..paths import supercritical_heating_path
 from ..states import CycleInfeasible, State
@@ -42,6 +41,8 @@ from .base import (
     Layout,
     Variable,
     Window,
+    cold_side_before_expansion,
+    cold_side_following_turbine,
     condenser_outlet,
     condensing_floor_K,
     cycle_result,
@@ -182,8 +183,14 @@ class Transcritical(Layout):
             raise CycleInfeasible("thermal stability", f"turbine inlet {C(T3)} is above the thermal-stability limit of {fluid.name} ({C(s.max_turbine_inlet_temperature_K)})")
         st3 = fluid.state_pT(p_h, T3)
 
-        def cold_side(T, ex):
-            return self.cold_side(ctx, p_h, st3, T, ex)
+        if T_cond_fixed_K is None and m_wf_fixed is None and source is not None and ctx.turbine_now is not None:
+            cold_side = cold_side_following_turbine(
+                ctx, st3, lambda c, T, ex: self.cold_side(c, p_h, st3, T, ex),
+                lambda cs, ex: self._heater_closure(ctx, p_h, cs, st3, ex)[0],
+                None if self.recuperator else lambda T: cold_side_before_expansion(ctx, p_h, st3, T))
+        else:
+            def cold_side(T, ex):
+                return self.cold_side(ctx, p_h, st3, T, ex)
 
         if T_cond_fixed_K is None:
             cs = solve_condensing_temperature(fluid, sink, cold_side, s.pinch_condenser_K, condensing_floor_K(fluid, sink, s),
@@ -208,14 +215,7 @@ class Transcritical(Layout):
                   else {"1": st1, "2": st2, "3": st3, "4": st4})
         if m_wf_fixed is not None:
             return cycle_result(ctx, self, cs, st3, m_wf_fixed, q_in, states, known, p_evap_Pa=st3.p_Pa)
-        key = ("heater", exact, st3.h, cs.heater_key())
-        if ctx.memo is not None and key in ctx.memo:
-            m_wf, location, path = ctx.memo[key]
-        else:
-            path = supercritical_heating_path(fluid, p_h, st2r, st3, s.n_zone_segments if exact else N_FAST_SEGMENTS)
-            m_wf, location, path = heater_flow(path, st3.h, source, s.pinch_evaporator_K, exact, xatol_fast_K=XATOL_FAST_K)
-            if ctx.memo is not None:
-                ctx.memo[key] = m_wf, location, path
+        m_wf, location, path = self._heater_closure(ctx, p_h, cs, st3, exact)
         if not m_wf > 0.0:
             raise CycleInfeasible("heater pinch", f"the source is too cold for a heater at {p_h / 1e5:.2f} bar with a {s.pinch_evaporator_K:g} K pinch")
         T_s_out = float(source.T_K(float(source.h_in_J_kg) - m_wf * q_in / source.m_kg_s))
@@ -224,6 +224,19 @@ class Transcritical(Layout):
         if r.W_net_W <= 0.0:
             return infeasible("net power", f"net power {r.W_net_W / 1e3:.3g} kW is not positive", r.W_net_W, **known)
         return r
+
+    def _heater_closure(self, ctx: CycleContext, p_h: float, cs, st3: State, exact: bool):
+        """(working-fluid flow [kg/s], pinch location, heating path): the largest flow that keeps
+        the heater pinch and the source outlet limit, kept in ctx.memo."""
+        key = ("heater", exact, st3.h, cs.heater_key())
+        if ctx.memo is not None and key in ctx.memo:
+            return ctx.memo[key]
+        s = ctx.settings
+        path = supercritical_heating_path(ctx.fluid, p_h, cs.heater_inlet, st3, s.n_zone_segments if exact else N_FAST_SEGMENTS)
+        out = heater_flow(path, st3.h, ctx.source, s.pinch_evaporator_K, exact, xatol_fast_K=XATOL_FAST_K)
+        if ctx.memo is not None:
+            ctx.memo[key] = out
+        return out
 
     def ts_path(self, fluid, r: CycleResult, n: int = 8) -> tuple[list[float], list[float]]:
         """Pump and turbine as straight lines; the heater along its supercritical isobar."""
