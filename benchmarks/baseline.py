@@ -113,6 +113,17 @@ class Inputs:
     max_turbine_inlet_K: float | None
 
 
+def _aux_per_W_rejected(snk: dict) -> float:
+    """Cooling-water pump power per W rejected: a fixed fraction when the case gives one, else
+    g H / eta per kg of water over the water's enthalpy rise (PropsSI)."""
+    if snk.get("aux_power_per_kW_rejected") is not None:
+        return snk["aux_power_per_kW_rejected"]
+    T_in = snk.get("inlet_temperature_C", 20.0) + 273.15
+    p = (snk.get("pressure_bar") or 2.0) * 1e5
+    dh = PropsSI("H", "T", T_in + snk.get("temperature_rise_K", 10.0), "P", p, "Water") - PropsSI("H", "T", T_in, "P", p, "Water")
+    return 9.80665 * (snk.get("pump_head_m") or 0.0) / (snk.get("aux_efficiency") or 1.0) / dh
+
+
 def inputs_from_case(case: dict, coolprop_name: str, max_turbine_inlet_C: float | None = None) -> Inputs:
     """Inputs from a case dictionary (contract section 1, units of the key names).
 
@@ -143,7 +154,7 @@ def inputs_from_case(case: dict, coolprop_name: str, max_turbine_inlet_C: float 
         T_sink_in_K=snk.get("inlet_temperature_C", 20.0) + 273.15,
         sink_rise_K=snk.get("temperature_rise_K", 10.0),
         p_sink_Pa=(snk.get("pressure_bar") or 2.0) * 1e5,
-        aux_per_W_rejected=snk.get("aux_power_per_kW_rejected") or 0.0,
+        aux_per_W_rejected=_aux_per_W_rejected(snk),
         pinch_evaporator_K=ex["pinch_evaporator_K"],
         pinch_condenser_K=ex["pinch_condenser_K"],
         pinch_recuperator_K=ex["pinch_recuperator_K"],

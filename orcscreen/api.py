@@ -20,6 +20,8 @@ from pathlib import Path
 from . import fluids as fluid_catalogue
 from . import streams
 from .cycles import LAYOUTS, CycleContext, CycleSettings
+from .areas import U_KEYS
+from .economics import Economics
 from .figures import ROW_COLUMNS, case_detail, empty_row, energy_figures, result_row
 from .optimize import optimise
 from .properties import PropertyError, get_fluid
@@ -28,9 +30,10 @@ from .turbine import TURBINE_MODELS, ConstantEfficiency
 __all__ = ["screen", "run_case", "evaluate_cycle", "settings_from_case", "case_context", "ROW_COLUMNS"]
 
 
-def settings_from_case(case, info=None) -> CycleSettings:
+def settings_from_case(case, info=None, sink=None) -> CycleSettings:
     """CycleSettings (SI) from a typed case's sections (units of the key names), with the
-    fluid's thermal-stability limit from its catalogue entry info (if known)."""
+    fluid's thermal-stability limit from its catalogue entry info (if known); sink: the case's
+    sink stream, if built already (its fans or pumps give the auxiliary power per W rejected)."""
     ex, ma, li, cy, sk = case.exchangers, case.machines, case.limits, case.cycle, case.sink
     max_T3 = None
     if info is not None and info.max_temperature_C is not None:
@@ -44,7 +47,7 @@ def settings_from_case(case, info=None) -> CycleSettings:
         turbine=TURBINE_MODELS[ma.turbine_model].from_settings(ma, li),
         generator_efficiency=ma.generator_efficiency,
         motor_efficiency=ma.motor_efficiency,
-        aux_power_per_W_rejected=sk.aux_power_per_kW_rejected or 0.0,
+        aux_power_per_W_rejected=(sink or streams.sink_from_settings(dict(sk))).aux_power_per_W_rejected(),
         max_pressure_Pa=None if li.max_pressure_bar is None else li.max_pressure_bar * 1e5,
         max_reduced_pressure=li.max_reduced_pressure,
         max_supercritical_reduced_pressure=li.max_supercritical_reduced_pressure,
@@ -58,16 +61,19 @@ def settings_from_case(case, info=None) -> CycleSettings:
         max_superheat_K=cy.max_superheat_K,
         reheat_temperature_K=None if cy.reheat_temperature_C is None else cy.reheat_temperature_C + 273.15,
         max_turbine_inlet_temperature_K=max_T3,
+        u_W_m2K={zone: getattr(ex, key) for zone, key in U_KEYS.items() if getattr(ex, key) is not None},
+        economics=Economics.from_section(case.economics),
     )
 
 
 def case_context(case, info) -> CycleContext:
     """The engine's inputs of a typed case: fluid, source and sink streams, settings."""
+    sink = streams.sink_from_settings(dict(case.sink))
     return CycleContext(
         fluid=get_fluid(info.coolprop_name),
         source=streams.source_from_settings(dict(case.source)),
-        sink=streams.sink_from_settings(dict(case.sink)),
-        settings=settings_from_case(case, info),
+        sink=sink,
+        settings=settings_from_case(case, info, sink),
     )
 
 

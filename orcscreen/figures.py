@@ -10,11 +10,15 @@ from __future__ import annotations
 
 import math
 
-from . import streams
+from . import areas, economics, streams
+from .economics import ECONOMIC_COLUMNS
 from .cycles import LAYOUTS, CycleResult, Layout, saturation_dome
 from .cycles.base import P_ATM_PA, CycleSettings
 
 __all__ = ["ROW_COLUMNS", "COMMON_COLUMNS", "LAYOUT_COLUMNS", "result_row", "empty_row", "energy_figures", "case_detail"]
+
+#: Area of each exchanger [m2], from its UA zone by zone (orcscreen.areas).
+AREA_COLUMNS = tuple(f"area_{e}_m2" for e in areas.EXCHANGERS)
 
 #: Columns every layout fills (DESIGN section 5). evaporation_* are NaN for a supercritical
 #: heater; turbine_inlet_pressure_bar is the highest cycle pressure in every layout.
@@ -30,6 +34,7 @@ COMMON_COLUMNS = (
     "pinch_location", "pinch_evaporator_K", "pinch_condenser_K", "pinch_recuperator_K", "ua_evaporator_kW_K",
     "ua_condenser_kW_K", "ua_recuperator_kW_K", "ua_total_kW_K", "size_parameter_m",
     "volume_ratio", "turbine_model", "turbine_stages", "volume_ratio_per_stage", "turbine_efficiency",
+    *AREA_COLUMNS, "condenser_area_basis", *ECONOMIC_COLUMNS,
 )
 _TAIL_COLUMNS = (
     "binding_limit", "sub_atmospheric_condenser", "family",
@@ -52,6 +57,7 @@ def empty_row(fluid: str, layout: str, info, status: str, reason: str, elapsed: 
         reason=reason,
         warnings="",
         pinch_location="",
+        condenser_area_basis="",
         binding_limit="",
         sub_atmospheric_condenser=None,
         evaluations=evaluations,
@@ -151,9 +157,38 @@ def result_row(fluid_name: str, layout: Layout, info, fluid, source, sink, r: Cy
         "elapsed_s": elapsed,
     })
     row.update({k: v for k, v in r.figures.items() if k in layout.columns})
-    row["warnings"] = "; ".join(_warnings(layout, source, r, settings))
+    notes = _warnings(layout, source, r, settings)
+    row.update(_areas_and_costs(r, source, sink, settings, notes))
+    row["warnings"] = "; ".join(notes)
     _add_fluid_columns(row, info)
     return {k: row[k] for k in ROW_COLUMNS}
+
+
+def _areas_and_costs(r: CycleResult, source, sink, settings, notes: list[str]) -> dict:
+    """Area columns (U values: areas' defaults, then the source's and sink's kinds, then the
+    study's) and, with the case's economics, the investment and LCOE columns; what cannot be
+    computed is a note, never an error of the case."""
+    out: dict = {"condenser_area_basis": getattr(sink, "area_basis", "")}
+    U = {**areas.DEFAULT_U_W_m2K, **getattr(source, "u_defaults_W_m2K", {}), **getattr(sink, "u_defaults_W_m2K", {}),
+         **(getattr(settings, "u_W_m2K", None) or {})}
+    try:
+        found = areas.exchanger_areas({k: p for k, p in r.profiles.items() if k in areas.EXCHANGERS}, U)
+    except (KeyError, ValueError) as exc:
+        notes.append(f"areas not computed: {exc}")
+        return out
+    out.update({f"area_{k}_m2": a.area_m2 for k, a in found.items()})
+    econ = getattr(settings, "economics", None)
+    if econ is None:
+        return out
+    try:
+        plant = economics.plant_for_cost(r, found, sink.condenser_cost_kind, sink.finned_to_bare_area_ratio)
+        figures, cost_notes = economics.economic_figures(plant, r.W_net_W, econ)
+    except (ValueError, ArithmeticError) as exc:  # CostInputError is a ValueError
+        notes.append(f"costs not computed: {exc}")
+        return out
+    out.update(figures)
+    notes.extend(cost_notes)
+    return out
 
 
 def _warnings(layout: Layout, source, r: CycleResult, settings: CycleSettings | None = None) -> list[str]:

@@ -457,6 +457,7 @@ def write_outputs(out_dir: str | os.PathLike[str],
         "created_at": meta.get("created_at"),
         "updated_at": meta.get("updated_at"),
         "files": {"ranking": RANKING_FILE, "store": store.path.name},
+        "money": _money_info((meta.get("study") or {}).get("economics")),
     }
     _atomic_write(info_path, json.dumps(info, indent=2) + "\n")
     _WRITTEN.pop(store.path.resolve(), None)
@@ -464,6 +465,30 @@ def write_outputs(out_dir: str | os.PathLike[str],
         _WRITTEN.pop(next(iter(_WRITTEN)))
     _WRITTEN[store.path.resolve()] = (revision, _stamps(ranking_path, info_path), summary)
     return summary
+
+
+def _money_info(economics: dict | None) -> dict | None:
+    """What the investment_*, specific_investment_per_kW, lcoe_per_MWh and net_present_value
+    columns are in: the study's currency and cost year, the cost model and index, the annuity."""
+    if not economics:
+        return None
+    from .costs import CEPCI
+
+    year = economics.get("cost_year")
+    index = {**{str(y): v for y, v in CEPCI.items()}, **(economics.get("cost_index") or {})}
+    return {
+        "currency": economics.get("currency"),
+        "cost_year": year,
+        "cost_index_at_cost_year": index.get(str(year)),
+        "cost_model": economics.get("cost_model"),
+        "exchange_rates": economics.get("exchange_rates") or {},
+        "discount_rate": economics.get("discount_rate"),
+        "lifetime_years": economics.get("lifetime_years"),
+        "om_fraction": economics.get("om_fraction"),
+        "full_load_hours": economics.get("full_load_hours"),
+        "electricity_price_per_MWh": economics.get("electricity_price_per_MWh"),
+        "accuracy": "screening estimate, about +-30 % at best (Lemmens, Energies 9 (2016) 485); not a quotation",
+    }
 
 
 def _small_summary(table: pd.DataFrame, path: Path, store_path: Path,

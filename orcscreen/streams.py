@@ -603,6 +603,10 @@ class _CurveStream:
     default_pressure_bar: ClassVar[float | None] = None
     #: keys of the study's section that only some kinds take: these are this kind's
     own_keys: ClassVar[tuple[str, ...]] = ()
+    #: overall heat-transfer coefficients [W/(m2 K)] of the exchanger zones this stream flows
+    #: through (heater zones for a source, condenser zones for a sink), for areas from UA
+    #: (orcscreen.areas); the study's [exchangers] u_* keys override them
+    u_defaults_W_m2K: ClassVar[dict[str, float]] = {}
 
     @classmethod
     def settings_defaults(cls, section: Mapping[str, Any]) -> dict[str, Any]:
@@ -692,6 +696,10 @@ def _check_source(src) -> float:
     return min(T_low, src.T_in_K - 1.0)
 
 
+#: Overall heat-transfer coefficients [W/(m2 K)] of heater zones heated by a liquid (see HotWater).
+_LIQUID_SOURCE_U = {"preheating": 750.0, "evaporation": 1000.0, "superheating": 250.0, "supercritical heating": 650.0}
+
+
 @dataclass(frozen=True)
 class HotWater(_CurveStream):
     """Pressurised liquid water (IAPWS-95 via CoolProp "Water") cooled at constant pressure.
@@ -711,6 +719,11 @@ class HotWater(_CurveStream):
     kind: ClassVar[str] = "water"
     label: ClassVar[str] = "hot water"
     default_pressure_bar: ClassVar[float] = 10.0
+    #: a liquid heating an evaporating organic fluid: midpoints of the ranges of DiPippo,
+    #: *Geothermal Power Plants*, Table 8.1 (refrigerant evaporating-brine or -water 170-850) and
+    #: of common ORC screening practice (preheater 500-1000, evaporator 600-1500, supercritical
+    #: heater 500-800; from memory); the superheater, vapour-side limited, 250 (from memory)
+    u_defaults_W_m2K: ClassVar[dict[str, float]] = _LIQUID_SOURCE_U
 
     def __post_init__(self):
         T_low = _check_source(self)
@@ -847,6 +860,11 @@ class Brine(_LinearCpLiquid):
     kind: ClassVar[str] = "brine"
     label: ClassVar[str] = "brine"
     default_pressure_bar: ClassVar[float] = 10.0
+    #: a liquid heating an evaporating organic fluid: midpoints of the ranges of DiPippo,
+    #: *Geothermal Power Plants*, Table 8.1 (refrigerant evaporating-brine or -water 170-850) and
+    #: of common ORC screening practice (preheater 500-1000, evaporator 600-1500, supercritical
+    #: heater 500-800; from memory); the superheater, vapour-side limited, 250 (from memory)
+    u_defaults_W_m2K: ClassVar[dict[str, float]] = _LIQUID_SOURCE_U
     default_cp_kJ_kgK: ClassVar[float] = 3.8
 
 
@@ -862,6 +880,9 @@ class ThermalOil(_LinearCpLiquid):
     kind: ClassVar[str] = "thermal-oil"
     label: ClassVar[str] = "thermal oil"
     default_pressure_bar: ClassVar[float] = 5.0
+    #: a viscous oil film limits the transfer: about half the liquid values (from memory)
+    u_defaults_W_m2K: ClassVar[dict[str, float]] = {
+        "preheating": 400.0, "evaporation": 500.0, "superheating": 200.0, "supercritical heating": 400.0}
     default_cp_kJ_kgK: ClassVar[float] = 2.3
 
 
@@ -889,6 +910,10 @@ class FlueGas(_CurveStream):
     kind: ClassVar[str] = "flue-gas"
     label: ClassVar[str] = "flue gas"
     default_pressure_bar: ClassVar[float] = 1.01325
+    #: the gas side limits every zone: 50 on the bare-tube area, within DiPippo, *Geothermal
+    #: Power Plants*, Table 8.1, steam-gases 30-285 (our choice, low for a low-velocity gas)
+    u_defaults_W_m2K: ClassVar[dict[str, float]] = dict.fromkeys(
+        ("preheating", "evaporation", "superheating", "supercritical heating"), 50.0)
 
     def __post_init__(self):
         _check_source(self)
@@ -986,6 +1011,8 @@ class FluidSource(_CurveStream):
     kind: ClassVar[str] = "fluid"
     label: ClassVar[str] = "fluid"
     default_pressure_bar: ClassVar[float | None] = None
+    #: as a liquid source (a condensing vapour source transfers better: conservative)
+    u_defaults_W_m2K: ClassVar[dict[str, float]] = _LIQUID_SOURCE_U
 
     def __post_init__(self):
         try:
@@ -1110,11 +1137,59 @@ class FluidSource(_CurveStream):
 # -- sinks ---------------------------------------------------------------------------------------
 
 
+#: Standard acceleration of gravity [m/s2] (CGPM 1901, exact by definition).
+G_STANDARD_M_S2 = 9.80665
+
+
 class _Sink(_CurveStream):
-    """Shared sink behaviour: fixed temperature rise, flow from the heat duty."""
+    """Shared sink behaviour: fixed temperature rise, flow from the heat duty, and the power of
+    its fans or pumps.
+
+    Auxiliary power: ``aux_J_kg`` is the work per kg of sink flow [J/kg] that moves it (a fan's
+    or a pump's, set by the kind from its own keys), so the power per W rejected is
+    aux_J_kg / (h_out - h_in) and the power W_aux = m_sink aux_J_kg. A study may instead give a
+    fixed ``aux_power_per_kW_rejected`` (``fixed_aux_per_W``, NaN when not given).
+    """
 
     T_in_K: float
     rise_K: float
+    #: default efficiency of the fan or pump with its motor and drive [-] (the kind's)
+    default_aux_efficiency: ClassVar[float]
+
+    def aux_power_per_W_rejected(self) -> float:
+        """Fan or pump power per W of heat rejected [-]: the fixed fraction when the study gives
+        one, else aux_J_kg / (h_out - h_in)."""
+        if not math.isnan(self.fixed_aux_per_W):
+            return self.fixed_aux_per_W
+        return self.aux_J_kg / (self.h_out_J_kg - self.h_in_J_kg)
+
+    @classmethod
+    def aux_work_J_kg(cls, section: Mapping[str, Any], T_in_K: float, p_Pa: float) -> float:
+        """Work per kg of sink flow [J/kg] of the fans or pumps, from the kind's own keys."""
+        raise NotImplementedError
+
+    @classmethod
+    def settings_problems(cls, section: Mapping[str, Any], where: str, show) -> tuple[list[str], dict[str, Any]]:
+        """A fixed auxiliary fraction replaces the kind's fan or pump model: not both."""
+        if section.get("aux_power_per_kW_rejected") is None:
+            return [], {}
+        given = [k for k in cls.own_keys if section.get(k) is not None and section.get(k) != cls.own_defaults.get(k)]
+        if section.get("aux_efficiency") not in (None, cls.default_aux_efficiency):
+            given.append("aux_efficiency")
+        if given:
+            return [f"{where}.aux_power_per_kW_rejected = {show(section['aux_power_per_kW_rejected'])}: a fixed "
+                    f"fraction replaces the {cls.label} model, so {', '.join(f'{where}.{k}' for k in given)} would be "
+                    f"ignored; allowed: one of the two"], {}
+        return [], {}
+
+    @classmethod
+    def settings_defaults(cls, section: Mapping[str, Any]) -> dict[str, Any]:
+        """The kind's pressure, auxiliary efficiency and own keys where the study left them out."""
+        out = super().settings_defaults(section)
+        if section.get("aux_efficiency") is None:
+            out["aux_efficiency"] = cls.default_aux_efficiency
+        out.update({k: v for k, v in cls.own_defaults.items() if section.get(k) is None})
+        return out
 
     @property
     def T_out_K(self) -> float:
@@ -1143,7 +1218,13 @@ class _Sink(_CurveStream):
         T_in = _read(section, "inlet_temperature_C", 20.0, where="sink") + ZERO_CELSIUS_K
         rise = _read(section, "temperature_rise_K", 10.0, positive=True, where="sink")
         p = _read(section, "pressure_bar", cls.default_pressure_bar, positive=True, where="sink") * 1e5
-        return cls(T_in, rise, p)
+        fixed = section.get("aux_power_per_kW_rejected")
+        fixed = math.nan if fixed is None else _read(section, "aux_power_per_kW_rejected", None, where="sink")
+        if fixed < 0.0:
+            raise StreamError(f"sink.aux_power_per_kW_rejected = {fixed!r}: must be >= 0")
+        aux = 0.0 if not math.isnan(fixed) else cls.aux_work_J_kg({**cls.settings_defaults(section), **{
+            k: v for k, v in section.items() if v is not None}}, T_in, p)
+        return cls(T_in, rise, p, aux_J_kg=aux, fixed_aux_per_W=fixed)
 
 
 @dataclass(frozen=True)
@@ -1154,10 +1235,37 @@ class CoolingWater(_Sink):
     rise_K: float
     p_Pa: float
     m_kg_s: float = math.nan
+    aux_J_kg: float = 0.0
+    fixed_aux_per_W: float = math.nan
 
     kind: ClassVar[str] = "water"
     label: ClassVar[str] = "cooling water"
     default_pressure_bar: ClassVar[float] = 2.0
+    own_keys: ClassVar[tuple[str, ...]] = ("pump_head_m",)
+    #: pump head of the cooling-water circuit [m]: the condenser, piping and a cooling tower's
+    #: lift, 10-20 m in plants of this size (from memory; a study setting)
+    own_defaults: ClassVar[dict[str, float]] = {"pump_head_m": 15.0}
+    #: organic vapour condensing against water: DiPippo, *Geothermal Power Plants*, Table 8.1,
+    #: refrigerant condensing-water 450-850 (the midpoint); desuperheating, vapour-side limited,
+    #: 250, and subcooling 500 (from memory)
+    u_defaults_W_m2K: ClassVar[dict[str, float]] = {"desuperheating": 250.0, "condensation": 650.0, "subcooling": 500.0}
+    #: the cost models' kind of condenser, and the area its U values are on
+    condenser_cost_kind: ClassVar[str] = "condenser"
+    area_basis: ClassVar[str] = "bare tube"
+    #: area on the basis the U values are on / bare-tube area
+    finned_to_bare_area_ratio: ClassVar[float] = 1.0
+    #: pump with motor (from memory: 0.75 for a centrifugal cooling-water pump and motor)
+    default_aux_efficiency: ClassVar[float] = 0.75
+
+    @classmethod
+    def aux_work_J_kg(cls, section: Mapping[str, Any], T_in_K: float, p_Pa: float) -> float:
+        """Pump work per kg of cooling water [J/kg] = g H / eta (head H [m], eta with the motor)."""
+        head = _read(section, "pump_head_m", None, where="sink")
+        eta = _read(section, "aux_efficiency", None, positive=True, where="sink")
+        if head < 0.0 or eta > 1.0:
+            raise StreamError(f"sink: pump_head_m = {head!r}, aux_efficiency = {eta!r}: allowed a head >= 0 and "
+                              f"an efficiency in (0, 1]")
+        return G_STANDARD_M_S2 * head / eta
 
     @classmethod
     def point_problems(cls, values: Mapping[str, Any], show) -> list[tuple[str, str, str]]:
@@ -1218,15 +1326,49 @@ class AmbientAir(_Sink):
     rise_K: float
     p_Pa: float
     m_kg_s: float = math.nan
+    aux_J_kg: float = 0.0
+    fixed_aux_per_W: float = math.nan
 
     kind: ClassVar[str] = "air"
     label: ClassVar[str] = "ambient air"
     default_pressure_bar: ClassVar[float] = 1.01325
+    own_keys: ClassVar[tuple[str, ...]] = ("fan_pressure_drop_Pa",)
+    #: air-side pressure drop of an air-cooled condenser's finned bundle and the fan's static
+    #: pressure [Pa]: designs run at about 100-200 Pa (from memory; a study setting)
+    own_defaults: ClassVar[dict[str, float]] = {"fan_pressure_drop_Pa": 150.0}
+    #: air-cooled condenser, on the finned area: DiPippo, *Geothermal Power Plants*, Table 8.1,
+    #: water-air 25-50 (35 in every zone: the air side limits)
+    u_defaults_W_m2K: ClassVar[dict[str, float]] = dict.fromkeys(("desuperheating", "condensation", "subcooling"), 35.0)
+    condenser_cost_kind: ClassVar[str] = "air_cooler"
+    area_basis: ClassVar[str] = "finned"
+    #: finned / bare-tube area of high-finned air-cooler tubes, about 15-25 (from memory)
+    finned_to_bare_area_ratio: ClassVar[float] = 20.0
+    #: fan with motor and drive, total-to-static (from memory: axial condenser fans 0.55-0.7)
+    default_aux_efficiency: ClassVar[float] = 0.6
+
+    @classmethod
+    def aux_work_J_kg(cls, section: Mapping[str, Any], T_in_K: float, p_Pa: float) -> float:
+        """Fan work per kg of air [J/kg] = dp / (rho_in eta): the air's volume flow at the inlet
+        times the pressure drop over the fan efficiency, with rho_in = p M / (R T) (ideal gas,
+        the dry-air composition of :data:`DRY_AIR_MOLE_FRACTIONS`)."""
+        dp = _read(section, "fan_pressure_drop_Pa", None, where="sink")
+        eta = _read(section, "aux_efficiency", None, positive=True, where="sink")
+        if dp < 0.0 or eta > 1.0:
+            raise StreamError(f"sink: fan_pressure_drop_Pa = {dp!r}, aux_efficiency = {eta!r}: allowed a pressure "
+                              f"drop >= 0 and an efficiency in (0, 1]")
+        return dp / (dry_air_density_kg_m3(T_in_K, p_Pa) * eta)
 
     def __post_init__(self):
         self._check_sink()
         y = _normalised_fractions(DRY_AIR_MOLE_FRACTIONS, "mole")
         self._set_curve(_gas_mixture_curve(tuple(sorted(y.items())), float(self.p_Pa)))
+
+
+def dry_air_density_kg_m3(T_K: float, p_Pa: float) -> float:
+    """Density of dry air [kg/m3] as an ideal gas of :data:`DRY_AIR_MOLE_FRACTIONS`: p M / (R T)."""
+    y = _normalised_fractions(DRY_AIR_MOLE_FRACTIONS, "mole")
+    M = sum(f * props.molar_mass_kg_mol(GAS_SPECIES[k]) for k, f in y.items())
+    return p_Pa * M / (R_UNIVERSAL_J_molK * T_K)
 
 
 # ---------------------------------------------------------------------------------------------

@@ -33,12 +33,16 @@ from pydantic import (
     PrivateAttr,
     TypeAdapter,
     ValidationError,
+    ValidationInfo,
+    create_model,
     field_validator,
     model_validator,
 )
 
 from orcscreen import cycles as _cycles  # the registries the schema reads (no CoolProp loaded)
 from orcscreen import streams as _streams
+from orcscreen import areas as _areas
+from orcscreen import costs as _costs
 from orcscreen import turbine as _turbine
 
 __all__ = [
@@ -228,8 +232,21 @@ class SinkSection(_Section):
     pressure_bar: Optional[float] = _f(
         None, f"Sink pressure [bar]. Default {_kinds_text(_DEFAULT_SINK_PRESSURE_bar, 'bar')}.", "a number > 0", gt=0
     )
-    aux_power_per_kW_rejected: float = _f(
-        0.0, "Fan or pump power per kW of heat rejected [kW/kW].", "a number >= 0", ge=0
+    fan_pressure_drop_Pa: Optional[float] = _f(
+        None, "Air-side pressure drop the condenser fans overcome [Pa] (kind \"air\"; default 150, from memory): "
+        "fan power = air volume flow x pressure drop / aux_efficiency.", "a number >= 0", ge=0
+    )
+    pump_head_m: Optional[float] = _f(
+        None, "Head of the cooling-water pump [m] (kind \"water\"; default 15, from memory): pump power = "
+        "water flow x g x head / aux_efficiency.", "a number >= 0", ge=0
+    )
+    aux_efficiency: Optional[float] = _f(
+        None, "Efficiency of the fans or the cooling-water pump with motor and drive [-] (default: air 0.6, "
+        "water 0.75, from memory).", "a number in (0, 1]", gt=0, le=1
+    )
+    aux_power_per_kW_rejected: Optional[float] = _f(
+        None, "A fixed fan or pump power per kW of heat rejected [kW/kW], instead of the fan or pump model; "
+        "none by default.", "a number >= 0", ge=0
     )
 
     @model_validator(mode="before")
@@ -247,7 +264,7 @@ class SinkSection(_Section):
 
 
 class ExchangersSection(_Section):
-    """[exchangers]: pinch points and recuperator effectiveness."""
+    """[exchangers]: pinch points, recuperator effectiveness and the zones' heat-transfer coefficients."""
 
     pinch_evaporator_K: float = _f(10.0, "Minimum temperature difference in the evaporator [K].", "a number > 0", gt=0)
     pinch_condenser_K: float = _f(5.0, "Minimum temperature difference in the condenser [K].", "a number > 0", gt=0)
@@ -255,6 +272,15 @@ class ExchangersSection(_Section):
     recuperator_effectiveness: float = _f(
         0.8, "Recuperator effectiveness [-].", "a number in (0, 1]", gt=0, le=1
     )
+
+
+ExchangersSection = create_model(  # the pinch keys above and one U key per zone of orcscreen.areas
+    "ExchangersSection", __base__=ExchangersSection, __doc__=ExchangersSection.__doc__,
+    **{key: (Optional[float], _f(None, f"Overall heat-transfer coefficient of the {zone} zone [W/(m2 K)], for "
+                                   "areas from UA; default: the source's or sink's kind (see the README).",
+                                   "a number > 0", gt=0))
+       for zone, key in _areas.U_KEYS.items()},
+)
 
 
 class MachinesSection(_Section):
@@ -346,6 +372,103 @@ class CycleSection(_Section):
         return v
 
 
+COST_MODELS = tuple(_costs.COST_MODELS)
+
+
+def _currency_problem(code: Any) -> str | None:
+    """Why code is not an ISO 4217 currency code (pycountry's table), or None."""
+    import pycountry
+
+    if isinstance(code, str) and len(code) == 3 and code.isupper() and pycountry.currencies.get(alpha_3=code):
+        return None
+    near = _nearest(str(code).upper(), [c.alpha_3 for c in pycountry.currencies])
+    return f"unknown currency code {code!r}" + (f" (did you mean {near!r}?)" if near else "")
+
+
+class EconomicsSection(_Section):
+    """[economics]: what the plant costs and what its electricity costs (screening estimates)."""
+
+    cost_model: Literal[COST_MODELS] = _f(
+        "turbine-by-size-2014", "Plant-cost model (orcscreen.costs.COST_MODELS): \"turbine-by-size-2014\" (Astolfi "
+        "et al. 2014: exchangers by UA, turbine by size parameter and stages) or \"bare-module-2001\" (Turton et "
+        "al., Appendix A: by area and power).", _choices(COST_MODELS)
+    )
+    currency: str = _f("EUR", "Currency of the results, an ISO 4217 code (the default cost model's).",
+                       "an ISO 4217 code in capitals, such as EUR, USD, GBP")
+    exchange_rates: dict[str, float] = _f(
+        {}, "Units of the study's currency per unit of another currency, at the cost year (needed for every "
+        "currency a cost model prices in other than the study's, e.g. {USD = 0.92}).", "a table of ISO 4217 code = number > 0",
+        validate_default=True,
+    )
+    cost_index: dict[str, float] = _f(
+        {}, "Cost index values by year, over the built-in CEPCI annual averages (e.g. {\"2024\" = 800.0}).",
+        "a table of year = number > 0"
+    )
+    cost_year: int = _f(
+        2023, "Year whose money the results are in (cost index of that year; default: the last year of the "
+        "built-in CEPCI table).", "a year of the cost index table", ge=1900, le=2200, validate_default=True
+    )
+    discount_rate: float = _f(
+        0.07, "Discount rate per year, real [-] (common practice for screening).", "a number from 0 to 1", ge=0, le=1
+    )
+    lifetime_years: int = _f(25, "Economic lifetime [years] (common practice: 20-30).", "an integer from 1 to 100", ge=1, le=100)
+    om_fraction: float = _f(
+        0.02, "Operation and maintenance per year as a fraction of the investment [-] (common practice, from memory: "
+        "1.5-2.5 %).", "a number from 0 to 1", ge=0, le=1
+    )
+    full_load_hours: float = _f(
+        7500.0, "Full-load hours per year [h] (common practice for base-load heat recovery and geothermal plants).",
+        "a number > 0 and at most 8784", gt=0, le=8784
+    )
+    electricity_price_per_MWh: Optional[float] = _f(
+        None, "Price of the electricity sold [currency/MWh], for the net present value; none by default.", "a number >= 0", ge=0
+    )
+
+    @field_validator("currency")
+    @classmethod
+    def _currency(cls, v: str) -> str:
+        problem = _currency_problem(v)
+        if problem:
+            raise ValueError(problem)
+        return v
+
+    @field_validator("cost_index")
+    @classmethod
+    def _years(cls, v: dict[str, float]) -> dict[str, float]:
+        for year, value in v.items():
+            if not (year.isdigit() and 1900 <= int(year) <= 2200):
+                raise ValueError(f"cost index year {year!r} is not a year from 1900 to 2200")
+            if not (isinstance(value, (int, float)) and value > 0 and math.isfinite(value)):
+                raise ValueError(f"cost index of {year} = {value!r}: must be a number > 0")
+        return v
+
+    @field_validator("exchange_rates")
+    @classmethod
+    def _rates(cls, v: dict[str, float], info: ValidationInfo) -> dict[str, float]:
+        for code, value in v.items():
+            problem = _currency_problem(code)
+            if problem:
+                raise ValueError(problem)
+            if not (isinstance(value, (int, float)) and value > 0 and math.isfinite(value)):
+                raise ValueError(f"exchange rate of {code} = {value!r}: must be a number > 0")
+        model, currency = _costs.COST_MODELS.get(info.data.get("cost_model")), info.data.get("currency")
+        missing = [c for c in getattr(model, "currencies", ()) if currency and c != currency and c not in v]
+        if missing:
+            raise ValueError(f"the cost model {info.data['cost_model']!r} prices in {', '.join(model.currencies)} and "
+                             f"the results are in {currency}: give the rate for {', '.join(missing)} (units of "
+                             f"{currency} per unit)")
+        return v
+
+    @field_validator("cost_year")
+    @classmethod
+    def _cost_year(cls, v: int, info: ValidationInfo) -> int:
+        years = sorted({*_costs.CEPCI, *(int(y) for y in info.data.get("cost_index") or {})})
+        if v not in years:
+            raise ValueError(f"no cost index for it (the table has {', '.join(map(str, years))}; give the year's "
+                             "value in economics.cost_index)")
+        return v
+
+
 class FluidsSection(_Section):
     """[fluids]: which working fluids of the catalogue to screen."""
 
@@ -367,7 +490,7 @@ class FluidsSection(_Section):
         return _as_list(v)
 
 
-_CASE_SECTIONS = ("study", "source", "sink", "exchangers", "machines", "limits", "cycle")
+_CASE_SECTIONS = ("study", "source", "sink", "exchangers", "machines", "limits", "cycle", "economics")
 
 
 class Study(BaseModel):
@@ -390,6 +513,8 @@ class Study(BaseModel):
     machines: MachinesSection = Field(default_factory=MachinesSection, description="[machines] efficiencies.")
     limits: LimitsSection = Field(default_factory=LimitsSection, description="[limits] pressure and quality limits.")
     cycle: CycleSection = Field(default_factory=CycleSection, description="[cycle] layouts, superheat, subcooling.")
+    economics: EconomicsSection = Field(default_factory=EconomicsSection,
+                                        description="[economics] cost model, money, annuity (screening estimates).")
     fluid_filter: FluidsSection = Field(
         default_factory=FluidsSection, alias="fluids", description="[fluids] which fluids to screen."
     )
@@ -496,6 +621,7 @@ class Case:
     machines: MachinesSection
     limits: LimitsSection
     cycle: CycleSection
+    economics: EconomicsSection
     data: dict[str, Any] = dataclasses.field(repr=False, compare=False, default_factory=dict)
 
     def as_dict(self) -> dict[str, Any]:
@@ -546,6 +672,7 @@ _SECTION_MODELS: dict[str, type[BaseModel]] = {
     "machines": MachinesSection,
     "limits": LimitsSection,
     "cycle": CycleSection,
+    "economics": EconomicsSection,
     "fluids": FluidsSection,
 }
 _TOP_KEYS = ("schema_version", *_SECTION_MODELS, "sweep")
@@ -1077,53 +1204,57 @@ def _axis_bounds(spec: Any) -> list[Any]:
     return sorted({min(spec, key=key), max(spec, key=key)}, key=key)
 
 
-def _kinds_owning(key: str) -> list[str]:
-    """The source kinds that take a key only some kinds take (their classes' own_keys)."""
-    return [k for k, c in _streams.SOURCE_KINDS.items() if key in c.own_keys]
+_STREAM_KINDS = {"source": (_streams.SOURCE_KINDS, SourceSection), "sink": (_streams.SINK_KINDS, SinkSection)}
 
 
-#: Keys of [source] that only some kinds take, from the stream classes.
-_KIND_KEYS = tuple(dict.fromkeys(k for c in _streams.SOURCE_KINDS.values() for k in c.own_keys))
+def _kinds_owning(key: str, name: str = "source") -> list[str]:
+    """The source (or sink) kinds that take a key only some kinds take (their classes' own_keys)."""
+    return [k for k, c in _STREAM_KINDS[name][0].items() if key in c.own_keys]
+
+
+def _kind_keys(name: str) -> tuple[str, ...]:
+    """Keys of [source] or [sink] that only some kinds take, from the stream classes."""
+    return tuple(dict.fromkeys(k for c in _STREAM_KINDS[name][0].values() for k in c.own_keys))
 
 
 def _check_source_keys(study: Study, origin: str, errors: list[str]) -> Study:
-    """Rules between keys of [source] that do not vary with the sweep: keys that only other
-    kinds take, then the kind's own rules (orcscreen.streams); returns the study with the kind's
-    fixes applied (e.g. the flue-gas composition normalised, the source fluid name canonical)."""
-    src = study.source
-    kind = src.kind
-    model = _streams.SOURCE_KINDS[kind]
-    section = src.model_dump()
-    defaults = {name: fi.default for name, fi in SourceSection.model_fields.items()}
-    for key in _KIND_KEYS:
-        if key not in model.own_keys and section.get(key) != defaults.get(key):
-            owners = " or ".join(_kinds_owning(key))
-            errors.append(f"{origin}: source.{key} = {_show(section[key])}: only for kind {owners} "
-                          f"(this source is {kind!r}); allowed: leave it out")
-    problems, fixes = model.settings_problems(section, "source", _show)
-    errors.extend(f"{origin}: {p}" for p in problems)
-    if fixes and not problems:
-        study = study.model_copy(update={"source": src.model_copy(update=fixes)})
+    """Rules between keys of [source] and of [sink] that do not vary with the sweep: keys that
+    only other kinds take, then the kind's own rules (orcscreen.streams); returns the study with
+    the kind's fixes applied (e.g. the flue-gas composition normalised, the source fluid name
+    canonical)."""
+    for name, (kinds, section_model) in _STREAM_KINDS.items():
+        sec = getattr(study, name)
+        kind = sec.kind
+        model = kinds[kind]
+        section = sec.model_dump()
+        defaults = {k: fi.default for k, fi in section_model.model_fields.items()}
+        for key in _kind_keys(name):
+            if key not in model.own_keys and section.get(key) != defaults.get(key):
+                owners = " or ".join(_kinds_owning(key, name))
+                errors.append(f"{origin}: {name}.{key} = {_show(section[key])}: only for kind {owners} "
+                              f"(this {name} is {kind!r}); allowed: leave it out")
+        problems, fixes = model.settings_problems(section, name, _show)
+        errors.extend(f"{origin}: {p}" for p in problems)
+        if fixes and not problems:
+            study = study.model_copy(update={name: sec.model_copy(update=fixes)})
     return study
 
 
 def _check_swept_source_keys(study: Study, flat: dict[str, tuple[str, Any]], specs: dict[str, Any],
                              origin: str, errors: list[str]) -> None:
-    """A swept source setting must apply to the kind of source, as a written one must."""
-    kind = study.source.kind
-    model = _streams.SOURCE_KINDS[kind]
-    section = study.source.model_dump()
+    """A swept source (or sink) setting must apply to its kind, as a written one must."""
     for path in specs:
         section_name, _, key = path.partition(".")
-        if section_name != "source":
+        if section_name not in _STREAM_KINDS:
             continue
-        why = None
-        if key in _KIND_KEYS and key not in model.own_keys:
-            why = f"only for kind {' or '.join(_kinds_owning(key))}"
+        kind = getattr(study, section_name).kind
+        model = _STREAM_KINDS[section_name][0][kind]
+        if key in _kind_keys(section_name) and key not in model.own_keys:
+            why = f"only for kind {' or '.join(_kinds_owning(key, section_name))}"
         else:
-            why = model.swept_key_problem(key, section)
+            why = model.swept_key_problem(key, getattr(study, section_name).model_dump())
         if why:
-            errors.append(f"{origin}: {flat[path][0]}: {why} (this source is {kind!r}); allowed: "
+            errors.append(f"{origin}: {flat[path][0]}: {why} (this {section_name} is {kind!r}); allowed: "
                           f"leave this sweep out")
 
 

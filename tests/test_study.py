@@ -53,7 +53,8 @@ CONTRACT_DEFAULTS = {
                "cp_slope_kJ_kgK2": 0.0, "composition": None, "composition_basis": "mole",
                "fluid": None, "inlet_quality": None},
     "sink": {"kind": "water", "inlet_temperature_C": 20.0, "temperature_rise_K": 10.0,
-             "pressure_bar": 2.0, "aux_power_per_kW_rejected": 0.0},
+             "pressure_bar": 2.0, "pump_head_m": 15.0, "aux_efficiency": 0.75, "fan_pressure_drop_Pa": None,
+             "aux_power_per_kW_rejected": None},
     "exchangers": {"pinch_evaporator_K": 10.0, "pinch_condenser_K": 5.0, "pinch_recuperator_K": 10.0,
                    "recuperator_effectiveness": 0.8},
     "machines": {"turbine_model": "axial-sp-vr", "turbine_efficiency": 0.80, "max_turbine_stages": 3,
@@ -62,6 +63,9 @@ CONTRACT_DEFAULTS = {
                "min_turbine_outlet_quality": 0.9, "max_volume_ratio_per_stage": 10.0,
                "min_condensing_pressure_bar": None},
     "cycle": {"superheat_K": 0.0, "max_superheat_K": 50.0, "subcooling_K": 0.0, "reheat_temperature_C": None},
+    "economics": {"cost_model": "turbine-by-size-2014", "currency": "EUR", "cost_year": 2023, "cost_index": {},
+                  "exchange_rates": {}, "discount_rate": 0.07, "lifetime_years": 25, "om_fraction": 0.02,
+                  "full_load_hours": 7500.0, "electricity_price_per_MWh": None},
 }
 
 
@@ -70,7 +74,7 @@ def test_every_default_of_the_contract_is_filled_in_the_case():
     cases = [c.as_dict() for c in s.cases()]
     assert [c["layout"] for c in cases] == ["basic", "recuperated", "transcritical"]  # default layouts
     case = cases[0]
-    assert set(case) == {"study", "source", "sink", "exchangers", "machines", "limits", "cycle",
+    assert set(case) == {"study", "source", "sink", "exchangers", "machines", "limits", "cycle", "economics",
                          "fluid", "layout", "sweep"}
     for section, expected in CONTRACT_DEFAULTS.items():
         for key, value in expected.items():

@@ -163,8 +163,9 @@ def test_constant_model_reproduces_the_pinned_results():
     """Regression pins, not validation: the net power of every case of every shipped study
     (every 97th case of the large sweep), recorded at commit 3791a64, before the size-dependent
     models, when each study gave a constant turbine efficiency (kept in the pins file). With
-    turbine_model = "constant" and that efficiency, every case must come out the same: status,
-    and net power to 1e-9 relative."""
+    turbine_model = "constant" and that efficiency, and the sink's auxiliary power as it was
+    then (a fixed fraction per kW rejected, zero unless the study gave one), every case must
+    come out the same: status, and net power to 1e-9 relative."""
     from orcscreen.api import run_case
     from orcscreen.study import study_from_dict
 
@@ -174,6 +175,9 @@ def test_constant_model_reproduces_the_pinned_results():
         raw = tomllib.loads((TESTS.parent / "studies" / study_name).read_text(encoding="utf-8"))
         raw["machines"] = {**raw.get("machines", {}), "turbine_model": "constant",
                            "turbine_efficiency": pins["turbine_efficiency"][study_name]}
+        # the sink's fans and pumps as they were then: a fixed fraction, zero unless given
+        raw["sink"] = {**raw.get("sink", {}), "aux_power_per_kW_rejected": raw.get("sink", {}).get(
+            "aux_power_per_kW_rejected", 0.0)}
         raw["machines"].pop("max_turbine_stages", None)
         raw.get("limits", {}).pop("max_volume_ratio_per_stage", None)
         wanted = {(json.dumps(c["sweep"], sort_keys=True), c["fluid"], c["layout"]): c for c in cases}

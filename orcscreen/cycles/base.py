@@ -93,6 +93,11 @@ class CycleSettings:
     reheat_temperature_K: float | None = None
     max_turbine_inlet_temperature_K: float | None = None
     n_zone_segments: int = 20
+    #: overall heat-transfer coefficients [W/(m2 K)] by exchanger zone that the study gives
+    #: (orcscreen.areas.ZONES); the streams' defaults fill the rest
+    u_W_m2K: Mapping[str, float] = field(default_factory=dict, hash=False)
+    #: the case's economics (orcscreen.economics.Economics), None for none
+    economics: object = field(default=None, hash=False)
 
     def max_evaporation_pressure_Pa(self, fluid) -> float:
         """Highest allowed subcritical evaporation pressure [Pa]: min(p_max, r_max p_crit)."""
