@@ -312,3 +312,57 @@ def time_orcscreen(cases: list[dict], passes: int = 1, clear_memo: bool = False)
         "pass_wall_s": median(pass_wall),
         "opt_pass_wall_s": median(opt_pass_wall),
     }
+
+
+def paired_optimisations(studies: dict, passes: int, labels: tuple[str, str]) -> None:
+    """Time ``orcscreen.optimize.optimise`` alone on the same cases under two variants of a study
+    (``studies``: variant name -> Study, the baseline first), the variants of one case one after
+    the other in each pass so that a drift of the machine's speed hits them alike, after one
+    untimed pass; print per layout and over all the median time, the median evaluations, and
+    over the cases feasible in both the median of the per-case ratios (second / first) and total
+    over total. labels: the two variants' short names for the table."""
+    from orcscreen import fluids
+    from orcscreen.api import case_context
+    from orcscreen.cycles import LAYOUTS
+    from orcscreen.optimize import optimise
+
+    names = list(studies)
+    base, other = names
+    objects = {m: [(c, LAYOUTS[c.layout], case_context(c, fluids.get_info(c.fluid))) for c in s.cases()]
+               for m, s in studies.items()}
+    n = len(objects[base])
+    print(f"cases     {n} per variant, layouts {', '.join(studies[base].layouts)}")
+    results = {}
+    for m in names:  # cold pass
+        for c, layout, ctx in objects[m]:
+            results[(m, c.fluid, c.layout)] = optimise(layout, ctx)
+    times: dict[tuple, list[float]] = {}
+    for _ in range(passes):
+        for i in range(n):
+            for m in names:
+                c, layout, ctx = objects[m][i]
+                t0 = time.perf_counter()
+                optimise(layout, ctx)
+                times.setdefault((m, c.fluid, c.layout), []).append(time.perf_counter() - t0)
+    print(f"timing    {passes} timed passes after one untimed pass; per case the median\n")
+    med = {k: median(v) for k, v in times.items()}
+    ok = {k for k, r in results.items() if not isinstance(r, tuple)}
+
+    def evaluations(k):
+        r = results[k]
+        return r[2] if isinstance(r, tuple) else r.evaluations
+
+    a, b = labels
+    print(f"{'layout':<16}{'both ok':>8}{f'{a} ms':>14}{f'{b} ms':>12}{f'evals {a[0]}/{b[0]}':>11}"
+          f"{f'ratio {b}/{a}: median':>31}{'total':>8}")
+    for name in [*studies[base].layouts, "all"]:
+        keys = [(f, l) for (m, f, l) in med if m == base and (name == "all" or l == name)]
+        both = [k for k in keys if (base, *k) in ok and (other, *k) in ok]
+        if not both:
+            continue
+        ta = [med[(base, *k)] for k in both]
+        tb = [med[(other, *k)] for k in both]
+        ea = median([evaluations((base, *k)) for k in both])
+        eb = median([evaluations((other, *k)) for k in both])
+        print(f"{name:<16}{len(both):>8}{median(ta) * 1e3:>14.2f}{median(tb) * 1e3:>12.2f}{f'{ea:.0f}/{eb:.0f}':>11}"
+              f"{median([y / x for x, y in zip(ta, tb)]):>31.2f}{sum(tb) / sum(ta):>8.2f}")

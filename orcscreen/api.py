@@ -22,6 +22,8 @@ from . import streams
 from .cycles import LAYOUTS, CycleContext, CycleSettings
 from .areas import U_KEYS
 from .economics import Economics
+from .objectives import OBJECTIVES
+from .case_variables import optimised_or
 from .figures import ROW_COLUMNS, case_detail, empty_row, energy_figures, result_row
 from .optimize import optimise
 from .properties import PropertyError, get_fluid
@@ -39,8 +41,12 @@ def settings_from_case(case, info=None, sink=None) -> CycleSettings:
     if info is not None and info.max_temperature_C is not None:
         max_T3 = info.max_temperature_C + 273.15
     return CycleSettings(
-        pinch_evaporator_K=ex.pinch_evaporator_K,
-        pinch_condenser_K=ex.pinch_condenser_K,
+        pinch_evaporator_K=optimised_or(ex.pinch_evaporator_K, ex.min_pinch_K),
+        pinch_condenser_K=optimised_or(ex.pinch_condenser_K, ex.min_pinch_K),
+        pinch_evaporator_bounds_K=(ex.min_pinch_K, ex.max_pinch_K) if ex.pinch_evaporator_K == "optimise" else None,
+        pinch_condenser_bounds_K=(ex.min_pinch_K, ex.max_pinch_K) if ex.pinch_condenser_K == "optimise" else None,
+        sink_rise_bounds_K=((sk.min_temperature_rise_K, sk.max_temperature_rise_K)
+                            if sk.temperature_rise_K == "optimise" else None),
         pinch_recuperator_K=ex.pinch_recuperator_K,
         recuperator_effectiveness=ex.recuperator_effectiveness,
         pump_efficiency=ma.pump_efficiency,
@@ -63,6 +69,8 @@ def settings_from_case(case, info=None, sink=None) -> CycleSettings:
         max_turbine_inlet_temperature_K=max_T3,
         u_W_m2K={zone: getattr(ex, key) for zone, key in U_KEYS.items() if getattr(ex, key) is not None},
         economics=Economics.from_section(case.economics),
+        objective=OBJECTIVES[case.study.objective],
+        profiles_in_search=OBJECTIVES[case.study.objective].needs_costs,
     )
 
 

@@ -87,20 +87,27 @@ def segment_zones(profile: Profile, exchanger: str) -> tuple[str, ...]:
     A zeotropic mixture glides while changing phase: its zones would need labels from the
     path, not this rule.
     """
+    codes, names = _zone_codes(profile, exchanger)
+    return tuple(names[c] for c in codes)
+
+
+def _zone_codes(profile: Profile, exchanger: str) -> tuple[np.ndarray, tuple[str, str, str]]:
+    """(zone code of each segment: 0 before the first plateau, 1 on a plateau, 2 after it; the
+    names of the three codes) by the rule of :func:`segment_zones`."""
     rule = _rule(exchanger)
     n = len(profile.Q_W) - 1
     if rule.wf_side is None:
-        return (rule.plateau,) * n
-    T = np.asarray(getattr(profile, rule.wf_side), dtype=float)
+        return np.ones(n, dtype=np.intp), (rule.before, rule.plateau, rule.after)
+    T = getattr(profile, rule.wf_side)
     flat = (np.abs(np.diff(T)) <= PLATEAU_TOL_K) & (np.diff(profile.Q_W) > 0.0)
     if not flat.any():
         if rule.no_plateau is None:
             raise ValueError(f"the {exchanger} profile has no phase-change plateau (working-fluid temperature "
                              f"constant within {PLATEAU_TOL_K:g} K): zones need a pure fluid")
-        return (rule.no_plateau,) * n
+        return np.ones(n, dtype=np.intp), (rule.no_plateau,) * 3
     first = int(np.argmax(flat))
-    names = np.where(flat, rule.plateau, np.where(np.arange(n) < first, rule.before, rule.after))
-    return tuple(str(z) for z in names)
+    codes = np.where(flat, 1, np.where(np.arange(n) < first, 0, 2))
+    return codes, (rule.before, rule.plateau, rule.after)
 
 
 @dataclass(frozen=True)
@@ -120,6 +127,24 @@ class ExchangerArea:
         return self.ua_W_K / self.area_m2 if 0.0 < self.area_m2 < math.inf else math.nan
 
 
+def _segment_ua(profile: Profile) -> np.ndarray:
+    """UA_i = dQ_i / LMTD_i [W/K] of each segment; inf where a local difference is not positive,
+    0 where dQ_i = 0 (lmtd_K's arithmetic-mean limit for nearly equal ends)."""
+    dT = profile.T_hot_K - profile.T_cold_K
+    dQ = np.diff(profile.Q_W)
+    if dT.min() <= 0.0 or not dQ.all():  # rare: the general form
+        bad = (dT[:-1] <= 0.0) | (dT[1:] <= 0.0)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            return np.where(bad, math.inf, np.where(dQ == 0.0, 0.0, dQ / lmtd_K(dT[:-1], dT[1:])))
+    a, b = dT[:-1], dT[1:]
+    ratio = a / b
+    log = np.log(ratio)
+    near = np.abs(ratio - 1.0) < 1e-6
+    if near.any():
+        return dQ / np.where(near, 0.5 * (a + b), (a - b) / np.where(near, 1.0, log))
+    return dQ * log / (a - b)
+
+
 def exchanger_area(profile: Profile, exchanger: str, U_W_m2K: Mapping[str, float]) -> ExchangerArea:
     """Area of an exchanger from its profile and the overall coefficients U_W_m2K [W/(m² K)] by zone.
 
@@ -129,29 +154,29 @@ def exchanger_area(profile: Profile, exchanger: str, U_W_m2K: Mapping[str, float
     are infinite (as :func:`orcscreen.exchangers.ua_W_K`). Raises KeyError for a zone of the
     profile missing from U_W_m2K, ValueError for a U that is not a positive number.
     """
-    zones = np.array(segment_zones(profile, exchanger), dtype=object)
-    present = [z for z in ZONES if np.any(zones == z)]
-    missing = [z for z in present if z not in U_W_m2K]
+    codes, names = _zone_codes(profile, exchanger)
+    ua = _segment_ua(profile)
+    ua_by_code = np.bincount(codes, weights=ua, minlength=3)
+    seen = np.bincount(codes, minlength=3) > 0
+    by_code: dict[str, float] = {}
+    for k in range(3):
+        if seen[k]:
+            by_code[names[k]] = by_code.get(names[k], 0.0) + float(ua_by_code[k])
+    missing = [z for z in by_code if z not in U_W_m2K]
     if missing:
         raise KeyError(f"no overall heat-transfer coefficient U [W/(m² K)] for zone(s) {', '.join(missing)} "
                        f"of the {exchanger}; given: {', '.join(U_W_m2K) or 'none'}")
-    U = {}
-    for z in present:
-        try:
-            U[z] = float(U_W_m2K[z])
-        except (TypeError, ValueError):
-            U[z] = math.nan
-        if not (math.isfinite(U[z]) and U[z] > 0.0):
-            raise ValueError(f"U for zone {z!r} = {U_W_m2K[z]!r}: must be a positive number [W/(m² K)]")
-    dT = profile.approach_K
-    dQ = np.diff(profile.Q_W)
-    bad = (dT[:-1] <= 0.0) | (dT[1:] <= 0.0)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        ua = np.where(bad, math.inf, np.where(dQ == 0.0, 0.0, dQ / lmtd_K(dT[:-1], dT[1:])))
     by_zone = {}
-    for z in present:
-        ua_z = float(np.sum(ua[zones == z]))
-        by_zone[z] = (ua_z, ua_z / U[z])
+    for z in ZONES:
+        if z not in by_code:
+            continue
+        try:
+            U = float(U_W_m2K[z])
+        except (TypeError, ValueError):
+            U = math.nan
+        if not (math.isfinite(U) and U > 0.0):
+            raise ValueError(f"U for zone {z!r} = {U_W_m2K[z]!r}: must be a positive number [W/(m² K)]")
+        by_zone[z] = (by_code[z], by_code[z] / U)
     return ExchangerArea(exchanger, sum(a for _, a in by_zone.values()), sum(u for u, _ in by_zone.values()), by_zone)
 
 

@@ -26,10 +26,10 @@ import math
 from collections.abc import Mapping
 from dataclasses import dataclass, field
 
-from . import costs
+from . import areas, costs
 from .cycles import LAYOUTS
 
-__all__ = ["Economics", "COMPONENTS", "ECONOMIC_COLUMNS", "economic_figures", "plant_for_cost"]
+__all__ = ["Economics", "COMPONENTS", "ECONOMIC_COLUMNS", "economic_figures", "plant_for_cost", "areas_and_costs"]
 
 #: Exchanger of the result (CycleResult.profiles) -> kind the cost models know; the condenser's
 #: depends on the sink. An exchanger not here (the bleed layout's open feed heater, a vessel
@@ -144,3 +144,32 @@ def economic_figures(plant: costs.PlantForCost, W_net_W: float, econ: Economics)
         "net_present_value": math.nan if price is None else (price * energy_MWh - om) / crf - total,
     })
     return out, warnings
+
+
+def areas_and_costs(r, source, sink, settings, notes: list[str]) -> tuple[dict, dict]:
+    """(columns, areas) of an evaluated cycle r: the area of each exchanger [m2] (U values:
+    orcscreen.areas' defaults, then the source's and sink's kinds, then the study's), the
+    condenser's area basis and, with the settings' economics, the investment and LCOE columns
+    (:func:`economic_figures`). What cannot be computed becomes a line of notes, never an error
+    of the case; its columns stay out (NaN in a row)."""
+    out: dict = {"condenser_area_basis": getattr(sink, "area_basis", "")}
+    U = {**areas.DEFAULT_U_W_m2K, **getattr(source, "u_defaults_W_m2K", {}), **getattr(sink, "u_defaults_W_m2K", {}),
+         **(getattr(settings, "u_W_m2K", None) or {})}
+    try:
+        found = areas.exchanger_areas({k: p for k, p in r.profiles.items() if k in areas.EXCHANGERS}, U)
+    except (KeyError, ValueError) as exc:
+        notes.append(f"areas not computed: {exc}")
+        return out, {}
+    out.update({f"area_{k}_m2": a.area_m2 for k, a in found.items()})
+    econ = getattr(settings, "economics", None)
+    if econ is None or sink is None:
+        return out, found
+    try:
+        plant = plant_for_cost(r, found, sink.condenser_cost_kind, sink.finned_to_bare_area_ratio)
+        figures, cost_notes = economic_figures(plant, r.W_net_W, econ)
+    except (ValueError, ArithmeticError) as exc:  # CostInputError is a ValueError
+        notes.append(f"costs not computed: {exc}")
+        return out, found
+    out.update(figures)
+    notes.extend(cost_notes)
+    return out, found

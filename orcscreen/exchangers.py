@@ -44,6 +44,7 @@ __all__ = [
     "heater_flow",
     "heater_profile",
     "condenser_approach",
+    "condenser_points",
     "solve_condensing_temperature",
     "COND_TOL_FAST_K",
     "recuperate",
@@ -276,18 +277,25 @@ def condenser_approach(fluid, sink, cs, n: int, exact: bool):
     """
     if exact and cs.cond_check is not None:
         return cs.cond_check
-    path = condensing_path(fluid, cs.sat, cs.s1, cs.condenser_inlet, n, exact)
-    h, T, labels = path.h, path.T_K, path.labels
-    frac = (h - h[0]) / (h[-1] - h[0])
-    hs_in = sink.h_in_J_kg
-    hs_out = sink.h_out_J_kg
-    T_sink = sink.T_K(hs_in + frac * (hs_out - hs_in))
+    h, T, T_sink, labels = condenser_points(fluid, sink, cs, n, exact)
     dT = T - T_sink
     j = int(dT.argmin())
     out = float(dT[j]), labels[j], (h, T, T_sink)
     if exact:
         cs.cond_check = out
     return out
+
+
+def condenser_points(fluid, sink, cs, n: int, exact: bool):
+    """(h [J/kg], T_wf [K], T_sink [K], labels) along the condenser of cold side cs, from its cold
+    end: the condensing path (n segments per single-phase zone when exact) against the sink,
+    whose enthalpy rises in proportion to the duty."""
+    path = condensing_path(fluid, cs.sat, cs.s1, cs.condenser_inlet, n, exact)
+    h, T = path.h, path.T_K
+    frac = (h - h[0]) / (h[-1] - h[0])
+    hs_in = sink.h_in_J_kg
+    T_sink = sink.T_K(hs_in + frac * (sink.h_out_J_kg - hs_in))
+    return h, T, T_sink, path.labels
 
 
 def solve_condensing_temperature(fluid, sink, cold_side, pinch_K: float, T_floor_K: float, T_ceiling_K: float,

@@ -31,7 +31,7 @@ COMMON_COLUMNS = (
     "condensing_pressure_bar", "condensing_temperature_C", "superheat_K",
     "turbine_inlet_pressure_bar", "turbine_inlet_temperature_C", "turbine_outlet_temperature_C",
     "turbine_outlet_quality", "wf_mass_flow_kg_s", "sink_mass_flow_kg_s", "source_outlet_temperature_C",
-    "pinch_location", "pinch_evaporator_K", "pinch_condenser_K", "pinch_recuperator_K", "ua_evaporator_kW_K",
+    "sink_temperature_rise_K", "pinch_location", "pinch_evaporator_K", "pinch_condenser_K", "pinch_recuperator_K", "ua_evaporator_kW_K",
     "ua_condenser_kW_K", "ua_recuperator_kW_K", "ua_total_kW_K", "size_parameter_m",
     "volume_ratio", "turbine_model", "turbine_stages", "volume_ratio_per_stage", "turbine_efficiency",
     *AREA_COLUMNS, "condenser_area_basis", *ECONOMIC_COLUMNS,
@@ -137,6 +137,7 @@ def result_row(fluid_name: str, layout: Layout, info, fluid, source, sink, r: Cy
         "wf_mass_flow_kg_s": r.m_wf_kg_s,
         "sink_mass_flow_kg_s": r.m_sink_kg_s,
         "source_outlet_temperature_C": r.T_source_out_K - 273.15,
+        "sink_temperature_rise_K": r.variables.get("sink_temperature_rise_K", getattr(sink, "rise_K", math.nan)),
         "pinch_location": r.pinch_location,
         "pinch_evaporator_K": approach.get("evaporator", math.nan),
         "pinch_condenser_K": approach.get("condenser", math.nan),
@@ -158,37 +159,10 @@ def result_row(fluid_name: str, layout: Layout, info, fluid, source, sink, r: Cy
     })
     row.update({k: v for k, v in r.figures.items() if k in layout.columns})
     notes = _warnings(layout, source, r, settings)
-    row.update(_areas_and_costs(r, source, sink, settings, notes))
+    row.update(economics.areas_and_costs(r, source, sink, settings, notes)[0])
     row["warnings"] = "; ".join(notes)
     _add_fluid_columns(row, info)
     return {k: row[k] for k in ROW_COLUMNS}
-
-
-def _areas_and_costs(r: CycleResult, source, sink, settings, notes: list[str]) -> dict:
-    """Area columns (U values: areas' defaults, then the source's and sink's kinds, then the
-    study's) and, with the case's economics, the investment and LCOE columns; what cannot be
-    computed is a note, never an error of the case."""
-    out: dict = {"condenser_area_basis": getattr(sink, "area_basis", "")}
-    U = {**areas.DEFAULT_U_W_m2K, **getattr(source, "u_defaults_W_m2K", {}), **getattr(sink, "u_defaults_W_m2K", {}),
-         **(getattr(settings, "u_W_m2K", None) or {})}
-    try:
-        found = areas.exchanger_areas({k: p for k, p in r.profiles.items() if k in areas.EXCHANGERS}, U)
-    except (KeyError, ValueError) as exc:
-        notes.append(f"areas not computed: {exc}")
-        return out
-    out.update({f"area_{k}_m2": a.area_m2 for k, a in found.items()})
-    econ = getattr(settings, "economics", None)
-    if econ is None:
-        return out
-    try:
-        plant = economics.plant_for_cost(r, found, sink.condenser_cost_kind, sink.finned_to_bare_area_ratio)
-        figures, cost_notes = economics.economic_figures(plant, r.W_net_W, econ)
-    except (ValueError, ArithmeticError) as exc:  # CostInputError is a ValueError
-        notes.append(f"costs not computed: {exc}")
-        return out
-    out.update(figures)
-    notes.extend(cost_notes)
-    return out
 
 
 def _warnings(layout: Layout, source, r: CycleResult, settings: CycleSettings | None = None) -> list[str]:

@@ -6,8 +6,8 @@ column per dotted study path), ``rank``, the engine's row columns (contract sect
 order, without the timing column ``elapsed_s`` so that two runs give byte-identical files), then
 the constant columns ``orcscreen_version``, ``coolprop_version`` and ``study_hash`` that keep the
 file self-describing. Rows are sorted by operating point (the swept values, in case order), then
-by rank; cases that are not ok follow the ranked ones of their operating point in case order.
-Floats are written with 6 significant digits (``%.6g``).
+by rank (by the study's objective, orcscreen.objectives: net power by default); cases that are
+not ok follow the ranked ones of their operating point in case order. Floats are written with 6 significant digits (``%.6g``).
 
 :func:`write_outputs` streams: a first pass over the store keeps only what ranking needs (swept
 values, status, net power, fluid, layout: about a hundred bytes per case) and the kinds of values
@@ -33,6 +33,7 @@ from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
 from orcscreen import store as _store
+from orcscreen.objectives import DEFAULT_OBJECTIVE, OBJECTIVES, Objective
 from orcscreen.safe_files import atomic_write, atomic_writer
 from orcscreen.store import (
     ColumnKinds,
@@ -74,7 +75,7 @@ _VERSION_COLUMNS = ("orcscreen_version", "coolprop_version", "study_hash")
 _STORE_ONLY = ("case_key", "case_index", "case_elapsed_s", "finished_at")
 #: Row columns the ranking order needs, and with the integer columns the first pass of
 #: write_outputs.
-_RANK_KEYS = ("status", "net_power_kW", "fluid", "layout")
+_RANK_KEYS = ("status", *dict.fromkeys(o.column for o in OBJECTIVES.values()), "fluid", "layout")
 _RANKING_INPUTS = (*_RANK_KEYS, *_INTEGER_COLUMNS)
 
 
@@ -107,9 +108,28 @@ def _row_columns_of(columns: list[str], sweep_cols: list[str]) -> list[str]:
     return [c for c in (*engine_columns, *extra) if c not in TIMING_COLUMNS]
 
 
-def _ranked_order(df: pd.DataFrame, sweep_cols: list[str]) -> pd.DataFrame:
+def _objective_of(meta: dict | None) -> Objective:
+    """The study's objective (orcscreen.objectives), from a store's meta; net power by default."""
+    name = (((meta or {}).get("study") or {}).get("study") or {}).get("objective")
+    return OBJECTIVES.get(name) or OBJECTIVES[DEFAULT_OBJECTIVE]
+
+
+def _objective_key(df: pd.DataFrame, objective: Objective):
+    """Sort key of the objective's column: smaller first (negated when larger is better); a
+    missing value last."""
+    import numpy as np
+    import pandas as pd
+
+    value = pd.to_numeric(df[objective.column], errors="coerce").astype(float) if objective.column in df else \
+        pd.Series(np.nan, index=df.index)
+    key = -value if objective.maximise else value
+    return key.where(np.isfinite(key), np.inf)
+
+
+def _ranked_order(df: pd.DataFrame, sweep_cols: list[str], objective: Objective | None = None) -> pd.DataFrame:
     """``df`` sorted into ranking order with its ``rank`` (Int64, <NA> when not ranked) and its
-    operating point number ``_point`` (see :func:`ranking_table`)."""
+    operating point number ``_point`` (see :func:`ranking_table`); by the objective's column
+    (net power by default)."""
     import numpy as np
     import pandas as pd
 
@@ -126,7 +146,7 @@ def _ranked_order(df: pd.DataFrame, sweep_cols: list[str]) -> pd.DataFrame:
     ranked = (df["status"] == "ok") & np.isfinite(power)
     df["_point"] = point
     df["_ranked"] = ~ranked  # False sorts first
-    df["_power"] = -power.where(ranked, 0.0)
+    df["_power"] = _objective_key(df, objective or OBJECTIVES[DEFAULT_OBJECTIVE]).where(ranked, 0.0)
     df["_fluid"] = df["fluid"].astype(str)
     df["_layout"] = df["layout"].astype(str)
     df["_order"] = df["case_index"] if "case_index" in df else df.index
@@ -185,7 +205,7 @@ def ranking_table(rows: pd.DataFrame, meta: dict | None = None, *,
     if not all_columns:
         row_cols = [c for c in row_cols if c in df]
     whole = {c: _whole_numbers(df[c]) for c in _INTEGER_COLUMNS if c in df}
-    return _finish(_ranked_order(df, sweep_cols), sweep_cols, row_cols, meta, whole)
+    return _finish(_ranked_order(df, sweep_cols, _objective_of(meta)), sweep_cols, row_cols, meta, whole)
 
 
 @dataclass
@@ -211,6 +231,8 @@ class RankingSummary:
     kept: int = TOP_KEPT
     leaders: Any = None
     best: Any = None
+    #: the objective the rows are ranked by (orcscreen.objectives.Objective)
+    objective: Any = None
 
     @property
     def empty(self) -> bool:
@@ -231,8 +253,9 @@ _NAN = object()  # one stand-in for every NaN swept value (NaN != NaN, drop_dupl
 class _Tally:
     """Running figures of the rows written, for a :class:`RankingSummary`."""
 
-    def __init__(self, sweep_cols: list[str], keep: int) -> None:
+    def __init__(self, sweep_cols: list[str], keep: int, objective: Objective | None = None) -> None:
         self.sweep_cols, self.keep = sweep_cols, keep
+        self.objective = objective or OBJECTIVES[DEFAULT_OBJECTIVE]
         self.cases = 0
         self.status: dict[str, int] = {}
         self.values: dict[str, set] = {c: set() for c in sweep_cols}
@@ -259,7 +282,7 @@ class _Tally:
             more = ok.head(self.keep - (0 if self.leaders is None else len(self.leaders)))
             self.leaders = more if self.leaders is None else pd.concat([self.leaders, more])
         both = ok if self.best is None else pd.concat([self.best, ok])
-        self.best = _by_power(both).head(self.keep)
+        self.best = _by_objective(both, self.objective).head(self.keep)
 
     def summary(self, path: Path, store_path: Path, columns: list[str]) -> RankingSummary:
         varying = [c for c in self.sweep_cols if self.cases and len(self.values[c]) > 1]
@@ -272,14 +295,12 @@ class _Tally:
                               columns=columns, status_counts=dict(self.status),
                               sweep_columns=list(self.sweep_cols), varying=varying,
                               points=points, ranked=self.ranked, kept=self.keep,
-                              leaders=self.leaders, best=self.best)
+                              leaders=self.leaders, best=self.best, objective=self.objective)
 
 
-def _by_power(ok: pd.DataFrame) -> pd.DataFrame:
-    """Ranked rows by net power descending, then fluid, then layout; stable (file order)."""
-    import pandas as pd
-
-    return (ok.assign(_p=-pd.to_numeric(ok["net_power_kW"]))
+def _by_objective(ok: pd.DataFrame, objective: Objective) -> pd.DataFrame:
+    """Ranked rows by the objective (best first), then fluid, then layout; stable (file order)."""
+    return (ok.assign(_p=_objective_key(ok, objective))
             .sort_values(["_p", "fluid", "layout"], kind="mergesort").drop(columns="_p"))
 
 
@@ -338,14 +359,14 @@ def _stream_ranking(store: RunStore, meta: dict, target: Path | None,
         if col not in small:
             small[col] = None
     whole = {c: _whole_numbers(small[c]) for c in _INTEGER_COLUMNS}
-    order = _ranked_order(small, sweep_cols)[["case_index", "_point", "rank"]]
+    order = _ranked_order(small, sweep_cols, _objective_of(meta))[["case_index", "_point", "rank"]]
     del small
     if kept is not None:
         kept = pd.concat(kept, ignore_index=True).reindex(columns=columns)
         kept_index = kept["case_index"].to_numpy(dtype="int64")  # ascending: case order
 
     # Pass 2: whole operating points, about ROWS_CHUNK rows at a time, in ranking order.
-    tally = _Tally(sweep_cols, keep)
+    tally = _Tally(sweep_cols, keep, _objective_of(meta))
     with contextlib.ExitStack() as stack:
         # written to a temporary file created without following links, renamed at the end
         out = None if target is None else stack.enter_context(atomic_writer(target))
@@ -386,7 +407,7 @@ def _whole_ranking(store: RunStore, meta: dict, target: Path | None,
     if target is not None:
         _atomic_write(target, table.to_csv(index=False, float_format=FLOAT_FORMAT,
                                            lineterminator="\n"))
-    return _small_summary(table, target or store.directory / RANKING_FILE, store.path, keep)
+    return _small_summary(table, target or store.directory / RANKING_FILE, store.path, keep, _objective_of(meta))
 
 
 def _point_slices(order: pd.DataFrame):
@@ -492,10 +513,10 @@ def _money_info(economics: dict | None) -> dict | None:
 
 
 def _small_summary(table: pd.DataFrame, path: Path, store_path: Path,
-                   keep: int | None = None) -> RankingSummary:
+                   keep: int | None = None, objective: Objective | None = None) -> RankingSummary:
     """The summary of a ranking table held in memory."""
     keep = keep or TOP_KEPT
-    tally = _Tally(ranking_sweep_columns(table), keep)
+    tally = _Tally(ranking_sweep_columns(table), keep, objective)
     if len(table):
         tally.add(table)
     summary = tally.summary(path, store_path, list(table.columns))
@@ -528,7 +549,7 @@ def top_table(table: pd.DataFrame | RankingSummary, n: int = 10) -> str:
     :class:`RankingSummary` that :func:`write_outputs` returns), for the terminal.
 
     One operating point: its ``n`` best cases. Several: the ``n`` best cases over all points
-    (by net power), with the swept values shown. Ends with a line of status counts.
+    (by the study's objective), with the swept values shown. Ends with a line of status counts.
     """
     if isinstance(table, RankingSummary):
         summary = table
@@ -576,6 +597,11 @@ def _top_text(summary: RankingSummary, n: int) -> str:
             ("p_high bar", "turbine_inlet_pressure_bar", ".2f"),
             ("p_cond bar", "condensing_pressure_bar", ".3f"), ("SP m", "size_parameter_m", ".3f"),
             ("VR", "volume_ratio", ".1f"), ("stages", "turbine_stages", ".0f"), ("eta_t", "turbine_efficiency", ".3f")]
+    objective = summary.objective or OBJECTIVES[DEFAULT_OBJECTIVE]
+    if objective.needs_costs:  # the money columns next to the power (study currency)
+        spec[1:1] = [("invest/kW", "specific_investment_per_kW", ".0f"), ("LCOE/MWh", "lcoe_per_MWh", ".1f")]
+        if objective.column == "net_present_value":
+            spec.insert(3, ("NPV", "net_present_value", ".4g"))
     for title, col, fmt in spec:
         if col in best:
             if fmt.endswith("%"):
@@ -591,8 +617,9 @@ def _top_text(summary: RankingSummary, n: int) -> str:
     notes = _warning_lines(best)
     if notes:
         text += "\nwarnings (soft limits passed; the results stand):\n" + "\n".join(notes)
+    by = f" by {objective.label}"
     if n_points > 1:
-        head = f"best {len(best)} of {summary.cases} cases over {n_points} operating points"
+        head = f"best {len(best)} of {summary.cases} cases{by} over {n_points} operating points"
     else:
-        head = f"best {len(best)} of {summary.cases} cases"
+        head = f"best {len(best)} of {summary.cases} cases{by}"
     return f"{head}\n{text}\n{tally}"

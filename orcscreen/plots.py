@@ -327,8 +327,9 @@ def ts_diagram(detail: Mapping, row: Mapping | None = None, ax: Axes | None = No
 # --------------------------------------------------------------------------- trade-off
 
 def tradeoff_chart(df: pd.DataFrame, x: str = "size_parameter_m", ax: Axes | None = None,
-                   title: str | None = None, label_front: bool = True) -> Axes:
-    """Net power [kW] against a size measure ``x`` (turbine SP [m] or total UA [kW/K]).
+                   title: str | None = None, label_front: bool = True, xlabel: str | None = None) -> Axes:
+    """Net power [kW] against a size or cost measure ``x`` (turbine SP [m], total UA [kW/K],
+    specific investment; xlabel names its axis where the column name cannot).
 
     Every feasible case is a point (marker by layout); the Pareto-optimal cases of
     :func:`orcscreen.rank.pareto_front` (most power for least size) are filled, joined by a step
@@ -357,7 +358,7 @@ def tradeoff_chart(df: pd.DataFrame, x: str = "size_parameter_m", ax: Axes | Non
     if label_front:
         _label_points(ax, pts, x)
     ax.legend(fontsize=NOTE_PT, loc="lower right")
-    return _finish(ax, axis_label(x), axis_label("net_power_kW"), title)
+    return _finish(ax, xlabel or axis_label(x), axis_label("net_power_kW"), title)
 
 
 def _label_points(ax: Axes, pts: pd.DataFrame, x: str) -> None:

@@ -25,6 +25,7 @@ from itertools import combinations
 from pathlib import Path
 from typing import Any, Callable, Iterable, Mapping, Sequence
 
+import numpy as np
 import pandas as pd
 
 from orcscreen import plots, rank
@@ -103,6 +104,9 @@ REPORT_COLUMNS = (
     "volume_ratio", "turbine_efficiency", "turbine_model", "turbine_stages", "volume_ratio_per_stage",
     "warnings", "binding_limit", "sub_atmospheric_condenser",
     "family", "safety_class", "gwp100", "odp", "curve_type",
+    "sink_temperature_rise_K", "area_evaporator_m2", "area_condenser_m2", "area_recuperator_m2",
+    "condenser_area_basis", "investment_total", "specific_investment_per_kW", "annual_energy_MWh", "lcoe_per_MWh",
+    "net_present_value",
 ) + LAYOUT_COLUMNS
 
 
@@ -183,7 +187,7 @@ def make_figures(data: _RunData, fig_dir: Path) -> list[FigureRecord]:
     at_point = _at_point(ok, data.point) if data.point else ok
     note = _point_note(data.point)
 
-    _draw(records, fig_dir, "ranking", "Ranking by net power",
+    _draw(records, fig_dir, "ranking", "Net power of every case",
           "Net power of every feasible fluid and layout, best first; beside each bar the net "
           "power, the ASHRAE 34 safety class and the GWP100." + (f" At the {note}." if note else ""),
           lambda: plots.ranking_chart(at_point))
@@ -197,6 +201,15 @@ def make_figures(data: _RunData, fig_dir: Path) -> list[FigureRecord]:
           "a first measure of exchanger size." + (f" At the {note}." if note else ""),
           lambda: plots.tradeoff_chart(at_point, x="ua_total_kW_K",
                                        title="Net power against total UA"))
+    money = _money(data.meta)
+    if "specific_investment_per_kW" in at_point and np.isfinite(
+            pd.to_numeric(at_point["specific_investment_per_kW"], errors="coerce")).any():
+        _draw(records, fig_dir, "tradeoff_investment", "Net power against specific investment",
+              "Filled diamonds: Pareto-optimal for net power against investment per net kW "
+              f"({money}; a screening estimate, about ±30 % at best)." + (f" At the {note}." if note else ""),
+              lambda: plots.tradeoff_chart(at_point, x="specific_investment_per_kW",
+                                           title="Net power against specific investment",
+                                           xlabel=f"specific investment [{money} per net kW]"))
     _draw(records, fig_dir, "turbine_map", "Turbine map",
           "Turbine isentropic efficiency against size parameter for every feasible case; the fill "
           "shows the volume ratio, the small number the stage count, the rings the best cases by rank. "
@@ -455,6 +468,31 @@ def _figure_html(rec: FigureRecord) -> str:
 
 # --------------------------------------------------------------------------- sections
 
+def _objective(meta: Mapping):
+    """The study's objective (orcscreen.objectives), from the store's meta."""
+    from orcscreen.objectives import DEFAULT_OBJECTIVE, OBJECTIVES
+
+    name = ((meta.get("study") or {}).get("study") or {}).get("objective")
+    return OBJECTIVES.get(name) or OBJECTIVES[DEFAULT_OBJECTIVE]
+
+
+def _money(meta: Mapping) -> str:
+    """The money of the cost columns: "EUR of 2023"."""
+    econ = (meta.get("study") or {}).get("economics") or {}
+    return f"{econ.get('currency', '?')} of {econ.get('cost_year', '?')}"
+
+
+def _cost_basis(meta: Mapping) -> str:
+    """What the cost columns are: model, money, annuity, and their class of accuracy."""
+    econ = (meta.get("study") or {}).get("economics") or {}
+    if not econ:
+        return "not computed"
+    return (f"{econ.get('cost_model')} in {_money(meta)}; discount rate {econ.get('discount_rate')}, "
+            f"{econ.get('lifetime_years')} years, O&M {econ.get('om_fraction')} of the investment a year, "
+            f"{econ.get('full_load_hours')} full-load hours. A screening estimate (a study-class estimate), "
+            "about ±30 % at best (Lemmens, Energies 9 (2016) 485): for comparing candidates, never a quotation")
+
+
 def _summary(data: _RunData) -> str:
     meta = data.meta
     counts = {s: int(data.counts.get(s, 0)) for s in ("ok", "infeasible", "failed")}
@@ -470,6 +508,8 @@ def _summary(data: _RunData) -> str:
         ("cases", f"{len(table)} (" + ", ".join(f"{n} {s}" for s, n in counts.items()) + ")"),
         ("fluids", table["fluid"].nunique() if "fluid" in table else 0),
         ("layouts", ", ".join(map(str, pd.unique(table["layout"]))) if "layout" in table else ""),
+        ("ranked by", _objective(meta).label),
+        ("costs", _cost_basis(meta)),
     ]
     for c in data.sweep_cols:
         values = sorted(pd.unique(table[c].dropna()))
@@ -583,7 +623,7 @@ def _ranking_section(data: _RunData, overview: list[FigureRecord]) -> str:
                 cells.append((_fmt(value, fmt if fmt != "d" else ".0f"), _sort_key(value)))
         rows.append(cells)
     cut = len(ok) - len(shown)
-    caption = ("Feasible cases, ranked by net power within each operating point. Click a "
+    caption = (f"Feasible cases, ranked by {_objective(data.meta).label} within each operating point. Click a "
                "header to sort.") + (f" The first {len(shown)} of {len(ok)} rows; all are in "
                                      "ranking.csv." if cut > 0 else "")
     figs = "".join(_figure_html(r) for r in overview)

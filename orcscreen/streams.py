@@ -1216,6 +1216,8 @@ class _Sink(_CurveStream):
     @classmethod
     def from_settings(cls, section: Mapping[str, Any]):
         T_in = _read(section, "inlet_temperature_C", 20.0, where="sink") + ZERO_CELSIUS_K
+        if section.get("temperature_rise_K") == "optimise":  # the optimiser varies it from its lowest value
+            section = {**section, "temperature_rise_K": section.get("min_temperature_rise_K", 3.0)}
         rise = _read(section, "temperature_rise_K", 10.0, positive=True, where="sink")
         p = _read(section, "pressure_bar", cls.default_pressure_bar, positive=True, where="sink") * 1e5
         fixed = section.get("aux_power_per_kW_rejected")

@@ -43,6 +43,8 @@ from orcscreen import cycles as _cycles  # the registries the schema reads (no C
 from orcscreen import streams as _streams
 from orcscreen import areas as _areas
 from orcscreen import costs as _costs
+from orcscreen.case_variables import optimised_or
+from orcscreen import objectives as _objectives
 from orcscreen import turbine as _turbine
 
 __all__ = [
@@ -68,6 +70,7 @@ SOURCE_KINDS = tuple(_streams.SOURCE_KINDS)
 SINK_KINDS = tuple(_streams.SINK_KINDS)
 #: Turbine efficiency models, from the turbine-model registry (orcscreen.turbine).
 TURBINE_MODELS = tuple(_turbine.TURBINE_MODELS)
+OBJECTIVE_NAMES = tuple(_objectives.OBJECTIVES)
 SAFETY_CLASSES = ("A1", "A2L", "A2", "A3", "B1", "B2L", "B2", "B3")
 FLUE_GAS_SPECIES = tuple(_streams.GAS_SPECIES)
 MAX_CASES = 1_000_000
@@ -148,12 +151,31 @@ class _Section(BaseModel):
     model_config = _CONFIG
 
 
+def _above(v: float, info: ValidationInfo, lower: str) -> float:
+    """An upper bound v that must lie above the lower bound (dotted path lower, validated before)."""
+    lo = info.data.get(lower.rpartition(".")[2])
+    if lo is not None and not lo < v:
+        raise ValueError(f"not above {lower} = {lo:g}")
+    return v
+
+
+def _optimise_or_positive(v: Any, what: str) -> Any:
+    """A number > 0 or "optimise" ("optimize" accepted), for keys the optimiser may free."""
+    if v == "optimize":  # the other spelling
+        return "optimise"
+    if isinstance(v, (int, float)) and not isinstance(v, bool) and not v > 0:
+        raise ValueError(f"{what} must be > 0")
+    return v
+
+
 class StudySection(_Section):
     """[study]: name and objective of the study."""
 
     name: str = _f("unnamed study", "Name of the study, shown in the outputs.", "any text")
-    objective: Literal["net_power"] = _f(
-        "net_power", "What the optimiser maximises per fluid and layout.", '"net_power"'
+    objective: Literal[OBJECTIVE_NAMES] = _f(
+        _objectives.DEFAULT_OBJECTIVE, "What the optimiser makes best per fluid and layout, and what the ranking "
+        "sorts by: " + "; ".join(f'"{o.name}" ({o.label}, {"largest" if o.maximise else "smallest"} first)'
+                                 for o in _objectives.OBJECTIVES.values()) + ".", _choices(OBJECTIVE_NAMES)
     )
     case_time_limit_s: float = _f(60.0, "Time limit of one case [s].", "a number > 0", gt=0)
 
@@ -228,7 +250,17 @@ class SinkSection(_Section):
 
     kind: Literal[SINK_KINDS] = _f("water", "Kind of heat sink.", _choices(SINK_KINDS))
     inlet_temperature_C: float = _f(20.0, "Sink inlet temperature [°C].", "a number from -50 to 80", ge=-50, le=80)
-    temperature_rise_K: float = _f(10.0, "Temperature rise of the sink across the condenser [K].", "a number > 0", gt=0)
+    temperature_rise_K: Union[float, Literal["optimise"]] = _f(
+        10.0, "Temperature rise of the sink across the condenser [K], or \"optimise\" (between the two keys "
+        "below: the fan or pump power against the condensing temperature).", 'a number > 0 or "optimise"'
+    )
+    min_temperature_rise_K: float = _f(
+        3.0, "Lowest sink temperature rise when it is optimised [K] (common practice).", "a number > 0", gt=0
+    )
+    max_temperature_rise_K: float = _f(
+        25.0, "Highest sink temperature rise when it is optimised [K] (common practice: air coolers 10-25 K).",
+        "a number > 0", gt=0
+    )
     pressure_bar: Optional[float] = _f(
         None, f"Sink pressure [bar]. Default {_kinds_text(_DEFAULT_SINK_PRESSURE_bar, 'bar')}.", "a number > 0", gt=0
     )
@@ -249,6 +281,16 @@ class SinkSection(_Section):
         "none by default.", "a number >= 0", ge=0
     )
 
+    @field_validator("temperature_rise_K", mode="before")
+    @classmethod
+    def _rise(cls, v: Any) -> Any:
+        return _optimise_or_positive(v, "the temperature rise")
+
+    @field_validator("max_temperature_rise_K")
+    @classmethod
+    def _rise_bounds(cls, v: float, info: ValidationInfo) -> float:
+        return _above(v, info, "sink.min_temperature_rise_K")
+
     @model_validator(mode="before")
     @classmethod
     def _kind_defaults(cls, data: Any) -> Any:
@@ -266,12 +308,30 @@ class SinkSection(_Section):
 class ExchangersSection(_Section):
     """[exchangers]: pinch points, recuperator effectiveness and the zones' heat-transfer coefficients."""
 
-    pinch_evaporator_K: float = _f(10.0, "Minimum temperature difference in the evaporator [K].", "a number > 0", gt=0)
-    pinch_condenser_K: float = _f(5.0, "Minimum temperature difference in the condenser [K].", "a number > 0", gt=0)
+    pinch_evaporator_K: Union[float, Literal["optimise"]] = _f(
+        10.0, "Minimum temperature difference in the evaporator [K], or \"optimise\" with a cost objective.",
+        'a number > 0 or "optimise"'
+    )
+    pinch_condenser_K: Union[float, Literal["optimise"]] = _f(
+        5.0, "Minimum temperature difference in the condenser [K], or \"optimise\" with a cost objective.",
+        'a number > 0 or "optimise"'
+    )
+    min_pinch_K: float = _f(2.0, "Lowest pinch when a pinch is optimised [K] (common practice).", "a number > 0", gt=0)
+    max_pinch_K: float = _f(25.0, "Highest pinch when a pinch is optimised [K].", "a number > 0", gt=0)
     pinch_recuperator_K: float = _f(10.0, "Minimum temperature difference in the recuperator [K].", "a number > 0", gt=0)
     recuperator_effectiveness: float = _f(
         0.8, "Recuperator effectiveness [-].", "a number in (0, 1]", gt=0, le=1
     )
+
+    @field_validator("pinch_evaporator_K", "pinch_condenser_K", mode="before")
+    @classmethod
+    def _pinch(cls, v: Any) -> Any:
+        return _optimise_or_positive(v, "a pinch")
+
+    @field_validator("max_pinch_K")
+    @classmethod
+    def _pinch_bounds(cls, v: float, info: ValidationInfo) -> float:
+        return _above(v, info, "exchangers.min_pinch_K")
 
 
 ExchangersSection = create_model(  # the pinch keys above and one U key per zone of orcscreen.areas
@@ -1046,6 +1106,7 @@ _POINT_PATHS = (
     "sink.pressure_bar",
     "exchangers.pinch_evaporator_K",
     "exchangers.pinch_condenser_K",
+    "exchangers.min_pinch_K",
     "limits.max_pressure_bar",
     "limits.min_condensing_pressure_bar",
     "cycle.superheat_K",
@@ -1063,8 +1124,13 @@ def _point_problems(study: Study, base: Mapping[str, Any], v: Mapping[str, Any],
     out = []
     T_src = v["source.inlet_temperature_C"]
     T_sink = v["sink.inlet_temperature_C"]
-    rise = v["sink.temperature_rise_K"]
-    pe, pc = v["exchangers.pinch_evaporator_K"], v["exchangers.pinch_condenser_K"]
+    # an optimised rise or pinch: its lowest value for the temperature budget, the highest rise
+    # for the sink's own rules (the optimiser may reach either)
+    rise = optimised_or(v["sink.temperature_rise_K"], v["sink.min_temperature_rise_K"])
+    p_min = v["exchangers.min_pinch_K"]
+    pe, pc = (optimised_or(v["exchangers.pinch_evaporator_K"], p_min),
+              optimised_or(v["exchangers.pinch_condenser_K"], p_min))
+    v = {**v, "sink.temperature_rise_K": optimised_or(v["sink.temperature_rise_K"], v["sink.max_temperature_rise_K"])}
     # Any cycle must reject heat above the sink outlet + condenser pinch and take it in below
     # the source inlet - evaporator pinch, so the source must be hotter than their sum.
     need = T_sink + rise + pe + pc
@@ -1437,6 +1503,20 @@ def _time_limit_problems(study: Study, specs: Mapping[str, Any], origin: str, er
             return
 
 
+def _objective_problems(study: Study, origin: str, errors: list[str]) -> None:
+    """An objective that needs a price of the electricity must have one; a pinch is optimised only
+    for a cost (for the net power its lowest value always wins)."""
+    objective = _objectives.OBJECTIVES[study.study.objective]
+    if study.study.objective == "net_present_value" and study.economics.electricity_price_per_MWh is None:
+        errors.append(f'{origin}: study.objective = "net_present_value": needs the price of the electricity sold; '
+                      f"allowed: give economics.electricity_price_per_MWh, or another objective")
+    for key in ("pinch_evaporator_K", "pinch_condenser_K"):
+        if getattr(study.exchangers, key) == "optimise" and not objective.needs_costs:
+            errors.append(f'{origin}: exchangers.{key} = "optimise": with study.objective = "{objective.name}" the '
+                          f"smallest pinch always wins; allowed: a number > 0, or a cost objective "
+                          f"({', '.join(o.name for o in _objectives.OBJECTIVES.values() if o.needs_costs)})")
+
+
 def _sweep_override_warnings(raw: Mapping[str, Any], flat: Mapping[str, tuple[str, Any]],
                              specs: Mapping[str, Any], origin: str) -> tuple[str, ...]:
     """One warning per swept setting that is also written in its section: the sweep wins. A
@@ -1485,6 +1565,7 @@ def study_from_dict(d: Mapping[str, Any], origin: str = "<dict>", *, allow_huge:
     _check_swept_source_keys(study, flat, specs, origin, errors)
     _turbine_key_problems(raw, study, specs, origin, errors)
     _time_limit_problems(study, specs, origin, errors)
+    _objective_problems(study, origin, errors)
     fluids = _resolve_fluids(study.fluid_filter, origin, errors)
     _check_points(study, specs, origin, errors, with_streams=not errors)
     study._origin = origin

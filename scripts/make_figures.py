@@ -24,6 +24,7 @@ FIGURES = {
     "tq-diagram.png": "tq_01_*.png",
     "ts-diagram.png": "ts_01_*.png",
     "tradeoff-size-parameter.png": "tradeoff_size_parameter.png",
+    "tradeoff-investment.png": "tradeoff_investment.png",
     "landscape.png": "landscape.png",
     "turbine-map.png": "turbine_map.png",
 }

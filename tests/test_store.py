@@ -303,11 +303,11 @@ def test_top_table_lists_best_cases(tmp_path):
     assert text == top_table(summary.table(), n=3)  # the summary prints what the table does
     table = summary.table()
     lines = text.splitlines()
-    assert lines[0] == "best 3 of 12 cases over 2 operating points"
+    assert lines[0] == "best 3 of 12 cases by net power over 2 operating points"
     assert "R245FA" in lines[2] and "71.5" in lines[2]  # overall best first
     assert lines[-1] == "ok 10, infeasible 1, failed 1"
     one = top_table(table[table[T_IN] == 120.0].reset_index(drop=True), n=10)
-    assert one.splitlines()[0] == "best 4 of 6 cases"
+    assert one.splitlines()[0] == "best 4 of 6 cases by net power"
 
 
 def test_top_table_shows_the_warnings_of_the_listed_cases_next_to_them(tmp_path):
@@ -425,7 +425,7 @@ def test_top_table_beyond_the_kept_rows_reads_the_store_again(tmp_path, monkeypa
     summary = write_outputs(tmp_path)
     assert summary.kept == 2 and len(summary.best) == 2 and summary.ranked == 9
     assert top_table(summary, n=6) == top_table(summary.table(), n=6)
-    assert top_table(summary, n=6).splitlines()[0] == "best 6 of 12 cases over 2 operating points"
+    assert top_table(summary, n=6).splitlines()[0] == "best 6 of 12 cases by net power over 2 operating points"
 
 
 def test_revision_counts_write_transactions(tmp_path):

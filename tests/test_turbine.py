@@ -164,8 +164,8 @@ def test_constant_model_reproduces_the_pinned_results():
     (every 97th case of the large sweep), recorded at commit 3791a64, before the size-dependent
     models, when each study gave a constant turbine efficiency (kept in the pins file). With
     turbine_model = "constant" and that efficiency, and the sink's auxiliary power as it was
-    then (a fixed fraction per kW rejected, zero unless the study gave one), every case must
-    come out the same: status, and net power to 1e-9 relative."""
+    then (the study's fixed fraction per kW rejected, in the pins file), every case must come
+    out the same: status, and net power to 1e-9 relative."""
     from orcscreen.api import run_case
     from orcscreen.study import study_from_dict
 
@@ -175,9 +175,10 @@ def test_constant_model_reproduces_the_pinned_results():
         raw = tomllib.loads((TESTS.parent / "studies" / study_name).read_text(encoding="utf-8"))
         raw["machines"] = {**raw.get("machines", {}), "turbine_model": "constant",
                            "turbine_efficiency": pins["turbine_efficiency"][study_name]}
-        # the sink's fans and pumps as they were then: a fixed fraction, zero unless given
-        raw["sink"] = {**raw.get("sink", {}), "aux_power_per_kW_rejected": raw.get("sink", {}).get(
-            "aux_power_per_kW_rejected", 0.0)}
+        # the sink's fans and pumps as they were then: the study's fixed fraction (kept in the pins file)
+        sink = {k: v for k, v in raw.get("sink", {}).items() if k not in ("fan_pressure_drop_Pa", "pump_head_m",
+                                                                            "aux_efficiency")}
+        raw["sink"] = {**sink, "aux_power_per_kW_rejected": pins["sink_aux_power_per_kW_rejected"][study_name]}
         raw["machines"].pop("max_turbine_stages", None)
         raw.get("limits", {}).pop("max_volume_ratio_per_stage", None)
         wanted = {(json.dumps(c["sweep"], sort_keys=True), c["fluid"], c["layout"]): c for c in cases}

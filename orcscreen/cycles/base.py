@@ -28,7 +28,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from ..exchangers import Profile, condenser_approach, heater_profile
+from ..exchangers import Profile, condenser_approach, condenser_points, heater_profile
 from ..paths import flash_ph, state_from_ph, two_phase_state
 from ..states import CycleInfeasible, SatPoint, State
 from ..turbine import ConstantEfficiency, TurbineModel, size_parameter_m, volume_ratio
@@ -40,6 +40,7 @@ __all__ = [
     "STATE_LABELS",
     "cycle_result",
     "exchanger_profiles",
+    "SEARCH_ZONE_SEGMENTS",
     "CycleResult",
     "CycleInfeasible",
     "Variable",
@@ -98,6 +99,16 @@ class CycleSettings:
     u_W_m2K: Mapping[str, float] = field(default_factory=dict, hash=False)
     #: the case's economics (orcscreen.economics.Economics), None for none
     economics: object = field(default=None, hash=False)
+    #: what the optimiser makes best (orcscreen.objectives.Objective), None for the net power
+    objective: object = None
+    #: bounds [K] of the case's free variables (orcscreen.case_variables), None where fixed: the
+    #: pinches (with a cost objective) and the sink's temperature rise
+    pinch_evaporator_bounds_K: tuple[float, float] | None = None
+    pinch_condenser_bounds_K: tuple[float, float] | None = None
+    sink_rise_bounds_K: tuple[float, float] | None = None
+    #: build the exchanger profiles in the search too (the closed-form model's points), for an
+    #: objective that needs areas and costs at every evaluation
+    profiles_in_search: bool = False
 
     def max_evaporation_pressure_Pa(self, fluid) -> float:
         """Highest allowed subcritical evaporation pressure [Pa]: min(p_max, r_max p_crit)."""
@@ -718,17 +729,30 @@ def cycle_result(ctx: CycleContext, layout: Layout, cs, st3: State, m_wf: float,
     )
 
 
-def exchanger_profiles(ctx: CycleContext, cs, heater_path, m_wf: float, h_out: float) -> dict:
-    """Discretised T-Q profiles of an evaluated cycle (exact mode): heater, condenser (when a
-    sink is given) and an active recuperator. heater_path: the checked heating path, inlet first."""
+#: Segments per single-phase zone of the profiles built inside the search for an objective
+#: that needs areas (CycleSettings.profiles_in_search); the reported ones have n_zone_segments.
+SEARCH_ZONE_SEGMENTS = 6
+
+
+def exchanger_profiles(ctx: CycleContext, cs, heater_path, m_wf: float, h_out: float, search: bool = False) -> dict:
+    """T-Q profiles of an evaluated cycle: heater, condenser (when a sink is given) and an active
+    recuperator. heater_path: the heating path, inlet first (the checked one; in the search a
+    path of SEARCH_ZONE_SEGMENTS per zone). search: profiles for an objective that needs areas
+    inside the search (the condenser with SEARCH_ZONE_SEGMENTS per zone, a recuperator by its
+    two ends); else the discretised ones that are checked and reported."""
     fluid, source, sink, n = ctx.fluid, ctx.source, ctx.sink, ctx.settings.n_zone_segments
     out = {"evaporator": heater_profile(heater_path, m_wf, h_out, source)}
     if sink is None:  # a condensing temperature given by hand: no sink to draw
         return out
-    h, T, T_sink = condenser_approach(fluid, sink, cs, n, True)[2]
+    if search:
+        h, T, T_sink, _ = condenser_points(fluid, sink, cs, SEARCH_ZONE_SEGMENTS, True)
+    else:
+        h, T, T_sink = condenser_approach(fluid, sink, cs, n, True)[2]
     m_c = m_wf if cs.condenser_share == 1.0 else m_wf * cs.condenser_share
     out["condenser"] = Profile(m_c * (h - h[0]), T, np.asarray(T_sink, dtype=float))
     if cs.recuperator_active:
         prof = cs.rec_profile
+        if prof is None:  # in the search: its two ends (hot side 4 -> 4r, cold side 2 -> 2r)
+            prof = Profile(np.array([0.0, cs.q_rec]), np.array([cs.s4r.T_K, cs.s4.T_K]), np.array([cs.s2.T_K, cs.s2r.T_K]))
         out["recuperator"] = Profile(m_wf * prof.Q_W, prof.T_hot_K, prof.T_cold_K)
     return out

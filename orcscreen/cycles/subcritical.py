@@ -48,6 +48,7 @@ from .base import (
     condenser_outlet,
     condensing_floor_K,
     cycle_result,
+    SEARCH_ZONE_SEGMENTS,
     exchanger_profiles,
     expand,
     infeasible,
@@ -220,11 +221,22 @@ class Subcritical(Layout):
         q_in = h_out - float(path.h[0])
         T_s_out = float(source.T_K(hs_in - m_wf * q_in / source.m_kg_s))
         r = cycle_result(ctx, self, cs, st3, m_wf, q_in, self._state_table(cs, st3), known, location, T_s_out,
-                         exchanger_profiles(ctx, cs, path, m_wf, h_out) if exact else None,
+                         self._profiles(ctx, sat_e, cs, st3, path, m_wf, h_out, exact),
                          T_evap_K=T_evap_K, p_evap_Pa=sat_e.p_Pa, superheat_K=superheat_K)
         if r.W_net_W <= 0.0:
             return infeasible("net power", f"net power {r.W_net_W / 1e3:.3g} kW is not positive", r.W_net_W, **known)
         return r
+
+    def _profiles(self, ctx: CycleContext, sat_e: SatPoint, cs, st3: State, path, m_wf: float, h_out: float,
+                  exact: bool) -> dict | None:
+        """The exchanger profiles of a result: the checked ones (exact), those of the search when
+        the objective needs areas (a heating path of SEARCH_ZONE_SEGMENTS per zone), else none."""
+        if exact:
+            return exchanger_profiles(ctx, cs, path, m_wf, h_out)
+        if ctx.settings.profiles_in_search:
+            finer = self.heater_path(ctx, sat_e, cs, st3, SEARCH_ZONE_SEGMENTS, True)[0]
+            return exchanger_profiles(ctx, cs, finer, m_wf, h_out, search=True)
+        return None
 
     @property
     def heater_inlet_follows_turbine(self) -> bool:

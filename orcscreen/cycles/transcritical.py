@@ -46,6 +46,7 @@ from .base import (
     condenser_outlet,
     condensing_floor_K,
     cycle_result,
+    SEARCH_ZONE_SEGMENTS,
     exchanger_profiles,
     expand,
     infeasible,
@@ -220,7 +221,7 @@ class Transcritical(Layout):
             raise CycleInfeasible("heater pinch", f"the source is too cold for a heater at {p_h / 1e5:.2f} bar with a {s.pinch_evaporator_K:g} K pinch")
         T_s_out = float(source.T_K(float(source.h_in_J_kg) - m_wf * q_in / source.m_kg_s))
         r = cycle_result(ctx, self, cs, st3, m_wf, q_in, states, known, location, T_s_out,
-                         exchanger_profiles(ctx, cs, path, m_wf, st3.h) if exact else None, p_evap_Pa=st3.p_Pa)
+                         self._profiles(ctx, p_h, cs, st3, path, m_wf, exact), p_evap_Pa=st3.p_Pa)
         if r.W_net_W <= 0.0:
             return infeasible("net power", f"net power {r.W_net_W / 1e3:.3g} kW is not positive", r.W_net_W, **known)
         return r
@@ -237,6 +238,16 @@ class Transcritical(Layout):
         if ctx.memo is not None:
             ctx.memo[key] = out
         return out
+
+    def _profiles(self, ctx: CycleContext, p_h: float, cs, st3: State, path, m_wf: float, exact: bool) -> dict | None:
+        """The exchanger profiles of a result: the checked ones (exact), those of the search when
+        the objective needs areas (a heater path of SEARCH_ZONE_SEGMENTS), else none."""
+        if exact:
+            return exchanger_profiles(ctx, cs, path, m_wf, st3.h)
+        if ctx.settings.profiles_in_search:
+            finer = supercritical_heating_path(ctx.fluid, p_h, cs.heater_inlet, st3, SEARCH_ZONE_SEGMENTS)
+            return exchanger_profiles(ctx, cs, finer, m_wf, st3.h, search=True)
+        return None
 
     def ts_path(self, fluid, r: CycleResult, n: int = 8) -> tuple[list[float], list[float]]:
         """Pump and turbine as straight lines; the heater along its supercritical isobar."""
