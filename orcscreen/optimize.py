@@ -30,7 +30,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Mapping
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 
@@ -537,4 +537,31 @@ def optimise(layout: Layout, ctx: CycleContext) -> Optimum | tuple[None, str, in
     r, limit, n, scan = _optimise_nested(layout, ctx, variables, {}, polish=True)
     if r is None:
         return None, limit, n
+    r, limit, n, scan = _stages_for_cost(layout, ctx, variables, (r, limit, n, scan))
     return Optimum(r, limit, n, variables[0], *scan)
+
+
+def _stages_for_cost(layout: Layout, ctx: CycleContext, variables, found: tuple) -> tuple:
+    """Under a cost objective, the turbine's stage count as part of the optimum: every stage
+    costs money and the efficiency correlation always favours more, so the optimum's cycle is
+    evaluated with each larger stage count the model allows; where one scores better there,
+    the case is optimised again with at least that many stages, and the best is kept. Without
+    a cost objective (or a stage count) the fewest stages of the model's rule stand."""
+    r, limit, n, scan = found
+    objective = getattr(ctx.settings, "objective", None)
+    model = ctx.settings.turbine
+    stages = getattr(r.turbine_design, "stages", None)
+    if objective is None or not objective.needs_costs or not stages or stages != stages:
+        return found
+    best = found
+    for k in range(int(stages) + 1, getattr(model, "max_stages", 0) + 1):
+        at_k = replace(ctx, settings=replace(ctx.settings, turbine_min_stages=k))
+        trial = layout.evaluate(at_k, r.variables, exact=True)
+        n += 1
+        if score(trial, at_k) <= score(best[0], ctx):
+            continue
+        r_k, limit_k, n_k, scan_k = _optimise_nested(layout, at_k, variables, {}, polish=True)
+        n += n_k
+        if r_k is not None and score(r_k, at_k) > score(best[0], ctx):
+            best = (r_k, f"{limit_k}; {k} turbine stages pay for themselves", n, scan_k)
+    return best[0], best[1], n, best[3]

@@ -101,6 +101,9 @@ class CycleSettings:
     economics: object = field(default=None, hash=False)
     #: what the optimiser makes best (orcscreen.objectives.Objective), None for the net power
     objective: object = None
+    #: fewest turbine stages (a size-dependent model takes at least these; the optimiser raises
+    #: it where more stages pay for themselves under a cost objective)
+    turbine_min_stages: int = 1
     #: bounds [K] of the case's free variables (orcscreen.case_variables), None where fixed: the
     #: pinches (with a cost objective) and the sink's temperature rise
     pinch_evaporator_bounds_K: tuple[float, float] | None = None
@@ -318,7 +321,7 @@ class Layout:
         memo: dict = {}
         settings = _without_quality_limit(ctx.settings)
         stages_seen: list = []
-        min_stages = 1
+        min_stages = ctx.settings.turbine_min_stages
         for _ in range(ETA_ITERATIONS):
             fixed = CycleContext(ctx.fluid, ctx.source, ctx.sink, settings, memo, ConstantEfficiency(eta))
             r = self.evaluate_at(fixed, x, exact, T_cond_guess_K, cond_tol_K, T_cond_K, m_wf_kg_s)
@@ -666,7 +669,8 @@ def cold_side_following_turbine(ctx: CycleContext, st3: State, build, flow, befo
                 pass
         if m_wf > 0.0:
             st_in, st_out_s, share = cs.turbine_figures(st3)
-            design = model.design(size_parameter_m(m_wf * share * st_out_s.v, st_in.h - st_out_s.h), st_out_s.v / st_in.v)
+            design = model.design(size_parameter_m(m_wf * share * st_out_s.v, st_in.h - st_out_s.h), st_out_s.v / st_in.v,
+                                  ctx.settings.turbine_min_stages)
             if not design.reason and 0.0 < design.efficiency <= 1.0 and abs(design.efficiency - state["eta"]) > ETA_SAME:
                 state["eta"] = design.efficiency
                 return build(with_eta(design.efficiency), T_cond_K, exact)
