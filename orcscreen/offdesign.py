@@ -1,0 +1,357 @@
+"""Off-design of a fixed design: the hardware a design point fixes, and the operating point that
+hardware reaches at another sink (and source) condition.
+
+The design fixes (:func:`hardware_of`):
+
+* the turbine's swallowing capacity, Stodola's ellipse law
+  m = K sqrt(rho_in p_in (1 - (p_out / p_in)^2)) with K from the design point (the law as
+  transcribed in secondary copies; Cooke, J. Eng. Gas Turbines Power 107 (1985) 596, from
+  memory, for its derivation): the plant runs in sliding pressure, the evaporation pressure
+  being what the turbine swallows;
+* the turbine's part-load efficiency, Pili, Siamisiis, Agromayor, Nord, Wieland, Spliethoff,
+  5th International Seminar on ORC Power Systems (2019), paper 70 (correlation as transcribed
+  in one secondary copy): eta / eta_d = 0.248 + 1.632 a - 1.940 a^2 + 0.033 b - 1.085 b^2 +
+  2.112 a b with a = dh_is / dh_is,d and b = V_out / V_out,d; here V_out is the isentropic
+  outlet volume flow (our choice: explicit, and the same basis at design);
+* each exchanger's area zone by zone (orcscreen.areas), and each zone's overall coefficient U
+  scaled off design with the flows: a single-phase film h ~ Re^0.8 (Dittus-Boelter, Nu = 0.023
+  Re^0.8 Pr^n, e.g. Incropera et al., eq. 8.60), a boiling or condensing film held constant
+  (common practice), and at design the two sides' resistances taken as equal (our assumption,
+  for want of the sides' coefficients): U / U_d = 2 / (r_wf + r_stream) with r = (m_d / m)^0.8
+  for a single-phase side and 1 for a phase-changing one;
+* the pump (its isentropic efficiency is held; the flow follows the turbine).
+
+The sink's mover runs at its design speed: a cooling-water pump at the design mass flow, the
+condenser fans at the design volume flow (the air's mass flow follows its density), so the
+sink's temperature rise follows from the duty.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import math
+from dataclasses import dataclass
+
+import numpy as np
+
+from . import areas
+from .cycles.base import isentropic_end
+from .exchangers import Profile, heater_profile
+from .paths import condensing_path, heating_path
+from .turbine import ConstantEfficiency
+
+__all__ = ["PART_LOAD_COEFFICIENTS", "part_load_efficiency", "stodola_constant", "stodola_flow",
+           "film_ratio", "scaled_U", "Hardware", "OperatingPoint", "hardware_of", "operating_point",
+           "SUPPORTED_LAYOUTS", "YearResult", "annual_energy"]
+
+#: Pili et al. (2019): eta / eta_d = c0 + c1 a + c2 a^2 + c3 b + c4 b^2 + c5 a b (sum 1 at design).
+PART_LOAD_COEFFICIENTS = (0.248, 1.632, -1.940, 0.033, -1.085, 2.112)
+
+#: Exponent of the flow in a single-phase film coefficient (Dittus-Boelter: h ~ Re^0.8).
+FILM_EXPONENT = 0.8
+
+#: Zones whose working-fluid side changes phase (their film coefficient is held).
+PHASE_CHANGE_ZONES = frozenset({"evaporation", "condensation"})
+
+
+def part_load_efficiency(eta_design: float, dh_ratio: float, volume_flow_ratio: float) -> float:
+    """Turbine isentropic efficiency off design [-] from the design one and the ratios of the
+    isentropic enthalpy drop (a) and of the outlet volume flow (b) to their design values:
+    Pili et al. (2019), see the module docstring. Not below zero."""
+    c0, c1, c2, c3, c4, c5 = PART_LOAD_COEFFICIENTS
+    a, b = float(dh_ratio), float(volume_flow_ratio)
+    return max(0.0, eta_design * (c0 + c1 * a + c2 * a * a + c3 * b + c4 * b * b + c5 * a * b))
+
+
+def stodola_constant(m_kg_s: float, rho_in_kg_m3: float, p_in_Pa: float, p_out_Pa: float) -> float:
+    """Stodola's K [m^2] of a turbine passing m_kg_s [kg/s] from (rho_in, p_in) to p_out."""
+    return m_kg_s / math.sqrt(rho_in_kg_m3 * p_in_Pa * (1.0 - (p_out_Pa / p_in_Pa) ** 2))
+
+
+def stodola_flow(K_m2: float, rho_in_kg_m3: float, p_in_Pa: float, p_out_Pa: float) -> float:
+    """Mass flow [kg/s] the turbine of constant K swallows: K sqrt(rho_in p_in (1 - (p_out/p_in)^2));
+    zero when p_out >= p_in."""
+    x = 1.0 - (p_out_Pa / p_in_Pa) ** 2
+    return K_m2 * math.sqrt(rho_in_kg_m3 * p_in_Pa * x) if x > 0.0 else 0.0
+
+
+def film_ratio(m_design: float, m: float) -> float:
+    """Resistance of a single-phase film off design over its design value, (m_d / m)^0.8."""
+    return (m_design / m) ** FILM_EXPONENT if m > 0.0 else math.inf
+
+
+def scaled_U(U_design: float, zone: str, wf_flow_ratio: float, stream_flow_ratio: float) -> float:
+    """A zone's overall coefficient [W/(m^2 K)] off design: U_d 2 / (r_wf + r_stream), each side's
+    resistance r = (m_d / m)^0.8 for a single-phase film and 1 where the working fluid changes
+    phase (equal resistances at design; see the module docstring). Ratios are m / m_d."""
+    r_wf = 1.0 if zone in PHASE_CHANGE_ZONES else film_ratio(1.0, wf_flow_ratio)
+    r_stream = film_ratio(1.0, stream_flow_ratio)
+    return U_design * 2.0 / (r_wf + r_stream)
+
+
+# ---------------------------------------------------------------------------------------------
+# the hardware of a design, and its operating point at another condition
+# ---------------------------------------------------------------------------------------------
+
+
+#: Layouts whose off-design this module solves: one heater, one turbine, one condenser (a
+#: recuperator is held at its design effectiveness).
+SUPPORTED_LAYOUTS = ("basic", "recuperated")
+
+#: Relative area mismatch below which an operating point is solved [-].
+AREA_RTOL = 1e-6
+
+
+@dataclass(frozen=True)
+class Hardware:
+    """What a design fixes [SI]: the turbine's Stodola constant and design efficiency, enthalpy
+    drop and outlet volume flow; each exchanger's area and U by zone; the design flows; the
+    sink's design flow and auxiliary power; the design superheat."""
+
+    layout: str
+    K_m2: float
+    eta_design: float
+    dh_is_design: float
+    v_out_design_m3_s: float
+    evaporator: areas.ExchangerArea
+    condenser: areas.ExchangerArea
+    U_design: dict
+    m_wf_design: float
+    m_source_design: float
+    m_sink_design: float
+    W_aux_design_W: float
+    superheat_K: float
+    T_evap_design_K: float
+    T_cond_design_K: float
+    sink_density_design: float
+    T_sink_design_K: float
+
+
+@dataclass(frozen=True)
+class OperatingPoint:
+    """The plant's state at one condition: net power [W] (0 when it cannot run, with the reason),
+    and the evaporation and condensing temperatures [K], working-fluid flow [kg/s], turbine
+    efficiency and source outlet temperature [K] it settles at."""
+
+    W_net_W: float
+    reason: str = ""
+    T_evap_K: float = math.nan
+    T_cond_K: float = math.nan
+    m_wf_kg_s: float = math.nan
+    eta_turbine: float = math.nan
+    T_source_out_K: float = math.nan
+    result: object = None
+    #: the evaporator's and condenser's T-Q profiles at the point (the areas' check)
+    profiles: dict = dataclasses.field(default_factory=dict)
+
+    @property
+    def running(self) -> bool:
+        return not self.reason
+
+
+def _need(design) -> None:
+    if design.layout not in SUPPORTED_LAYOUTS:
+        raise ValueError(f"off-design of the {design.layout!r} layout is not modelled (only "
+                         f"{', '.join(SUPPORTED_LAYOUTS)})")
+
+
+def hardware_of(design, ctx) -> Hardware:
+    """The hardware the design result (exact, feasible) fixes in its context."""
+    _need(design)
+    fluid, st = ctx.fluid, design.states
+    st3, st4s_v = st["3"], None
+    sat_c = fluid.sat_T(design.T_cond_K)
+    st4s = isentropic_end(fluid, st3, sat_c)
+    st4s_v = st4s.v
+    K = stodola_constant(design.m_wf_kg_s, 1.0 / st3.v, st3.p_Pa, sat_c.p_Pa)
+    U = _U_of(ctx)
+    found = areas.exchanger_areas({k: p for k, p in design.profiles.items() if k in ("evaporator", "condenser")}, U)
+    sink = ctx.sink
+    return Hardware(design.layout, K, design.eta_turbine, st3.h - st4s.h, design.m_wf_kg_s * st4s_v,
+                    found["evaporator"], found["condenser"], U, design.m_wf_kg_s, ctx.source.m_kg_s,
+                    design.m_sink_kg_s, design.W_aux_W, design.superheat_K, design.T_evap_K, design.T_cond_K,
+                    _density(sink, sink.T_in_K), sink.T_in_K)
+
+
+def _U_of(ctx) -> dict:
+    return {**areas.DEFAULT_U_W_m2K, **getattr(ctx.source, "u_defaults_W_m2K", {}),
+            **getattr(ctx.sink, "u_defaults_W_m2K", {}), **(ctx.settings.u_W_m2K or {})}
+
+
+def _density(sink, T_K: float) -> float:
+    """Inlet density of an air sink [kg/m3] (fans move a fixed volume), 1 for any other sink."""
+    from .streams import dry_air_density_kg_m3
+
+    return dry_air_density_kg_m3(T_K, sink.p_Pa) if getattr(sink, "area_basis", "") == "finned" else 1.0
+
+
+def _area(profile: Profile, exchanger: str, design: areas.ExchangerArea, U_design: dict, wf_ratio: float,
+          stream_ratio: float) -> float:
+    """Area [m2] the profile needs with the zones' U scaled off design (inf across a crossing)."""
+    U = {z: scaled_U(U_design[z], z, wf_ratio, stream_ratio) for z in U_design}
+    return areas.exchanger_area(profile, exchanger, U).area_m2
+
+
+def operating_point(layout, ctx, hw: Hardware, T_sink_in_K: float, T_source_in_K: float | None = None,
+                    m_source_kg_s: float | None = None, guess: tuple[float, float] | None = None) -> OperatingPoint:
+    """The operating point of the design's hardware at a sink inlet temperature (and source inlet
+    temperature and flow, the design's when None), in sliding pressure: the evaporation
+    temperature whose pressure the turbine swallows the flow at (Stodola), with the evaporator's
+    and the condenser's areas just sufficient (their zones' U scaled with the flows). Solved by a
+    damped Newton iteration on (T_evap, T_cond) from guess (the design's by default). A point
+    where the hardware cannot run (no solution, a limit broken) has zero power and the reason.
+    Limits off design: the turbine outlet quality, the source outlet minimum and the pressure
+    limit are checked on the solved point; a point that breaks one does not run (the plant is
+    stopped in that bin: the conservative choice; throttling or a source bypass would recover
+    part of it)."""
+    fluid, s = ctx.fluid, ctx.settings
+    source = ctx.source
+    if T_source_in_K is not None or m_source_kg_s is not None:
+        source = dataclasses.replace(source, T_in_K=T_source_in_K or source.T_in_K, m_kg_s=m_source_kg_s or source.m_kg_s)
+    sink = dataclasses.replace(ctx.sink, T_in_K=float(T_sink_in_K), rise_K=max(3.0 * ctx.sink.rise_K, 30.0))
+    m_sink = hw.m_sink_design * _density(sink, sink.T_in_K) / hw.sink_density_design
+    W_aux = hw.W_aux_design_W * _density(sink, sink.T_in_K) / hw.sink_density_design
+    settings0 = dataclasses.replace(s, aux_power_per_W_rejected=0.0, turbine=ConstantEfficiency(hw.eta_design),
+                                    u_W_m2K={}, economics=None, objective=None, profiles_in_search=False)
+    n = s.n_zone_segments
+    x_sh = hw.superheat_K
+
+    def solve_point(T_evap: float, T_cond: float):
+        """(residuals, result) at (T_evap, T_cond): the flow the turbine swallows, the part-load
+        efficiency settled, the areas needed over the design's."""
+        if not (T_cond + 0.5 < T_evap < min(fluid.T_crit_K - 0.05, source.T_in_K - 0.05)) or T_cond <= sink.T_in_K:
+            return None, None
+        sat_e, sat_c = fluid.sat_T(T_evap), fluid.sat_T(T_cond)
+        st3 = fluid.state_pT(sat_e.p_Pa, T_evap + x_sh, "gas") if x_sh > 1e-12 else None
+        v3 = st3.v if st3 is not None else sat_e.vV
+        m = stodola_flow(hw.K_m2, 1.0 / v3, sat_e.p_Pa, sat_c.p_Pa)
+        if not m > 0.0:
+            return None, None
+        eta = hw.eta_design
+        r = None
+        for _ in range(4):  # the part-load efficiency depends on the expansion it sets
+            here = dataclasses.replace(ctx, source=source, sink=sink,
+                                       settings=dataclasses.replace(settings0, turbine=ConstantEfficiency(eta)))
+            r = layout.evaluate_at(here, {"evaporation_temperature_K": T_evap, "superheat_K": x_sh}, True,
+                                   T_cond_K=T_cond, m_wf_kg_s=m)
+            if not r.ok:
+                return None, r
+            st3r = r.states["3"]
+            st4s = isentropic_end(fluid, st3r, sat_c)
+            eta_new = part_load_efficiency(hw.eta_design, (st3r.h - st4s.h) / hw.dh_is_design,
+                                           m * st4s.v / hw.v_out_design_m3_s)
+            if abs(eta_new - eta) < 1e-7:
+                break
+            eta = eta_new
+        st = r.states
+        inlet = st.get("2r", st["2"])
+        path = heating_path(fluid, sat_e, inlet, st["3"], n, True, zones=False)
+        prof_e = heater_profile(path, m, st["3"].h, source)
+        cpath = condensing_path(fluid, sat_c, st["1"], st.get("4r", st["4"]), n, True)
+        Q = m * (cpath.h - cpath.h[0])
+        T_sink = sink.T_K(sink.h_in_J_kg + Q / m_sink)
+        prof_c = Profile(Q, cpath.T_K, np.asarray(T_sink, dtype=float))
+        A_e = _area(prof_e, "evaporator", hw.evaporator, hw.U_design, m / hw.m_wf_design,
+                    source.m_kg_s / hw.m_source_design)
+        A_c = _area(prof_c, "condenser", hw.condenser, hw.U_design, m / hw.m_wf_design, m_sink / hw.m_sink_design)
+        res = np.array([A_e / hw.evaporator.area_m2 - 1.0, A_c / hw.condenser.area_m2 - 1.0])
+        return (res if np.all(np.isfinite(res)) else None), (r, {"evaporator": prof_e, "condenser": prof_c}, m, eta)
+
+    # start: the guess's (a neighbouring bin's) evaporation temperature, or the design's, and the
+    # design's condensing temperature moved with the sink
+    x = np.array((guess[0] if guess is not None else hw.T_evap_design_K,
+                  hw.T_cond_design_K + (sink.T_in_K - hw.T_sink_design_K)), dtype=float)
+    f, out = solve_point(*x)
+    step_K = 0.02
+    for _ in range(40):
+        if f is None:
+            return OperatingPoint(0.0, reason=_why(out, "no operating point: the hardware cannot run at this condition"))
+        if np.max(np.abs(f)) < AREA_RTOL:
+            break
+        J = np.empty((2, 2))
+        for j in range(2):
+            dx = np.zeros(2)
+            dx[j] = step_K
+            fj, _ = solve_point(*(x + dx))
+            if fj is None:
+                dx[j] = -step_K
+                fj, _ = solve_point(*(x + dx))
+                if fj is None:
+                    return OperatingPoint(0.0, reason="no operating point: the search left the fluid's range")
+            J[:, j] = (fj - f) / dx[j]
+        try:
+            delta = -np.linalg.solve(J, f)
+        except np.linalg.LinAlgError:
+            return OperatingPoint(0.0, reason="no operating point: the area balance is singular here")
+        lam = 1.0
+        while lam > 1e-3:
+            x_try = x + lam * np.clip(delta, -5.0, 5.0)
+            f_try, out_try = solve_point(*x_try)
+            if f_try is not None and np.max(np.abs(f_try)) < np.max(np.abs(f)):
+                x, f, out = x_try, f_try, out_try
+                break
+            lam *= 0.5
+        else:
+            return OperatingPoint(0.0, reason="no operating point: the area balance did not converge")
+    else:
+        return OperatingPoint(0.0, reason="no operating point: the area balance did not converge")
+    r, profiles, m, eta = out
+    why = _limits(ctx, r, source, r.states["3"])
+    W_net = r.W_net_W - W_aux
+    if not why and W_net <= 0.0:
+        why = "net power not positive at this condition"
+    return OperatingPoint(0.0 if why else W_net, why, float(x[0]), float(x[1]), m, eta,
+                          float(profiles["evaporator"].T_hot_K[0]), r, profiles)
+
+
+@dataclass(frozen=True)
+class YearResult:
+    """A design's year: net energy [MWh], hours, hours not running, capacity factor, and each
+    bin's (bin, operating point)."""
+
+    energy_MWh: float
+    hours: float
+    hours_not_running: float
+    #: annual energy over the design's net power times the hours [-]
+    capacity_factor: float
+    points: tuple
+
+
+def annual_energy(layout, ctx, hw: Hardware, bins, W_design_W: float) -> YearResult:
+    """Sum of net power x hours over a year's bins (orcscreen.year.Bin: sink temperature °C, hours,
+    optional source temperature °C and flow), each bin's operating point started from its
+    neighbour's (bins sorted by sink temperature); a bin where the plant cannot run counts zero.
+    Capacity factor: energy over the design's net power over all the hours."""
+    points, energy_Wh, hours, off = [], 0.0, 0.0, 0.0
+    guess = None
+    for b in bins:
+        T_src = None if b.source_temperature_C is None else b.source_temperature_C + 273.15
+        p = operating_point(layout, ctx, hw, b.sink_temperature_C + 273.15, T_src, b.source_mass_flow_kg_s, guess)
+        if p.running:
+            guess = (p.T_evap_K, p.T_cond_K)
+        else:
+            off += b.hours
+        energy_Wh += p.W_net_W * b.hours
+        hours += b.hours
+        points.append((b, p))
+    cf = energy_Wh / (W_design_W * hours) if hours > 0 and W_design_W > 0 else math.nan
+    return YearResult(energy_Wh / 1e6, hours, off, cf, tuple(points))
+
+
+def _why(out, default: str) -> str:
+    r = out[0] if isinstance(out, tuple) else out
+    return getattr(r, "reason", "") or default
+
+
+def _limits(ctx, r, source, st3) -> str:
+    """The limit the solved point breaks, in words, or ""."""
+    s = ctx.settings
+    q4 = r.states[r.turbine_outlet].q
+    if q4 == q4 and q4 < s.min_turbine_outlet_quality:
+        return f"turbine outlet quality {q4:.3f} below {s.min_turbine_outlet_quality:g}"
+    T_min = getattr(source, "T_min_K", None)
+    if T_min is not None and r.T_source_out_K < T_min - 1e-6:
+        return (f"source outlet {r.T_source_out_K - 273.15:.1f} °C below its minimum {T_min - 273.15:.1f} °C")
+    if s.max_pressure_Pa is not None and st3.p_Pa > s.max_pressure_Pa * (1 + 1e-9):
+        return f"evaporation pressure {st3.p_Pa / 1e5:.2f} bar above the limit {s.max_pressure_Pa / 1e5:.2f} bar"
+    return ""

@@ -1,0 +1,134 @@
+"""Off-design of a fixed design (orcscreen/offdesign.py).
+
+Checked against: the published correlations worked by hand (Stodola's ellipse law; the
+part-load efficiency of Pili et al., 5th ORC Seminar 2019, as transcribed in a secondary copy;
+the Dittus-Boelter exponent 0.8, Incropera et al., eq. 8.60), conservation laws at every
+off-design point (energy balance, a positive approach on an independent, finer
+discretisation), and the design itself (the solver given the design condition returns it).
+"""
+
+from __future__ import annotations
+
+import dataclasses
+
+import numpy as np
+import pytest
+
+from orcscreen import fluids
+from orcscreen import offdesign as od
+from orcscreen.api import case_context
+from orcscreen.cycles import LAYOUTS
+from orcscreen.optimize import optimise
+from orcscreen.paths import condensing_path, heating_path
+from orcscreen.exchangers import heater_profile
+from orcscreen.study import study_from_dict
+from orcscreen.year import Bin
+
+SOURCE = {"kind": "brine", "inlet_temperature_C": 130.0, "mass_flow_kg_s": 30.0}
+
+
+def test_part_load_correlation_by_hand():
+    """Pili et al. (2019): eta/eta_d = 0.248 + 1.632 a - 1.940 a^2 + 0.033 b - 1.085 b^2 + 2.112 a b.
+    a = 1.1, b = 0.9: 0.248 + 1.7952 - 2.3474 + 0.0297 - 0.87885 + 2.09088 = 0.93753; x 0.85 =
+    0.796901. At design (a = b = 1) the coefficients sum to 1."""
+    assert sum(od.PART_LOAD_COEFFICIENTS) == pytest.approx(1.0, abs=1e-12)
+    assert od.part_load_efficiency(0.85, 1.0, 1.0) == pytest.approx(0.85, rel=1e-12)
+    assert od.part_load_efficiency(0.85, 1.1, 0.9) == pytest.approx(0.796901, rel=1e-6)
+
+
+def test_stodola_ellipse_by_hand():
+    """m = K sqrt(rho p_in (1 - (p_out/p_in)^2)). 10 kg/s, rho 50 kg/m3, 20 -> 2 bar: K =
+    10 / sqrt(50 x 20e5 x 0.99) = 10 / 9949.87 = 1.005038e-3 m2; at 10 bar outlet the flow is
+    K sqrt(50 x 20e5 x 0.75) = 1.005038e-3 x 8660.254 = 8.70390 kg/s."""
+    K = od.stodola_constant(10.0, 50.0, 20e5, 2e5)
+    assert K == pytest.approx(1.005038e-3, rel=1e-6)
+    assert od.stodola_flow(K, 50.0, 20e5, 2e5) == pytest.approx(10.0, rel=1e-12)
+    assert od.stodola_flow(K, 50.0, 20e5, 10e5) == pytest.approx(8.70390, rel=1e-5)
+    assert od.stodola_flow(K, 50.0, 20e5, 20e5) == 0.0
+
+
+def test_zone_coefficients_scale_with_the_flows():
+    """Equal resistances at design, single-phase films ~ m^0.8 (Dittus-Boelter), a phase-change
+    film held: half the source flow on an evaporation zone gives U_d 2 / (1 + 2^0.8) = 0.729627 U_d;
+    both flows at design give U_d."""
+    assert od.scaled_U(1000.0, "preheating", 1.0, 1.0) == pytest.approx(1000.0)
+    assert od.scaled_U(1000.0, "evaporation", 1.0, 0.5) == pytest.approx(1000.0 * 2 / (1 + 2 ** 0.8), rel=1e-12)
+    assert od.scaled_U(1000.0, "preheating", 2.0, 2.0) == pytest.approx(1000.0 * 2 ** 0.8, rel=1e-12)
+
+
+def _design(sink, fluid="R245fa", layout="basic"):
+    raw = {"source": SOURCE, "sink": sink, "fluids": {"include": [fluid]}, "cycle": {"layouts": [layout]}}
+    case = next(iter(study_from_dict(raw).cases()))
+    ctx = case_context(case, fluids.get_info(case.fluid))
+    opt = optimise(LAYOUTS[layout], ctx)
+    assert not isinstance(opt, tuple), opt
+    return LAYOUTS[layout], ctx, opt.cycle, od.hardware_of(opt.cycle, ctx)
+
+
+@pytest.mark.parametrize("layout", ["basic", "recuperated"])
+def test_the_design_condition_returns_the_design(layout):
+    L, ctx, r, hw = _design({"kind": "air", "inlet_temperature_C": 14.0}, layout=layout)
+    p = od.operating_point(L, ctx, hw, ctx.sink.T_in_K)
+    assert p.running, p.reason
+    assert p.W_net_W == pytest.approx(r.W_net_W, rel=1e-9)
+    assert (p.T_evap_K, p.T_cond_K) == pytest.approx((r.T_evap_K, r.T_cond_K), abs=1e-6)
+
+
+def test_a_year_at_the_design_temperature_gives_design_power_times_hours():
+    L, ctx, r, hw = _design({"kind": "water", "inlet_temperature_C": 20.0})
+    year = od.annual_energy(L, ctx, hw, [Bin(20.0, 8760.0)], r.W_net_W)
+    assert year.energy_MWh == pytest.approx(r.W_net_W * 8760.0 / 1e6, rel=1e-3)
+    assert year.capacity_factor == pytest.approx(1.0, rel=1e-3) and year.hours_not_running == 0.0
+
+
+@pytest.fixture(scope="module")
+def air_points():
+    L, ctx, r, hw = _design({"kind": "air", "inlet_temperature_C": 14.0})
+    out, guess = [], None
+    for T in np.arange(14.0, 36.0, 3.0):
+        p = od.operating_point(L, ctx, hw, T + 273.15, guess=guess)
+        assert p.running, (T, p.reason)
+        guess = (p.T_evap_K, p.T_cond_K)
+        out.append((T, p))
+    return ctx, out
+
+
+def test_an_air_cooled_plant_loses_power_as_the_air_warms_above_design(air_points):
+    """Above the design temperature the condensing temperature rises with the air and the net
+    power falls monotonically (NREL/TP-5500-58024, 2013: air-cooled plants lose up to half their
+    output in hot weather); here about 1.3-3 % per K."""
+    _, points = air_points
+    W = [p.W_net_W for _, p in points]
+    Tc = [p.T_cond_K for _, p in points]
+    assert all(a > b for a, b in zip(W, W[1:]))
+    assert all(a < b for a, b in zip(Tc, Tc[1:]))
+    assert 0.3 < W[-1] / W[0] < 0.9
+
+
+def test_energy_and_pinch_hold_at_every_off_design_point(air_points):
+    """Energy balance Q_in + W_pump = Q_out + W_turbine to 1e-9; the evaporator's working fluid
+    below the source and the condenser's above the sink on an independent 200-segment path."""
+    ctx, points = air_points
+    fluid = ctx.fluid
+    for T, p in points:
+        r = p.result
+        assert r.Q_in_W + r.W_pump_W == pytest.approx(r.Q_out_W + r.W_turbine_W, rel=1e-9)
+        st = r.states
+        sat_e, sat_c = fluid.sat_T(p.T_evap_K), fluid.sat_T(p.T_cond_K)
+        fine_e = heating_path(fluid, sat_e, st["2"], st["3"], 200, True, zones=False)
+        source = ctx.source
+        prof = heater_profile(fine_e, p.m_wf_kg_s, st["3"].h, source)
+        assert prof.min_approach_K > 0.0, T
+        fine_c = condensing_path(fluid, sat_c, st["1"], st["4"], 200, True)
+        T_air = T + 273.15
+        assert np.min(fine_c.T_K) > T_air, T
+        assert p.profiles["condenser"].min_approach_K > 0.0
+
+
+def test_unsupported_layouts_say_so():
+    raw = {"source": SOURCE, "fluids": {"include": ["R245fa"]}, "cycle": {"layouts": ["reheat"]}}
+    case = next(iter(study_from_dict(raw).cases()))
+    ctx = case_context(case, fluids.get_info(case.fluid))
+    opt = optimise(LAYOUTS["reheat"], ctx)
+    with pytest.raises(ValueError, match="not modelled"):
+        od.hardware_of(dataclasses.replace(opt.cycle), ctx)
