@@ -11,6 +11,7 @@ from __future__ import annotations
 import math
 
 from . import areas, economics, streams
+from .annual import YEAR_COLUMNS, design_year_columns
 from .economics import ECONOMIC_COLUMNS
 from .cycles import LAYOUTS, CycleResult, Layout, saturation_dome
 from .cycles.base import P_ATM_PA, CycleSettings
@@ -34,7 +35,7 @@ COMMON_COLUMNS = (
     "sink_temperature_rise_K", "pinch_location", "pinch_evaporator_K", "pinch_condenser_K", "pinch_recuperator_K", "ua_evaporator_kW_K",
     "ua_condenser_kW_K", "ua_recuperator_kW_K", "ua_total_kW_K", "size_parameter_m",
     "volume_ratio", "turbine_model", "turbine_stages", "volume_ratio_per_stage", "turbine_efficiency",
-    *AREA_COLUMNS, "condenser_area_basis", *ECONOMIC_COLUMNS,
+    *AREA_COLUMNS, "condenser_area_basis", *ECONOMIC_COLUMNS, *YEAR_COLUMNS,
 )
 _TAIL_COLUMNS = (
     "binding_limit", "sub_atmospheric_condenser", "family",
@@ -160,6 +161,7 @@ def result_row(fluid_name: str, layout: Layout, info, fluid, source, sink, r: Cy
     row.update({k: v for k, v in r.figures.items() if k in layout.columns})
     notes = _warnings(layout, source, r, settings)
     row.update(economics.areas_and_costs(r, source, sink, settings, notes)[0])
+    row.update(design_year_columns(r.W_net_W, getattr(settings, "economics", None)))
     row["warnings"] = "; ".join(notes)
     _add_fluid_columns(row, info)
     return {k: row[k] for k in ROW_COLUMNS}

@@ -20,20 +20,24 @@ __all__ = ["Objective", "OBJECTIVES", "DEFAULT_OBJECTIVE", "score"]
 class Objective:
     """name: the study's value; label: the trade's words; column: the result column it is (SI
     inside: the net power in W); maximise: larger is better; needs_costs: the economics of
-    every evaluated cycle are needed."""
+    every evaluated cycle are needed; needs_year: the column comes from a year of operation
+    (the optimiser then makes the design's net power best)."""
 
     name: str
     label: str
     column: str
     maximise: bool
     needs_costs: bool
+    #: the column comes from a year of operation: the design is optimised for net power at the
+    #: design condition and the ranking sorts by the year's figure
+    needs_year: bool = False
 
     def score(self, r, ctx) -> float:
         """What the optimiser maximises for an evaluated cycle r in context ctx: the column's
         value, negated for a cost; -inf where the cycle is infeasible or its cost unknown."""
         if not r.ok:
             return -math.inf
-        if not self.needs_costs:
+        if not self.needs_costs or self.needs_year:
             return r.W_net_W
         from .economics import areas_and_costs
 
@@ -50,6 +54,8 @@ OBJECTIVES: dict[str, Objective] = {o.name: o for o in (
               False, True),
     Objective("lcoe", "levelised cost of electricity (LCOE)", "lcoe_per_MWh", False, True),
     Objective("net_present_value", "net present value at the electricity price", "net_present_value", True, True),
+    Objective("annual_energy", "annual net energy (a year of operation)", "annual_energy_MWh", True, False, True),
+    Objective("capacity_factor", "capacity factor over the year", "capacity_factor", True, False, True),
 )}
 
 DEFAULT_OBJECTIVE = "net_power"

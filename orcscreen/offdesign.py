@@ -47,6 +47,11 @@ __all__ = ["PART_LOAD_COEFFICIENTS", "part_load_efficiency", "stodola_constant",
 #: Pili et al. (2019): eta / eta_d = c0 + c1 a + c2 a^2 + c3 b + c4 b^2 + c5 a b (sum 1 at design).
 PART_LOAD_COEFFICIENTS = (0.248, 1.632, -1.940, 0.033, -1.085, 2.112)
 
+#: Lowest part-load efficiency over the design one that is taken as a running turbine [-]: below,
+#: the correlation is far outside the conditions it was fitted on and the bin does not run
+#: (our choice).
+PART_LOAD_FLOOR = 0.3
+
 #: Exponent of the flow in a single-phase film coefficient (Dittus-Boelter: h ~ Re^0.8).
 FILM_EXPONENT = 0.8
 
@@ -240,6 +245,9 @@ def operating_point(layout, ctx, hw: Hardware, T_sink_in_K: float, T_source_in_K
             st4s = isentropic_end(fluid, st3r, sat_c)
             eta_new = part_load_efficiency(hw.eta_design, (st3r.h - st4s.h) / hw.dh_is_design,
                                            m * st4s.v / hw.v_out_design_m3_s)
+            if not eta_new > PART_LOAD_FLOOR * hw.eta_design:  # far outside the correlation's range
+                return None, (f"turbine part-load efficiency below {PART_LOAD_FLOOR:.0%} of the design's: "
+                              "outside the correlation's range")
             if abs(eta_new - eta) < 1e-7:
                 break
             eta = eta_new
@@ -339,6 +347,8 @@ def annual_energy(layout, ctx, hw: Hardware, bins, W_design_W: float) -> YearRes
 
 
 def _why(out, default: str) -> str:
+    if isinstance(out, str):
+        return out
     r = out[0] if isinstance(out, tuple) else out
     return getattr(r, "reason", "") or default
 

@@ -598,6 +598,9 @@ def _top_text(summary: RankingSummary, n: int) -> str:
             ("p_cond bar", "condensing_pressure_bar", ".3f"), ("SP m", "size_parameter_m", ".3f"),
             ("VR", "volume_ratio", ".1f"), ("stages", "turbine_stages", ".0f"), ("eta_t", "turbine_efficiency", ".3f")]
     objective = summary.objective or OBJECTIVES[DEFAULT_OBJECTIVE]
+    if objective.needs_year:  # the year's figures next to the design power
+        spec[1:1] = [("MWh/year", "annual_energy_MWh", ".0f"), ("CF", "capacity_factor", ".3f"),
+                     ("h off", "hours_not_running", ".0f")]
     if objective.needs_costs:  # the money columns next to the power (study currency)
         spec[1:1] = [("invest/kW", "specific_investment_per_kW", ".0f"), ("LCOE/MWh", "lcoe_per_MWh", ".1f")]
         if objective.column == "net_present_value":

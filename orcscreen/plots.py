@@ -50,6 +50,8 @@ __all__ = [
     "landscape_chart",
     "sweep_chart",
     "best_fluid_map",
+    "year_chart",
+    "rank_change_chart",
     "file_stem",
     "save_figure",
 ]
@@ -463,6 +465,74 @@ def turbine_map(df: pd.DataFrame, top: pd.DataFrame | None = None, ax: Axes | No
                               markeredgecolor="black", label="best cases (rank)"))
     ax.legend(handles=handles, fontsize=NOTE_PT, loc="lower right")
     return _finish(ax, axis_label("size_parameter_m"), "turbine isentropic efficiency [-]", title)
+
+
+# --------------------------------------------------------------------------- a year
+
+def year_chart(cases: Sequence[tuple[Mapping, Mapping]], ax: Axes | None = None,
+               title: str | None = "Net power over the year's sink temperatures") -> Axes:
+    """Net power [kW] of each top case's fixed design against the sink inlet temperature [°C] of
+    the year's bins (detail["year"]), the design temperature marked; a bin where the plant does
+    not run sits at zero."""
+    ax = _new_axes(ax, 4.0)
+    drawn = 0
+    for k, (row, detail) in enumerate(cases):
+        year = (detail or {}).get("year")
+        if not year:
+            continue
+        colour = list(OKABE_ITO.values())[1 + k % (len(OKABE_ITO) - 1)]
+        ax.plot(year["sink_temperature_C"], year["net_power_kW"], marker=_layout_style(row.get("layout"))["marker"],
+                markersize=3, linewidth=1.0, color=colour, label=case_label(row), gid=f"year-{k}")
+        drawn += 1
+        T_d = year.get("design_sink_temperature_C")
+        if T_d is not None:
+            ax.axvline(T_d, color=_GREY, linewidth=0.7, linestyle="--", zorder=0)
+    if not drawn:
+        raise ValueError("year chart: no case carries a year")
+    ax.annotate("design", xy=(T_d, 0), xycoords=("data", "axes fraction"), xytext=(3, 4),
+                textcoords="offset points", fontsize=NOTE_PT, color=_GREY)
+    ax.legend(fontsize=NOTE_PT, loc="best")
+    return _finish(ax, axis_label("sink.inlet_temperature_C"), axis_label("net_power_kW"), title)
+
+
+def rank_change_chart(df: pd.DataFrame, n: int = 10, ax: Axes | None = None,
+                      title: str | None = "Design-point ranking against the year's ranking") -> Axes:
+    """The best n cases by design net power (left) and by annual net energy (right), each case a
+    line between its two ranks; the winner of each side in bold, and a line in colour where the
+    winner changes."""
+    ok = rank.feasible(df)
+    energy = pd.to_numeric(ok.get("annual_energy_MWh"), errors="coerce")
+    ok = ok[np.isfinite(energy)]
+    if ok.empty:
+        raise ValueError("ranking comparison: no feasible case with an annual energy")
+    design = ok.sort_values(["net_power_kW", "fluid", "layout"], ascending=[False, True, True], kind="mergesort")
+    annual = ok.sort_values(["annual_energy_MWh", "fluid", "layout"], ascending=[False, True, True], kind="mergesort")
+    rank_d = {i: k + 1 for k, i in enumerate(design.index)}
+    rank_a = {i: k + 1 for k, i in enumerate(annual.index)}
+    shown = [i for i in ok.index if rank_d[i] <= n or rank_a[i] <= n]
+    ax = _new_axes(ax, 4.2)
+    changed = design.index[0] != annual.index[0]
+    for i in shown:
+        row = ok.loc[i]
+        lead = i in (design.index[0], annual.index[0])
+        colour = OKABE_ITO["vermillion"] if (changed and lead) else _GREY
+        ax.plot([0, 1], [rank_d[i], rank_a[i]], color=colour, linewidth=1.6 if lead else 0.8, marker="o", markersize=3)
+        label = case_label(row)
+        weight = "bold" if lead else "normal"
+        if rank_d[i] <= n:
+            ax.annotate(label, xy=(0, rank_d[i]), xytext=(-6, 0), textcoords="offset points", ha="right", va="center",
+                        fontsize=NOTE_PT, fontweight=weight)
+        if rank_a[i] <= n:
+            ax.annotate(label, xy=(1, rank_a[i]), xytext=(6, 0), textcoords="offset points", ha="left", va="center",
+                        fontsize=NOTE_PT, fontweight=weight)
+    ax.set_xlim(-0.9, 1.9)
+    ax.set_ylim(n + 0.5, 0.5)
+    ax.set_xticks([0, 1], ["by design net power", "by annual net energy"], fontsize=TICK_PT)
+    ax.set_yticks(range(1, n + 1))
+    if changed:
+        ax.text(0.5, 0.02, "the winner changes over the year", transform=ax.transAxes, ha="center",
+                fontsize=NOTE_PT, color=OKABE_ITO["vermillion"])
+    return _finish(ax, "", "rank", title)
 
 
 # --------------------------------------------------------------------------- landscape

@@ -106,7 +106,7 @@ REPORT_COLUMNS = (
     "family", "safety_class", "gwp100", "odp", "curve_type",
     "sink_temperature_rise_K", "area_evaporator_m2", "area_condenser_m2", "area_recuperator_m2",
     "condenser_area_basis", "investment_total", "specific_investment_per_kW", "annual_energy_MWh", "lcoe_per_MWh",
-    "net_present_value",
+    "net_present_value", "capacity_factor", "hours_not_running",
 ) + LAYOUT_COLUMNS
 
 
@@ -216,6 +216,15 @@ def make_figures(data: _RunData, fig_dir: Path) -> list[FigureRecord]:
           "Small machines and large volume ratios cost efficiency." + (f" At the {note}." if note else ""),
           lambda: plots.turbine_map(at_point, data.top))
     cases = [(r, data.details.get(r["case_key"])) for _, r in data.top.iterrows()]
+    if any((d or {}).get("year") for _, d in cases):
+        _draw(records, fig_dir, "year_power", "Net power over the year",
+              "Each top case's fixed design rated at the sink temperatures of the year's bins (sliding pressure: "
+              "the turbine's swallowing capacity sets the evaporation pressure; fans and pumps at design speed; "
+              "exchanger areas fixed, their coefficients scaled with the flows). A bin at zero does not run.",
+              lambda: plots.year_chart(cases))
+        _draw(records, fig_dir, "rank_change", "Design-point ranking against the year",
+              "Where the best case at the design point is not the best over the year, the two are drawn in colour.",
+              lambda: plots.rank_change_chart(at_point))
     _draw(records, fig_dir, "landscape", "Optimisation landscape",
           "The optimiser's scan of evaporation temperature for the best fluids; the star is the "
           "optimum, the legend names the limit that binds there.",

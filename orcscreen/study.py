@@ -71,6 +71,7 @@ SINK_KINDS = tuple(_streams.SINK_KINDS)
 #: Turbine efficiency models, from the turbine-model registry (orcscreen.turbine).
 TURBINE_MODELS = tuple(_turbine.TURBINE_MODELS)
 OBJECTIVE_NAMES = tuple(_objectives.OBJECTIVES)
+_ANNUAL_OBJECTIVES = tuple(o.name for o in _objectives.OBJECTIVES.values() if o.needs_year)
 SAFETY_CLASSES = ("A1", "A2L", "A2", "A3", "B1", "B2L", "B2", "B3")
 FLUE_GAS_SPECIES = tuple(_streams.GAS_SPECIES)
 MAX_CASES = 1_000_000
@@ -434,6 +435,31 @@ class CycleSection(_Section):
 
 COST_MODELS = tuple(_costs.COST_MODELS)
 
+#: Off-design control strategies of a year (the plant's response to each bin).
+CONTROLS = ("sliding-pressure",)
+
+
+class YearSection(_Section):
+    """[year]: a year of operation; each fluid's design is rated bin by bin (orcscreen.offdesign)."""
+
+    file: Optional[str] = _f(
+        None, "CSV file of the year (hourly rows or temperature bins; orcscreen.year), relative to the study "
+        "file and inside its folder; none: the design point only.", "a relative path to a CSV file"
+    )
+    design_sink_temperature_C: Optional[float] = _f(
+        None, "Design sink inlet temperature [°C]; default: sink.inlet_temperature_C where the study writes it, "
+        "else the year's mean (common practice).", "a number from -50 to 80", ge=-50, le=80
+    )
+    control: Literal[CONTROLS] = _f(
+        "sliding-pressure", "How the plant meets each bin: \"sliding-pressure\" (the turbine's swallowing "
+        "capacity sets the evaporation pressure; fans and pumps at design speed; a bin that breaks a limit is "
+        "not run).", _choices(CONTROLS)
+    )
+    bin_width_K: float = _f(1.0, "Width of the sink-temperature bins of an hourly year [K].", "a number > 0", gt=0)
+    #: set on loading (not study keys): the file resolved, and its SHA-256 (the case keys carry it)
+    resolved_path: Optional[str] = Field(None, description="Set by orcscreen on loading; leave out.")
+    sha256: Optional[str] = Field(None, description="Set by orcscreen on loading; leave out.")
+
 
 def _currency_problem(code: Any) -> str | None:
     """Why code is not an ISO 4217 currency code (pycountry's table), or None."""
@@ -550,7 +576,7 @@ class FluidsSection(_Section):
         return _as_list(v)
 
 
-_CASE_SECTIONS = ("study", "source", "sink", "exchangers", "machines", "limits", "cycle", "economics")
+_CASE_SECTIONS = ("study", "source", "sink", "exchangers", "machines", "limits", "cycle", "economics", "year")
 
 
 class Study(BaseModel):
@@ -575,6 +601,7 @@ class Study(BaseModel):
     cycle: CycleSection = Field(default_factory=CycleSection, description="[cycle] layouts, superheat, subcooling.")
     economics: EconomicsSection = Field(default_factory=EconomicsSection,
                                         description="[economics] cost model, money, annuity (screening estimates).")
+    year: YearSection = Field(default_factory=YearSection, description="[year] a year of operation (off-design).")
     fluid_filter: FluidsSection = Field(
         default_factory=FluidsSection, alias="fluids", description="[fluids] which fluids to screen."
     )
@@ -682,6 +709,7 @@ class Case:
     limits: LimitsSection
     cycle: CycleSection
     economics: EconomicsSection
+    year: YearSection
     data: dict[str, Any] = dataclasses.field(repr=False, compare=False, default_factory=dict)
 
     def as_dict(self) -> dict[str, Any]:
@@ -733,6 +761,7 @@ _SECTION_MODELS: dict[str, type[BaseModel]] = {
     "limits": LimitsSection,
     "cycle": CycleSection,
     "economics": EconomicsSection,
+    "year": YearSection,
     "fluids": FluidsSection,
 }
 _TOP_KEYS = ("schema_version", *_SECTION_MODELS, "sweep")
@@ -1503,6 +1532,49 @@ def _time_limit_problems(study: Study, specs: Mapping[str, Any], origin: str, er
             return
 
 
+def _check_year(study: Study, raw: Mapping[str, Any], specs: Mapping[str, Any], origin: str,
+                errors: list[str]) -> Study:
+    """The year file: resolved inside the study's folder, read and binned (orcscreen.year; its
+    problems name the file, row and column), its hash kept for the case keys; the design sink
+    temperature settled (year.design_sink_temperature_C, else a written sink.inlet_temperature_C,
+    else the year's mean) and put in [sink]."""
+    from orcscreen import year as _year
+
+    section = study.year
+    given = (raw.get("year") or {}) if isinstance(raw.get("year"), Mapping) else {}
+    for key in ("resolved_path", "sha256"):
+        if key in given:
+            errors.append(f"{origin}: year.{key}: set by orcscreen on loading; allowed: leave it out")
+    if section.file is None:
+        if study.study.objective in _ANNUAL_OBJECTIVES:
+            errors.append(f'{origin}: study.objective = "{study.study.objective}": needs a year; allowed: give '
+                          f"year.file, or another objective")
+        return study
+    if "sink.inlet_temperature_C" in specs:
+        errors.append(f"{origin}: sweep.\"sink.inlet_temperature_C\": the year gives the sink temperatures; "
+                      f"allowed: leave this sweep out, or the [year] section")
+        return study
+    study_file = Path(origin) if origin != "<dict>" else Path.cwd() / "study.toml"
+    try:
+        path = _year.resolve_year_path(study_file, section.file)
+    except _year.YearError as exc:  # names the study file and the key
+        errors.append(str(exc))
+        return study
+    try:
+        year = _year.read_year(path, section.bin_width_K)
+        sha = hashlib.sha256(path.read_bytes()).hexdigest()
+    except (_year.YearError, OSError) as exc:  # names the year file, its row and column
+        errors.append(f"{origin}: year.file = {_show(section.file)}: {exc}")
+        return study
+    written = (raw.get("sink") or {}).get("inlet_temperature_C") if isinstance(raw.get("sink"), Mapping) else None
+    T_design = section.design_sink_temperature_C
+    if T_design is None:
+        T_design = float(written) if isinstance(written, (int, float)) else round(year.mean_sink_temperature_C, 2)
+    update = {"resolved_path": str(path), "sha256": sha, "design_sink_temperature_C": T_design}
+    return study.model_copy(update={"year": section.model_copy(update=update),
+                                    "sink": study.sink.model_copy(update={"inlet_temperature_C": T_design})})
+
+
 def _objective_problems(study: Study, origin: str, errors: list[str]) -> None:
     """An objective that needs a price of the electricity must have one; a pinch is optimised only
     for a cost (for the net power its lowest value always wins)."""
@@ -1566,6 +1638,7 @@ def study_from_dict(d: Mapping[str, Any], origin: str = "<dict>", *, allow_huge:
     _turbine_key_problems(raw, study, specs, origin, errors)
     _time_limit_problems(study, specs, origin, errors)
     _objective_problems(study, origin, errors)
+    study = _check_year(study, raw, specs, origin, errors)
     fluids = _resolve_fluids(study.fluid_filter, origin, errors)
     _check_points(study, specs, origin, errors, with_streams=not errors)
     study._origin = origin

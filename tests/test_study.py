@@ -66,6 +66,8 @@ CONTRACT_DEFAULTS = {
     "economics": {"cost_model": "turbine-by-size-2014", "currency": "EUR", "cost_year": 2023, "cost_index": {},
                   "exchange_rates": {}, "discount_rate": 0.07, "lifetime_years": 25, "om_fraction": 0.02,
                   "full_load_hours": 7500.0, "electricity_price_per_MWh": None},
+    "year": {"file": None, "design_sink_temperature_C": None, "control": "sliding-pressure", "bin_width_K": 1.0,
+             "resolved_path": None, "sha256": None},
 }
 
 
@@ -74,7 +76,7 @@ def test_every_default_of_the_contract_is_filled_in_the_case():
     cases = [c.as_dict() for c in s.cases()]
     assert [c["layout"] for c in cases] == ["basic", "recuperated", "transcritical"]  # default layouts
     case = cases[0]
-    assert set(case) == {"study", "source", "sink", "exchangers", "machines", "limits", "cycle", "economics",
+    assert set(case) == {"study", "source", "sink", "exchangers", "machines", "limits", "cycle", "economics", "year",
                          "fluid", "layout", "sweep"}
     for section, expected in CONTRACT_DEFAULTS.items():
         for key, value in expected.items():
