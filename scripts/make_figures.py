@@ -1,11 +1,12 @@
 """Regenerate the README's example figures in figures/ from the invented demo studies.
 
     python scripts/make_figures.py            # demo study + the sweep study (a few minutes)
-    python scripts/make_figures.py --no-sweep # demo study only (under a minute)
+    python scripts/make_figures.py --no-sweep # demo and year studies only (under a minute)
 
-Runs studies/demo.toml (and studies/overnight-sweep.toml for the sweep charts) into a temporary
-directory with the ordinary batch, builds the report there (which draws every chart), copies a
-few PNGs to figures/ under fixed names (FIGURES, SWEEP_FIGURES) and draws figures/ranking.png
+Runs studies/demo.toml, studies/air-cooled-year.toml (the year's charts) and
+studies/overnight-sweep.toml (the sweep charts) into a temporary directory with the ordinary
+batch, builds the report there (which draws every chart), copies a few PNGs to figures/ under
+fixed names (FIGURES, YEAR_FIGURES, SWEEP_FIGURES) and draws figures/ranking.png
 with the best README_BARS cases. Nothing else in the repository changes.
 """
 
@@ -27,6 +28,10 @@ FIGURES = {
     "tradeoff-investment.png": "tradeoff_investment.png",
     "landscape.png": "landscape.png",
     "turbine-map.png": "turbine_map.png",
+}
+YEAR_FIGURES = {
+    "year-power.png": "year_power.png",
+    "rank-change.png": "rank_change.png",
 }
 SWEEP_FIGURES = {
     "sweep-source-temperature.png": "sweep_source.inlet_temperature_C.png",
@@ -81,6 +86,7 @@ def main(argv: list[str] | None = None) -> int:
     parser.add_argument("--study", type=Path, default=REPO / "studies" / "demo.toml")
     parser.add_argument("--sweep-study", type=Path,
                         default=REPO / "studies" / "overnight-sweep.toml")
+    parser.add_argument("--year-study", type=Path, default=REPO / "studies" / "air-cooled-year.toml")
     parser.add_argument("--no-sweep", action="store_true", help="skip the sweep charts")
     parser.add_argument("--dest", type=Path, default=REPO / "figures")
     parser.add_argument("--jobs", type=int, default=None, help="worker processes (default: all)")
@@ -92,6 +98,7 @@ def main(argv: list[str] | None = None) -> int:
         demo = Path(tmp) / "demo"
         written += _copy(_run(args.study.resolve(), demo, args.jobs), FIGURES, args.dest)
         written.append(_ranking(demo, args.dest))
+        written += _copy(_run(args.year_study.resolve(), Path(tmp) / "year", args.jobs), YEAR_FIGURES, args.dest)
         if not args.no_sweep:
             written += _copy(_run(args.sweep_study.resolve(), Path(tmp) / "sweep", args.jobs),
                              SWEEP_FIGURES, args.dest)
