@@ -148,6 +148,9 @@ class OperatingPoint:
     result: object = None
     #: the evaporator's and condenser's T-Q profiles at the point (the areas' check)
     profiles: dict = dataclasses.field(default_factory=dict)
+    #: turbine-inlet superheat at the point [K] (raised above the design's to keep the
+    #: turbine outlet quality at its limit where the expansion would be too wet)
+    superheat_K: float = math.nan
 
     @property
     def running(self) -> bool:
@@ -216,15 +219,23 @@ def operating_point(layout, ctx, hw: Hardware, T_sink_in_K: float, T_source_in_K
     sink = dataclasses.replace(ctx.sink, T_in_K=float(T_sink_in_K), rise_K=max(3.0 * ctx.sink.rise_K, 30.0))
     m_sink = hw.m_sink_design * _density(sink, sink.T_in_K) / hw.sink_density_design
     W_aux = hw.W_aux_design_W * _density(sink, sink.T_in_K) / hw.sink_density_design
+    # the layout evaluates without the outlet-quality and pressure limits: this module checks
+    # them on the solved point (and answers a wet expansion with superheat first)
     settings0 = dataclasses.replace(s, aux_power_per_W_rejected=0.0, turbine=ConstantEfficiency(hw.eta_design),
-                                    u_W_m2K={}, economics=None, objective=None, profiles_in_search=False)
+                                    u_W_m2K={}, economics=None, objective=None, profiles_in_search=False,
+                                    min_turbine_outlet_quality=0.0, max_pressure_Pa=None, max_reduced_pressure=0.995)
     n = s.n_zone_segments
-    x_sh = hw.superheat_K
+    q_min = s.min_turbine_outlet_quality
 
-    def solve_point(T_evap: float, T_cond: float):
-        """(residuals, result) at (T_evap, T_cond): the flow the turbine swallows, the part-load
-        efficiency settled, the areas needed over the design's."""
+    def solve_point(x):
+        """(residuals, result) at x = (T_evap, T_cond) with the design's superheat, or (T_evap,
+        T_cond, superheat) with the turbine outlet at its quality limit: the flow the turbine
+        swallows, the part-load efficiency settled, the areas needed over the design's."""
+        T_evap, T_cond = float(x[0]), float(x[1])
+        x_sh = float(x[2]) if len(x) > 2 else hw.superheat_K
         if not (T_cond + 0.5 < T_evap < min(fluid.T_crit_K - 0.05, source.T_in_K - 0.05)) or T_cond <= sink.T_in_K:
+            return None, None
+        if x_sh < 0.0 or T_evap + x_sh > source.T_in_K - 0.05:
             return None, None
         sat_e, sat_c = fluid.sat_T(T_evap), fluid.sat_T(T_cond)
         st3 = fluid.state_pT(sat_e.p_Pa, T_evap + x_sh, "gas") if x_sh > 1e-12 else None
@@ -262,54 +273,78 @@ def operating_point(layout, ctx, hw: Hardware, T_sink_in_K: float, T_source_in_K
         A_e = _area(prof_e, "evaporator", hw.evaporator, hw.U_design, m / hw.m_wf_design,
                     source.m_kg_s / hw.m_source_design)
         A_c = _area(prof_c, "condenser", hw.condenser, hw.U_design, m / hw.m_wf_design, m_sink / hw.m_sink_design)
-        res = np.array([A_e / hw.evaporator.area_m2 - 1.0, A_c / hw.condenser.area_m2 - 1.0])
-        return (res if np.all(np.isfinite(res)) else None), (r, {"evaporator": prof_e, "condenser": prof_c}, m, eta)
+        res = [A_e / hw.evaporator.area_m2 - 1.0, A_c / hw.condenser.area_m2 - 1.0]
+        if len(x) > 2:  # the superheat that puts the turbine outlet at its quality limit
+            q4 = st[r.turbine_outlet].q
+            res.append((q4 if q4 == q4 else 1.0) - q_min)
+        res = np.array(res)
+        return (res if np.all(np.isfinite(res)) else None), (r, {"evaporator": prof_e, "condenser": prof_c}, m, eta, x_sh)
 
     # start: the guess's (a neighbouring bin's) evaporation temperature, or the design's, and the
     # design's condensing temperature moved with the sink
-    x = np.array((guess[0] if guess is not None else hw.T_evap_design_K,
-                  hw.T_cond_design_K + (sink.T_in_K - hw.T_sink_design_K)), dtype=float)
-    f, out = solve_point(*x)
-    step_K = 0.02
-    for _ in range(40):
-        if f is None:
-            return OperatingPoint(0.0, reason=_why(out, "no operating point: the hardware cannot run at this condition"))
-        if np.max(np.abs(f)) < AREA_RTOL:
-            break
-        J = np.empty((2, 2))
-        for j in range(2):
-            dx = np.zeros(2)
-            dx[j] = step_K
-            fj, _ = solve_point(*(x + dx))
-            if fj is None:
-                dx[j] = -step_K
-                fj, _ = solve_point(*(x + dx))
-                if fj is None:
-                    return OperatingPoint(0.0, reason="no operating point: the search left the fluid's range")
-            J[:, j] = (fj - f) / dx[j]
-        try:
-            delta = -np.linalg.solve(J, f)
-        except np.linalg.LinAlgError:
-            return OperatingPoint(0.0, reason="no operating point: the area balance is singular here")
-        lam = 1.0
-        while lam > 1e-3:
-            x_try = x + lam * np.clip(delta, -5.0, 5.0)
-            f_try, out_try = solve_point(*x_try)
-            if f_try is not None and np.max(np.abs(f_try)) < np.max(np.abs(f)):
-                x, f, out = x_try, f_try, out_try
-                break
-            lam *= 0.5
-        else:
-            return OperatingPoint(0.0, reason="no operating point: the area balance did not converge")
-    else:
-        return OperatingPoint(0.0, reason="no operating point: the area balance did not converge")
-    r, profiles, m, eta = out
+    x0 = np.array((guess[0] if guess is not None else hw.T_evap_design_K,
+                   hw.T_cond_design_K + (sink.T_in_K - hw.T_sink_design_K)), dtype=float)
+    x, out, failed = _newton(solve_point, x0)
+    if failed:
+        return OperatingPoint(0.0, reason=failed)
+    r = out[0]
+    q4 = r.states[r.turbine_outlet].q
+    wet = q4 == q4 and q4 < q_min
+    room = s.max_turbine_inlet_temperature_K is None or x[0] + hw.superheat_K + 3.0 < s.max_turbine_inlet_temperature_K
+    if wet and room:
+        # the operator's answer to a wet expansion: more superheat at the turbine inlet (the
+        # feed pump slows until the vapour leaves the evaporator hot enough), just enough to
+        # keep the outlet quality at its limit
+        x3, out3, failed3 = _newton(solve_point, np.array([x[0], x[1], hw.superheat_K + 3.0]))
+        if not failed3:
+            x, out = x3, out3
+    r, profiles, m, eta, sh = out
     why = _limits(ctx, r, source, r.states["3"])
     W_net = r.W_net_W - W_aux
     if not why and W_net <= 0.0:
         why = "net power not positive at this condition"
     return OperatingPoint(0.0 if why else W_net, why, float(x[0]), float(x[1]), m, eta,
-                          float(profiles["evaporator"].T_hot_K[0]), r, profiles)
+                          float(profiles["evaporator"].T_hot_K[0]), r, profiles, sh)
+
+
+def _newton(solve, x0: np.ndarray, step_K: float = 0.02, iterations: int = 40):
+    """Damped Newton iteration on solve(x) -> (residuals or None, payload) from x0, with a
+    forward-difference Jacobian: (x, payload, "") when the residuals are below AREA_RTOL, else
+    (x, payload, the reason in words)."""
+    x = np.array(x0, dtype=float)
+    f, out = solve(x)
+    for _ in range(iterations):
+        if f is None:
+            return x, out, _why(out, "no operating point: the hardware cannot run at this condition")
+        if np.max(np.abs(f)) < AREA_RTOL:
+            return x, out, ""
+        k = len(x)
+        J = np.empty((k, k))
+        for j in range(k):
+            dx = np.zeros(k)
+            dx[j] = step_K
+            fj, _ = solve(x + dx)
+            if fj is None:
+                dx[j] = -step_K
+                fj, _ = solve(x + dx)
+                if fj is None:
+                    return x, out, "no operating point: the search left the fluid's range"
+            J[:, j] = (fj - f) / dx[j]
+        try:
+            delta = -np.linalg.solve(J, f)
+        except np.linalg.LinAlgError:
+            return x, out, "no operating point: the area balance is singular here"
+        lam = 1.0
+        while lam > 1e-3:
+            x_try = x + lam * np.clip(delta, -5.0, 5.0)
+            f_try, out_try = solve(x_try)
+            if f_try is not None and np.max(np.abs(f_try)) < np.max(np.abs(f)):
+                x, f, out = x_try, f_try, out_try
+                break
+            lam *= 0.5
+        else:
+            return x, out, "no operating point: the area balance did not converge"
+    return x, out, "no operating point: the area balance did not converge"
 
 
 @dataclass(frozen=True)
@@ -362,6 +397,13 @@ def _limits(ctx, r, source, st3) -> str:
     T_min = getattr(source, "T_min_K", None)
     if T_min is not None and r.T_source_out_K < T_min - 1e-6:
         return (f"source outlet {r.T_source_out_K - 273.15:.1f} °C below its minimum {T_min - 273.15:.1f} °C")
+    if s.max_turbine_inlet_temperature_K is not None and st3.T_K > s.max_turbine_inlet_temperature_K + 1e-6:
+        return (f"turbine inlet {st3.T_K - 273.15:.1f} °C above the fluid's thermal-stability limit "
+                f"{s.max_turbine_inlet_temperature_K - 273.15:.1f} °C")
+    p_max = s.max_evaporation_pressure_Pa(ctx.fluid)
+    if st3.p_Pa > p_max * (1 + 1e-9):
+        return (f"evaporation pressure {st3.p_Pa / 1e5:.2f} bar above the limit {p_max / 1e5:.2f} bar "
+                f"(the turbine would need throttling: not modelled yet)")
     if s.max_pressure_Pa is not None and st3.p_Pa > s.max_pressure_Pa * (1 + 1e-9):
         return f"evaporation pressure {st3.p_Pa / 1e5:.2f} bar above the limit {s.max_pressure_Pa / 1e5:.2f} bar"
     return ""

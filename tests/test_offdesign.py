@@ -56,8 +56,9 @@ def test_zone_coefficients_scale_with_the_flows():
     assert od.scaled_U(1000.0, "preheating", 2.0, 2.0) == pytest.approx(1000.0 * 2 ** 0.8, rel=1e-12)
 
 
-def _design(sink, fluid="R245fa", layout="basic"):
-    raw = {"source": SOURCE, "sink": sink, "fluids": {"include": [fluid]}, "cycle": {"layouts": [layout]}}
+def _design(sink, fluid="R245fa", layout="basic", source=None, **sections):
+    raw = {"source": source or SOURCE, "sink": sink, "fluids": {"include": [fluid]}, "cycle": {"layouts": [layout]},
+           **sections}
     case = next(iter(study_from_dict(raw).cases()))
     ctx = case_context(case, fluids.get_info(case.fluid))
     opt = optimise(LAYOUTS[layout], ctx)
@@ -205,3 +206,22 @@ def test_bins_beyond_the_turbine_correlation_stop_and_the_design_stands():
     assert 0 < row["hours_not_running"] < 8760
     assert row["annual_energy_MWh"] > 0
     assert "not running" in row["warnings"] and "part-load efficiency" in row["warnings"]
+
+
+def test_a_wet_expansion_is_answered_with_superheat():
+    """R134a (a wet fluid) designed with a saturated turbine inlet just at its outlet-quality limit:
+    in warmer air the sliding evaporation pressure rises and the expansion would end wetter
+    than the limit; the plant answers with just enough superheat (the feed pump slows), so the point
+    runs with the outlet quality at its limit (common practice of ORC control), the energy
+    balance still closing."""
+    q_min = 0.969  # a strict limit, so that this design sits on it (the default 0.9 binds nearer the critical point)
+    L, ctx, r, hw = _design({"kind": "air", "inlet_temperature_C": 14.0}, fluid="R134a",
+                            source={**SOURCE, "inlet_temperature_C": 120.0},
+                            limits={"min_turbine_outlet_quality": q_min})
+    assert hw.superheat_K == 0.0 and q_min <= r.states["4"].q < q_min + 1e-3  # just dry enough at design
+    p = od.operating_point(L, ctx, hw, 20.0 + 273.15)
+    assert p.running, p.reason
+    assert p.superheat_K > 0.0
+    assert p.result.states["4"].q == pytest.approx(ctx.settings.min_turbine_outlet_quality, abs=1e-5)
+    res = p.result
+    assert res.Q_in_W + res.W_pump_W == pytest.approx(res.Q_out_W + res.W_turbine_W, rel=1e-9)
