@@ -435,8 +435,12 @@ class _ForkPool:
         for proc in self.processes:
             with contextlib.suppress(OSError, ValueError, AssertionError):
                 proc.join(timeout=5)
-        with contextlib.suppress(Exception):
-            self.executor.shutdown(wait=True)
+        # the executor's own thread ends once it sees its workers gone; wait for it a bounded
+        # time only (shutdown(wait=True) can wait for ever when its call queue's feeder thread
+        # is blocked on a full pipe whose readers were just killed; seen once on Ctrl-C)
+        manager = getattr(self.executor, "_executor_manager_thread", None)
+        if manager is not None:
+            manager.join(timeout=5)
 
     def __enter__(self) -> _ForkPool:
         return self

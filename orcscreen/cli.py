@@ -7,6 +7,7 @@ allowed; never a traceback), 1 internal error, 130 interrupted.
 from __future__ import annotations
 
 import argparse
+import contextlib
 import json
 import math
 import os
@@ -383,6 +384,13 @@ def main(argv: Sequence[str] | None = None) -> int:
     except KeyboardInterrupt:
         print("orcscreen: interrupted; finished cases are kept in the run store, run again to resume",
               file=sys.stderr)
+        if argv is None:  # the process's own command line: leave now, without joining the
+            # threads of a stopped worker pool (the store is closed and every finished case is
+            # in it; a thread blocked on a dead worker's pipe must not hold the exit)
+            for stream in (sys.stdout, sys.stderr):
+                with contextlib.suppress(Exception):
+                    stream.flush()
+            os._exit(EXIT_INTERRUPTED)
         return EXIT_INTERRUPTED
     except BrokenPipeError:
         # the reader went away (orcscreen fluids | head); not an error of ours
