@@ -225,3 +225,22 @@ def test_a_wet_expansion_is_answered_with_superheat():
     assert p.result.states["4"].q == pytest.approx(ctx.settings.min_turbine_outlet_quality, abs=1e-5)
     res = p.result
     assert res.Q_in_W + res.W_pump_W == pytest.approx(res.Q_out_W + res.W_turbine_W, rel=1e-9)
+
+
+def test_the_source_may_change_bin_by_bin(tmp_path):
+    """A year whose bins also give the source's temperature and flow: at one sink temperature, a
+    hotter source and a larger flow give more power than the design's source (more heat through
+    the same hardware), and a bin with the study's source reproduces the design."""
+    from orcscreen.api import run_case
+
+    csv_text = ("sink_temperature_C,hours,source_temperature_C,source_mass_flow_kg_s\n"
+                "14,2000,,\n14,2000,140,\n14,2000,,36\n")
+    study = _load(tmp_path, _year_study(tmp_path, csv_text, year={"file": "year.csv",
+                                                                   "design_sink_temperature_C": 14.0}))
+    out = run_case(next(iter(study.cases())))
+    year = out["detail"]["year"]
+    assert len(year["net_power_kW"]) == 3 and all(w > 0 for w in year["net_power_kW"])
+    design = out["row"]["net_power_kW"]
+    powers = sorted(year["net_power_kW"])
+    assert powers[0] == pytest.approx(design, rel=1e-6)  # the study's source: the design point
+    assert powers[1] > design and powers[2] > design  # hotter, or more flow: more power
