@@ -28,7 +28,7 @@ def _bins(path: str, sha256: str, bin_width_K: float):
     return read_year(path, bin_width_K).bins
 
 
-def design_year_columns(W_net_W: float, econ) -> dict:
+def design_year_columns(econ) -> dict:
     """Capacity factor and hours not running of a case without a year (full-load hours)."""
     hours = getattr(econ, "full_load_hours", math.nan)
     return {"capacity_factor": hours / HOURS_PER_YEAR, "hours_not_running": math.nan}

@@ -22,7 +22,7 @@ import numpy as np
 
 from .exchangers import Profile, lmtd_K
 
-__all__ = ["ZONES", "EXCHANGERS", "U_KEYS", "DEFAULT_U_W_m2K", "PLATEAU_TOL_K", "segment_zones", "ExchangerArea", "exchanger_area", "exchanger_areas"]
+__all__ = ["zone_coefficients", "ZONES", "EXCHANGERS", "U_KEYS", "DEFAULT_U_W_m2K", "PLATEAU_TOL_K", "segment_zones", "ExchangerArea", "exchanger_area", "exchanger_areas"]
 
 #: Zone names, in the order they are reported.
 ZONES = ("preheating", "evaporation", "superheating", "supercritical heating",
@@ -35,6 +35,13 @@ U_KEYS = {zone: f"u_{zone.replace(' ', '_')}_W_m2K" for zone in ZONES}
 #: organic vapour to organic liquid, 100-300 in common ORC screening practice (the midpoint;
 #: from memory). The source's and sink's kinds give the heater's and condenser's zones.
 DEFAULT_U_W_m2K = {"recuperation": 200.0}
+
+def zone_coefficients(source, sink, given=None) -> dict[str, float]:
+    """Overall coefficients U [W/(m2 K)] by zone for a case: DEFAULT_U_W_m2K, then the source's and
+    the sink's kinds (their ``u_defaults_W_m2K``), then the study's own (``given``)."""
+    return {**DEFAULT_U_W_m2K, **getattr(source, "u_defaults_W_m2K", {}), **getattr(sink, "u_defaults_W_m2K", {}),
+            **(given or {})}
+
 
 #: Largest change of the working-fluid temperature [K] over a segment that still counts as a
 #: phase-change plateau.

@@ -153,8 +153,7 @@ def areas_and_costs(r, source, sink, settings, notes: list[str]) -> tuple[dict, 
     (:func:`economic_figures`). What cannot be computed becomes a line of notes, never an error
     of the case; its columns stay out (NaN in a row)."""
     out: dict = {"condenser_area_basis": getattr(sink, "area_basis", "")}
-    U = {**areas.DEFAULT_U_W_m2K, **getattr(source, "u_defaults_W_m2K", {}), **getattr(sink, "u_defaults_W_m2K", {}),
-         **(getattr(settings, "u_W_m2K", None) or {})}
+    U = areas.zone_coefficients(source, sink, getattr(settings, "u_W_m2K", None))
     try:
         found = areas.exchanger_areas({k: p for k, p in r.profiles.items() if k in areas.EXCHANGERS}, U)
     except (KeyError, ValueError) as exc:

@@ -161,7 +161,7 @@ def result_row(fluid_name: str, layout: Layout, info, fluid, source, sink, r: Cy
     row.update({k: v for k, v in r.figures.items() if k in layout.columns})
     notes = _warnings(layout, source, r, settings)
     row.update(economics.areas_and_costs(r, source, sink, settings, notes)[0])
-    row.update(design_year_columns(r.W_net_W, getattr(settings, "economics", None)))
+    row.update(design_year_columns(getattr(settings, "economics", None)))
     row["warnings"] = "; ".join(notes)
     _add_fluid_columns(row, info)
     return {k: row[k] for k in ROW_COLUMNS}

@@ -167,23 +167,17 @@ def hardware_of(design, ctx) -> Hardware:
     """The hardware the design result (exact, feasible) fixes in its context."""
     _need(design)
     fluid, st = ctx.fluid, design.states
-    st3, st4s_v = st["3"], None
+    st3 = st["3"]
     sat_c = fluid.sat_T(design.T_cond_K)
     st4s = isentropic_end(fluid, st3, sat_c)
-    st4s_v = st4s.v
     K = stodola_constant(design.m_wf_kg_s, 1.0 / st3.v, st3.p_Pa, sat_c.p_Pa)
-    U = _U_of(ctx)
+    U = areas.zone_coefficients(ctx.source, ctx.sink, ctx.settings.u_W_m2K)
     found = areas.exchanger_areas({k: p for k, p in design.profiles.items() if k in ("evaporator", "condenser")}, U)
     sink = ctx.sink
-    return Hardware(design.layout, K, design.eta_turbine, st3.h - st4s.h, design.m_wf_kg_s * st4s_v,
+    return Hardware(design.layout, K, design.eta_turbine, st3.h - st4s.h, design.m_wf_kg_s * st4s.v,
                     found["evaporator"], found["condenser"], U, design.m_wf_kg_s, ctx.source.m_kg_s,
                     design.m_sink_kg_s, design.W_aux_W, design.superheat_K, design.T_evap_K, design.T_cond_K,
                     _density(sink, sink.T_in_K), sink.T_in_K)
-
-
-def _U_of(ctx) -> dict:
-    return {**areas.DEFAULT_U_W_m2K, **getattr(ctx.source, "u_defaults_W_m2K", {}),
-            **getattr(ctx.sink, "u_defaults_W_m2K", {}), **(ctx.settings.u_W_m2K or {})}
 
 
 def _density(sink, T_K: float) -> float:
@@ -193,7 +187,7 @@ def _density(sink, T_K: float) -> float:
     return dry_air_density_kg_m3(T_K, sink.p_Pa) if getattr(sink, "area_basis", "") == "finned" else 1.0
 
 
-def _area(profile: Profile, exchanger: str, design: areas.ExchangerArea, U_design: dict, wf_ratio: float,
+def _area(profile: Profile, exchanger: str, U_design: dict, wf_ratio: float,
           stream_ratio: float) -> float:
     """Area [m2] the profile needs with the zones' U scaled off design (inf across a crossing)."""
     U = {z: scaled_U(U_design[z], z, wf_ratio, stream_ratio) for z in U_design}
@@ -270,9 +264,9 @@ def operating_point(layout, ctx, hw: Hardware, T_sink_in_K: float, T_source_in_K
         Q = m * (cpath.h - cpath.h[0])
         T_sink = sink.T_K(sink.h_in_J_kg + Q / m_sink)
         prof_c = Profile(Q, cpath.T_K, np.asarray(T_sink, dtype=float))
-        A_e = _area(prof_e, "evaporator", hw.evaporator, hw.U_design, m / hw.m_wf_design,
+        A_e = _area(prof_e, "evaporator", hw.U_design, m / hw.m_wf_design,
                     source.m_kg_s / hw.m_source_design)
-        A_c = _area(prof_c, "condenser", hw.condenser, hw.U_design, m / hw.m_wf_design, m_sink / hw.m_sink_design)
+        A_c = _area(prof_c, "condenser", hw.U_design, m / hw.m_wf_design, m_sink / hw.m_sink_design)
         res = [A_e / hw.evaporator.area_m2 - 1.0, A_c / hw.condenser.area_m2 - 1.0]
         if len(x) > 2:  # the superheat that puts the turbine outlet at its quality limit
             q4 = st[r.turbine_outlet].q
@@ -404,6 +398,4 @@ def _limits(ctx, r, source, st3) -> str:
     if st3.p_Pa > p_max * (1 + 1e-9):
         return (f"evaporation pressure {st3.p_Pa / 1e5:.2f} bar above the limit {p_max / 1e5:.2f} bar "
                 f"(the turbine would need throttling: not modelled yet)")
-    if s.max_pressure_Pa is not None and st3.p_Pa > s.max_pressure_Pa * (1 + 1e-9):
-        return f"evaporation pressure {st3.p_Pa / 1e5:.2f} bar above the limit {s.max_pressure_Pa / 1e5:.2f} bar"
     return ""

@@ -108,7 +108,7 @@ def _row_columns_of(columns: list[str], sweep_cols: list[str]) -> list[str]:
     return [c for c in (*engine_columns, *extra) if c not in TIMING_COLUMNS]
 
 
-def _objective_of(meta: dict | None) -> Objective:
+def objective_of(meta: dict | None) -> Objective:
     """The study's objective (orcscreen.objectives), from a store's meta; net power by default."""
     name = (((meta or {}).get("study") or {}).get("study") or {}).get("objective")
     return OBJECTIVES.get(name) or OBJECTIVES[DEFAULT_OBJECTIVE]
@@ -205,7 +205,7 @@ def ranking_table(rows: pd.DataFrame, meta: dict | None = None, *,
     if not all_columns:
         row_cols = [c for c in row_cols if c in df]
     whole = {c: _whole_numbers(df[c]) for c in _INTEGER_COLUMNS if c in df}
-    return _finish(_ranked_order(df, sweep_cols, _objective_of(meta)), sweep_cols, row_cols, meta, whole)
+    return _finish(_ranked_order(df, sweep_cols, objective_of(meta)), sweep_cols, row_cols, meta, whole)
 
 
 @dataclass
@@ -359,14 +359,14 @@ def _stream_ranking(store: RunStore, meta: dict, target: Path | None,
         if col not in small:
             small[col] = None
     whole = {c: _whole_numbers(small[c]) for c in _INTEGER_COLUMNS}
-    order = _ranked_order(small, sweep_cols, _objective_of(meta))[["case_index", "_point", "rank"]]
+    order = _ranked_order(small, sweep_cols, objective_of(meta))[["case_index", "_point", "rank"]]
     del small
     if kept is not None:
         kept = pd.concat(kept, ignore_index=True).reindex(columns=columns)
         kept_index = kept["case_index"].to_numpy(dtype="int64")  # ascending: case order
 
     # Pass 2: whole operating points, about ROWS_CHUNK rows at a time, in ranking order.
-    tally = _Tally(sweep_cols, keep, _objective_of(meta))
+    tally = _Tally(sweep_cols, keep, objective_of(meta))
     with contextlib.ExitStack() as stack:
         # written to a temporary file created without following links, renamed at the end
         out = None if target is None else stack.enter_context(atomic_writer(target))
@@ -407,7 +407,7 @@ def _whole_ranking(store: RunStore, meta: dict, target: Path | None,
     if target is not None:
         _atomic_write(target, table.to_csv(index=False, float_format=FLOAT_FORMAT,
                                            lineterminator="\n"))
-    return _small_summary(table, target or store.directory / RANKING_FILE, store.path, keep, _objective_of(meta))
+    return _small_summary(table, target or store.directory / RANKING_FILE, store.path, keep, objective_of(meta))
 
 
 def _point_slices(order: pd.DataFrame):

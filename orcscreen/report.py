@@ -30,7 +30,7 @@ import pandas as pd
 
 from orcscreen import plots, rank
 from orcscreen.figures import LAYOUT_COLUMNS
-from orcscreen.outputs import ranking_table
+from orcscreen.outputs import objective_of, ranking_table
 from orcscreen.safe_files import atomic_write, refuse_link
 from orcscreen.store import RunStore, StoreError
 
@@ -477,14 +477,6 @@ def _figure_html(rec: FigureRecord) -> str:
 
 # --------------------------------------------------------------------------- sections
 
-def _objective(meta: Mapping):
-    """The study's objective (orcscreen.objectives), from the store's meta."""
-    from orcscreen.objectives import DEFAULT_OBJECTIVE, OBJECTIVES
-
-    name = ((meta.get("study") or {}).get("study") or {}).get("objective")
-    return OBJECTIVES.get(name) or OBJECTIVES[DEFAULT_OBJECTIVE]
-
-
 def _money(meta: Mapping) -> str:
     """The money of the cost columns: "EUR of 2023"."""
     econ = (meta.get("study") or {}).get("economics") or {}
@@ -517,7 +509,7 @@ def _summary(data: _RunData) -> str:
         ("cases", f"{len(table)} (" + ", ".join(f"{n} {s}" for s, n in counts.items()) + ")"),
         ("fluids", table["fluid"].nunique() if "fluid" in table else 0),
         ("layouts", ", ".join(map(str, pd.unique(table["layout"]))) if "layout" in table else ""),
-        ("ranked by", _objective(meta).label),
+        ("ranked by", objective_of(meta).label),
         ("costs", _cost_basis(meta)),
     ]
     for c in data.sweep_cols:
@@ -632,7 +624,7 @@ def _ranking_section(data: _RunData, overview: list[FigureRecord]) -> str:
                 cells.append((_fmt(value, fmt if fmt != "d" else ".0f"), _sort_key(value)))
         rows.append(cells)
     cut = len(ok) - len(shown)
-    caption = (f"Feasible cases, ranked by {_objective(data.meta).label} within each operating point. Click a "
+    caption = (f"Feasible cases, ranked by {objective_of(data.meta).label} within each operating point. Click a "
                "header to sort.") + (f" The first {len(shown)} of {len(ok)} rows; all are in "
                                      "ranking.csv." if cut > 0 else "")
     figs = "".join(_figure_html(r) for r in overview)
