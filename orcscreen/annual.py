@@ -44,7 +44,7 @@ def year_figures(layout, ctx, design, section, row: dict) -> tuple[dict, dict | 
                  f"(only {', '.join(offdesign.SUPPORTED_LAYOUTS)})"])
     bins = _bins(section.resolved_path, section.sha256, section.bin_width_K)
     hw = offdesign.hardware_of(design, ctx)
-    year = offdesign.annual_energy(layout, ctx, hw, bins, design.W_net_W)
+    year = offdesign.annual_energy(layout, ctx, hw, bins, design.W_net_W, section.control)
     out = {"annual_energy_MWh": year.energy_MWh, "capacity_factor": year.capacity_factor,
            "hours_not_running": year.hours_not_running}
     econ = ctx.settings.economics
@@ -60,6 +60,9 @@ def year_figures(layout, ctx, design, section, row: dict) -> tuple[dict, dict | 
               "hours": [b.hours for b, _ in year.points],
               "net_power_kW": [p.W_net_W / 1e3 for _, p in year.points],
               "reason": [p.reason for _, p in year.points],
+              "sink_flow_fraction": [p.sink_flow_fraction for _, p in year.points],
+              "superheat_K": [p.superheat_K for _, p in year.points],
+              "actions": [p.actions for _, p in year.points],
               "design_sink_temperature_C": ctx.sink.T_in_K - 273.15}
     notes = []
     if year.hours_not_running > 0:

@@ -38,11 +38,12 @@ from . import areas
 from .cycles.base import isentropic_end
 from .exchangers import Profile, heater_profile
 from .paths import condensing_path, heating_path
+from .controls import CONTROLS, MIN_SINK_FLOW_FRACTION
 from .turbine import ConstantEfficiency
 
 __all__ = ["PART_LOAD_COEFFICIENTS", "part_load_efficiency", "stodola_constant", "stodola_flow",
            "film_ratio", "scaled_U", "Hardware", "OperatingPoint", "hardware_of", "operating_point",
-           "SUPPORTED_LAYOUTS", "YearResult", "annual_energy"]
+           "SUPPORTED_LAYOUTS", "YearResult", "annual_energy", "best_sink_flow_point"]
 
 #: Pili et al. (2019): eta / eta_d = c0 + c1 a + c2 a^2 + c3 b + c4 b^2 + c5 a b (sum 1 at design).
 PART_LOAD_COEFFICIENTS = (0.248, 1.632, -1.940, 0.033, -1.085, 2.112)
@@ -148,9 +149,13 @@ class OperatingPoint:
     result: object = None
     #: the evaporator's and condenser's T-Q profiles at the point (the areas' check)
     profiles: dict = dataclasses.field(default_factory=dict)
-    #: turbine-inlet superheat at the point [K] (raised above the design's to keep the
-    #: turbine outlet quality at its limit where the expansion would be too wet)
+    #: turbine-inlet superheat at the point [K] (raised above the design's where a wet expansion
+    #: or the pressure limit is answered)
     superheat_K: float = math.nan
+    #: the sink's fan or pump flow over its design flow [-]
+    sink_flow_fraction: float = 1.0
+    #: what the operator did to meet a limit, in words ("" when nothing)
+    actions: str = ""
 
     @property
     def running(self) -> bool:
@@ -195,42 +200,53 @@ def _area(profile: Profile, exchanger: str, U_design: dict, wf_ratio: float,
 
 
 def operating_point(layout, ctx, hw: Hardware, T_sink_in_K: float, T_source_in_K: float | None = None,
-                    m_source_kg_s: float | None = None, guess: tuple[float, float] | None = None) -> OperatingPoint:
+                    m_source_kg_s: float | None = None, guess: tuple[float, float] | None = None,
+                    sink_flow_fraction: float = 1.0) -> OperatingPoint:
     """The operating point of the design's hardware at a sink inlet temperature (and source inlet
-    temperature and flow, the design's when None), in sliding pressure: the evaporation
-    temperature whose pressure the turbine swallows the flow at (Stodola), with the evaporator's
-    and the condenser's areas just sufficient (their zones' U scaled with the flows). Solved by a
-    damped Newton iteration on (T_evap, T_cond) from guess (the design's by default). A point
-    where the hardware cannot run (no solution, a limit broken) has zero power and the reason.
-    Limits off design: the turbine outlet quality, the source outlet minimum and the pressure
-    limit are checked on the solved point; a point that breaks one does not run (the plant is
-    stopped in that bin: the conservative choice; throttling or a source bypass would recover
-    part of it)."""
+    temperature and flow, the design's when None), the sink's fans or pumps at sink_flow_fraction
+    of their design flow, in sliding pressure: the evaporation temperature whose pressure the
+    turbine swallows the flow at (Stodola), with the evaporator's and the condenser's areas just
+    sufficient (their zones' U scaled with the flows). Solved by a damped Newton iteration on
+    (T_evap, T_cond) from guess (the design's by default).
+
+    A limit that binds is answered as an operator would (orcscreen.controls): a wet expansion
+    with just enough superheat, the pressure limit by holding the pressure there with less flow
+    (more superheat), the source's outlet minimum by slowing the sink's fans or pumps. A point
+    where the hardware cannot run, or that still breaks a limit, has zero power and the reason."""
     fluid, s = ctx.fluid, ctx.settings
     source = ctx.source
     if T_source_in_K is not None or m_source_kg_s is not None:
         source = dataclasses.replace(source, T_in_K=T_source_in_K or source.T_in_K, m_kg_s=m_source_kg_s or source.m_kg_s)
-    sink = dataclasses.replace(ctx.sink, T_in_K=float(T_sink_in_K), rise_K=max(3.0 * ctx.sink.rise_K, 30.0))
-    m_sink = hw.m_sink_design * _density(sink, sink.T_in_K) / hw.sink_density_design
-    W_aux = hw.W_aux_design_W * _density(sink, sink.T_in_K) / hw.sink_density_design
-    # the layout evaluates without the outlet-quality and pressure limits: this module checks
-    # them on the solved point (and answers a wet expansion with superheat first)
+    sink = dataclasses.replace(ctx.sink, T_in_K=float(T_sink_in_K),
+                               rise_K=max(2.0 * ctx.sink.rise_K / MIN_SINK_FLOW_FRACTION, 30.0))
+    density_ratio = _density(sink, sink.T_in_K) / hw.sink_density_design
+    # the layout evaluates without the outlet-quality and pressure limits nor the design's pinch:
+    # this module checks the limits on the solved point (and answers them first)
     settings0 = dataclasses.replace(s, aux_power_per_W_rejected=0.0, turbine=ConstantEfficiency(hw.eta_design),
                                     u_W_m2K={}, economics=None, objective=None, profiles_in_search=False,
-                                    min_turbine_outlet_quality=0.0, max_pressure_Pa=None, max_reduced_pressure=0.995)
+                                    min_turbine_outlet_quality=0.0, max_pressure_Pa=None, max_reduced_pressure=0.995,
+                                    pinch_evaporator_K=0.0)
     n = s.n_zone_segments
     q_min = s.min_turbine_outlet_quality
+    p_max = s.max_evaporation_pressure_Pa(fluid)
+    T_evap_max = fluid.T_sat_K(p_max) if p_max < fluid.p_crit_Pa else math.inf
+    T_min = source.T_out_min_K
 
-    def solve_point(x):
-        """(residuals, result) at x = (T_evap, T_cond) with the design's superheat, or (T_evap,
-        T_cond, superheat) with the turbine outlet at its quality limit: the flow the turbine
-        swallows, the part-load efficiency settled, the areas needed over the design's."""
+    def solve_point(x, answers=()):
+        """(residuals, payload) at x = (T_evap, T_cond[, superheat][, sink flow fraction]): the
+        flow the turbine swallows, the part-load efficiency settled, the areas needed over the
+        design's, and one residual per answer: "wet" (superheat free, outlet quality at its
+        limit), "pressure" (superheat free, evaporation at the pressure limit), "outlet" (sink
+        flow free, source outlet at its minimum)."""
         T_evap, T_cond = float(x[0]), float(x[1])
-        x_sh = float(x[2]) if len(x) > 2 else hw.superheat_K
+        free_superheat = "wet" in answers or "pressure" in answers
+        x_sh = float(x[2]) if free_superheat else hw.superheat_K
+        g = float(x[-1]) if "outlet" in answers else sink_flow_fraction
         if not (T_cond + 0.5 < T_evap < min(fluid.T_crit_K - 0.05, source.T_in_K - 0.05)) or T_cond <= sink.T_in_K:
             return None, None
-        if x_sh < 0.0 or T_evap + x_sh > source.T_in_K - 0.05:
+        if x_sh < 0.0 or T_evap + x_sh > source.T_in_K - 0.05 or not 0.05 < g <= 1.5:
             return None, None
+        m_sink = hw.m_sink_design * density_ratio * g
         sat_e, sat_c = fluid.sat_T(T_evap), fluid.sat_T(T_cond)
         st3 = fluid.state_pT(sat_e.p_Pa, T_evap + x_sh, "gas") if x_sh > 1e-12 else None
         v3 = st3.v if st3 is not None else sat_e.vV
@@ -268,37 +284,100 @@ def operating_point(layout, ctx, hw: Hardware, T_sink_in_K: float, T_source_in_K
                     source.m_kg_s / hw.m_source_design)
         A_c = _area(prof_c, "condenser", hw.U_design, m / hw.m_wf_design, m_sink / hw.m_sink_design)
         res = [A_e / hw.evaporator.area_m2 - 1.0, A_c / hw.condenser.area_m2 - 1.0]
-        if len(x) > 2:  # the superheat that puts the turbine outlet at its quality limit
+        if "wet" in answers:  # the superheat that puts the turbine outlet at its quality limit
             q4 = st[r.turbine_outlet].q
             res.append((q4 if q4 == q4 else 1.0) - q_min)
+        elif "pressure" in answers:  # the superheat that holds the evaporation at the pressure limit
+            res.append(T_evap - T_evap_max)
+        if "outlet" in answers:  # the sink flow that brings the source outlet to its minimum
+            res.append(float(prof_e.T_hot_K[0]) - T_min)
         res = np.array(res)
-        return (res if np.all(np.isfinite(res)) else None), (r, {"evaporator": prof_e, "condenser": prof_c}, m, eta, x_sh)
+        payload = _Solved(r, {"evaporator": prof_e, "condenser": prof_c}, m, eta, x_sh, g,
+                          hw.W_aux_design_W * density_ratio * g ** 3)
+        return (res if np.all(np.isfinite(res)) else None), payload
 
     # start: the guess's (a neighbouring bin's) evaporation temperature, or the design's, and the
     # design's condensing temperature moved with the sink
     x0 = np.array((guess[0] if guess is not None else hw.T_evap_design_K,
                    hw.T_cond_design_K + (sink.T_in_K - hw.T_sink_design_K)), dtype=float)
     x, out, failed = _newton(solve_point, x0)
+    if failed and abs(x0[1] - hw.T_cond_design_K) > 0.5:  # a second start: the design's condensing temperature
+        x2, out2, failed2 = _newton(solve_point, np.array((x0[0], hw.T_cond_design_K)))
+        if not failed2:
+            x, out, failed = x2, out2, ""
+    answers, actions = (), []
+    if failed and math.isfinite(T_evap_max):
+        # no sliding-pressure point (it may lie above the pressure limit): try the pressure held
+        x, out, answers, actions = _answer(solve_point, x, out, answers, np.array([T_evap_max, x0[1], hw.superheat_K + 3.0]),
+                                           ("pressure",), actions, "pressure held at its limit with less flow")
+        failed = failed if not answers else ""
     if failed:
-        return OperatingPoint(0.0, reason=failed)
-    r = out[0]
-    q4 = r.states[r.turbine_outlet].q
-    wet = q4 == q4 and q4 < q_min
+        return OperatingPoint(0.0, reason=failed, sink_flow_fraction=sink_flow_fraction)
     room = s.max_turbine_inlet_temperature_K is None or x[0] + hw.superheat_K + 3.0 < s.max_turbine_inlet_temperature_K
-    if wet and room:
-        # the operator's answer to a wet expansion: more superheat at the turbine inlet (the
-        # feed pump slows until the vapour leaves the evaporator hot enough), just enough to
-        # keep the outlet quality at its limit
-        x3, out3, failed3 = _newton(solve_point, np.array([x[0], x[1], hw.superheat_K + 3.0]))
-        if not failed3:
-            x, out = x3, out3
-    r, profiles, m, eta, sh = out
-    why = _limits(ctx, r, source, r.states["3"])
-    W_net = r.W_net_W - W_aux
+    if _wet(out.result, q_min) and room:
+        # a wet expansion: just enough superheat to hold the outlet quality at its limit
+        x, out, answers, actions = _answer(solve_point, x, out, answers, np.array([x[0], x[1], hw.superheat_K + 3.0]),
+                                           ("wet",), actions, "superheat raised to keep the expansion dry")
+    if x[0] > T_evap_max + 1e-9 and "pressure" not in answers:
+        # the pressure limit: held there with less flow, the vapour leaving more superheated
+        sh = out.superheat_K + max(3.0, x[0] - T_evap_max)
+        x, out, answers, actions = _answer(solve_point, x, out, answers, np.array([T_evap_max, x[1], sh]), ("pressure",),
+                                           actions, "pressure held at its limit with less flow")
+    if T_min is not None and out.T_source_out_K < T_min - 1e-6:
+        # the source's outlet minimum: the sink's fans or pumps slowed until it is met
+        # started from the design's temperatures, where a design on that limit settles
+        for x1 in (np.concatenate(((hw.T_evap_design_K, hw.T_cond_design_K), x[2:], (0.7 * out.sink_flow_fraction,))),
+                   np.append(x, 0.8 * out.sink_flow_fraction)):
+            x, out, answers, actions = _answer(solve_point, x, out, answers, x1, answers + ("outlet",), actions,
+                                               "sink flow reduced to keep the source outlet at its minimum")
+            if "outlet" in answers:
+                break
+        if "outlet" in answers and out.sink_flow_fraction < MIN_SINK_FLOW_FRACTION:
+            why = (f"the source outlet would need the sink's flow at {out.sink_flow_fraction:.0%} of design, "
+                   f"below the {MIN_SINK_FLOW_FRACTION:.0%} the fans or pumps are slowed to")
+            return OperatingPoint(0.0, why, sink_flow_fraction=out.sink_flow_fraction)
+    r, profiles = out.result, out.profiles
+    why = _limits(ctx, r, source, r.states["3"], out.T_source_out_K)
+    W_net = r.W_net_W - out.W_aux_W
     if not why and W_net <= 0.0:
         why = "net power not positive at this condition"
-    return OperatingPoint(0.0 if why else W_net, why, float(x[0]), float(x[1]), m, eta,
-                          float(profiles["evaporator"].T_hot_K[0]), r, profiles, sh)
+    return OperatingPoint(0.0 if why else W_net, why, float(x[0]), float(x[1]), out.m_wf_kg_s, out.eta_turbine,
+                          out.T_source_out_K, r, profiles, out.superheat_K, out.sink_flow_fraction,
+                          "; ".join(actions))
+
+
+@dataclass(frozen=True)
+class _Solved:
+    """What one trial of operating_point computed: the cycle, its exchanger profiles, the flow
+    [kg/s], the turbine efficiency, the superheat [K], the sink flow fraction and the sink's
+    fan or pump power [W]."""
+
+    result: object
+    profiles: dict
+    m_wf_kg_s: float
+    eta_turbine: float
+    superheat_K: float
+    sink_flow_fraction: float
+    W_aux_W: float
+
+    @property
+    def T_source_out_K(self) -> float:
+        return float(self.profiles["evaporator"].T_hot_K[0])
+
+
+def _wet(r, q_min: float) -> bool:
+    q4 = r.states[r.turbine_outlet].q
+    return q4 == q4 and q4 < q_min
+
+
+def _answer(solve_point, x, out, answers: tuple, x0, trial: tuple, actions: list, action: str):
+    """Solve again from x0 with the unknowns and residuals of trial: the new (x, payload,
+    answers, actions), or the old ones (x, out, answers) when no point is found (the limit check
+    then names the limit the plant could not meet)."""
+    x_new, out_new, failed = _newton(lambda z: solve_point(z, trial), x0)
+    if failed:
+        return x, out, answers, actions
+    return x_new, out_new, trial, actions + [action]
 
 
 def _newton(solve, x0: np.ndarray, step_K: float = 0.02, iterations: int = 40):
@@ -354,25 +433,61 @@ class YearResult:
     points: tuple
 
 
-def annual_energy(layout, ctx, hw: Hardware, bins, W_design_W: float) -> YearResult:
+def best_sink_flow_point(layout, ctx, hw: Hardware, T_sink_in_K: float, T_source_in_K: float | None = None,
+                         m_source_kg_s: float | None = None, guess: tuple[float, float] | None = None) -> OperatingPoint:
+    """The operating point at the sink's fan or pump speed that gives the largest net power, from
+    MIN_SINK_FLOW_FRACTION to the design flow (or to the flow the source's outlet minimum
+    allows): a bounded scalar search (scipy's minimize_scalar, Brent's method) to SINK_FLOW_XTOL
+    over the points of operating_point; the design speed's point when no slower one does better."""
+    from scipy.optimize import minimize_scalar
+
+    full = operating_point(layout, ctx, hw, T_sink_in_K, T_source_in_K, m_source_kg_s, guess)
+    start = (full.T_evap_K, full.T_cond_K) if full.running else guess
+    top = min(1.0, full.sink_flow_fraction)
+    if top <= MIN_SINK_FLOW_FRACTION + SINK_FLOW_XTOL:
+        return full
+    tried = [full]
+
+    def loss(g: float) -> float:
+        p = operating_point(layout, ctx, hw, T_sink_in_K, T_source_in_K, m_source_kg_s, start, sink_flow_fraction=g)
+        tried.append(p)
+        return -p.W_net_W
+
+    minimize_scalar(loss, bounds=(MIN_SINK_FLOW_FRACTION, top), method="bounded", options={"xatol": SINK_FLOW_XTOL})
+    return max(tried, key=lambda p: p.W_net_W)
+
+
+#: Tolerance of the best sink flow [-] (a 1 % step of the fan speed; our choice).
+SINK_FLOW_XTOL = 0.01
+
+
+def annual_energy(layout, ctx, hw: Hardware, bins, W_design_W: float, control: str = "sliding-pressure") -> YearResult:
     """Sum of net power x hours over a year's bins (orcscreen.year.Bin: sink temperature °C, hours,
-    optional source temperature °C and flow), each bin's operating point started from its
-    neighbour's (bins sorted by sink temperature); a bin where the plant cannot run counts zero.
-    Capacity factor: energy over the design's net power over all the hours."""
-    points, energy_Wh, hours, off = [], 0.0, 0.0, 0.0
-    guess = None
-    for b in bins:
-        T_src = None if b.source_temperature_C is None else b.source_temperature_C + 273.15
-        p = operating_point(layout, ctx, hw, b.sink_temperature_C + 273.15, T_src, b.source_mass_flow_kg_s, guess)
-        if p.running:
-            guess = (p.T_evap_K, p.T_cond_K)
-        else:
-            off += b.hours
-        energy_Wh += p.W_net_W * b.hours
-        hours += b.hours
-        points.append((b, p))
+    optional source temperature °C and flow), each bin's operating point under the control
+    strategy (orcscreen.controls) started from its neighbour's (bins sorted by sink
+    temperature); a bin where the plant cannot run counts zero. Capacity factor: energy over the
+    design's net power over all the hours."""
+    point_at = best_sink_flow_point if CONTROLS[control].best_sink_flow else operating_point
+    solved = {}
+    T_d = hw.T_sink_design_K - 273.15
+    warm = [i for i, b in enumerate(bins) if b.sink_temperature_C >= T_d]
+    cold = [i for i, b in enumerate(bins) if b.sink_temperature_C < T_d]
+    # continuation outwards from the design temperature: each bin starts from its neighbour's point
+    for chain in (sorted(warm, key=lambda i: bins[i].sink_temperature_C),
+                  sorted(cold, key=lambda i: -bins[i].sink_temperature_C)):
+        guess = None
+        for i in chain:
+            b = bins[i]
+            T_src = None if b.source_temperature_C is None else b.source_temperature_C + 273.15
+            solved[i] = p = point_at(layout, ctx, hw, b.sink_temperature_C + 273.15, T_src, b.source_mass_flow_kg_s, guess)
+            if p.running:
+                guess = (p.T_evap_K, p.T_cond_K)
+    points = tuple((b, solved[i]) for i, b in enumerate(bins))
+    energy_Wh = sum(p.W_net_W * b.hours for b, p in points)
+    hours = sum(b.hours for b, _ in points)
+    off = sum(b.hours for b, p in points if not p.running)
     cf = energy_Wh / (W_design_W * hours) if hours > 0 and W_design_W > 0 else math.nan
-    return YearResult(energy_Wh / 1e6, hours, off, cf, tuple(points))
+    return YearResult(energy_Wh / 1e6, hours, off, cf, points)
 
 
 def _why(out, default: str) -> str:
@@ -382,20 +497,21 @@ def _why(out, default: str) -> str:
     return getattr(r, "reason", "") or default
 
 
-def _limits(ctx, r, source, st3) -> str:
+def _limits(ctx, r, source, st3, T_source_out_K: float) -> str:
     """The limit the solved point breaks, in words, or ""."""
     s = ctx.settings
     q4 = r.states[r.turbine_outlet].q
     if q4 == q4 and q4 < s.min_turbine_outlet_quality:
         return f"turbine outlet quality {q4:.3f} below {s.min_turbine_outlet_quality:g}"
-    T_min = getattr(source, "T_min_K", None)
-    if T_min is not None and r.T_source_out_K < T_min - 1e-6:
-        return (f"source outlet {r.T_source_out_K - 273.15:.1f} °C below its minimum {T_min - 273.15:.1f} °C")
+    T_min = source.T_out_min_K
+    if T_min is not None and T_source_out_K < T_min - 1e-6:
+        return (f"source outlet {T_source_out_K - 273.15:.1f} °C below its minimum {T_min - 273.15:.1f} °C "
+                "even with the sink's fans or pumps slowed")
     if s.max_turbine_inlet_temperature_K is not None and st3.T_K > s.max_turbine_inlet_temperature_K + 1e-6:
         return (f"turbine inlet {st3.T_K - 273.15:.1f} °C above the fluid's thermal-stability limit "
                 f"{s.max_turbine_inlet_temperature_K - 273.15:.1f} °C")
     p_max = s.max_evaporation_pressure_Pa(ctx.fluid)
     if st3.p_Pa > p_max * (1 + 1e-9):
-        return (f"evaporation pressure {st3.p_Pa / 1e5:.2f} bar above the limit {p_max / 1e5:.2f} bar "
-                f"(the turbine would need throttling: not modelled yet)")
+        return (f"evaporation pressure {st3.p_Pa / 1e5:.2f} bar above the limit {p_max / 1e5:.2f} bar, "
+                "and no operating point holds it there with less flow")
     return ""

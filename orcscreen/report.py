@@ -29,6 +29,7 @@ import numpy as np
 import pandas as pd
 
 from orcscreen import plots, rank
+from orcscreen.controls import CONTROLS
 from orcscreen.figures import LAYOUT_COLUMNS
 from orcscreen.outputs import objective_of, ranking_table
 from orcscreen.safe_files import atomic_write, refuse_link
@@ -217,10 +218,12 @@ def make_figures(data: _RunData, fig_dir: Path) -> list[FigureRecord]:
           lambda: plots.turbine_map(at_point, data.top))
     cases = [(r, data.details.get(r["case_key"])) for _, r in data.top.iterrows()]
     if any((d or {}).get("year") for _, d in cases):
+        year_control = ((data.meta.get("study") or {}).get("year") or {}).get("control") or "sliding-pressure"
         _draw(records, fig_dir, "year_power", "Net power over the year",
-              "Each top case's fixed design rated at the sink temperatures of the year's bins (sliding pressure: "
-              "the turbine's swallowing capacity sets the evaporation pressure; fans and pumps at design speed; "
-              "exchanger areas fixed, their coefficients scaled with the flows). A bin at zero does not run.",
+              "Each top case's fixed design rated at the sink temperatures of the year's bins (the turbine's "
+              "swallowing capacity sets the evaporation pressure; exchanger areas fixed, their coefficients scaled "
+              f"with the flows; control \"{year_control}\": {CONTROLS[year_control].description}). "
+              "A bin at zero does not run.",
               lambda: plots.year_chart(cases))
         _draw(records, fig_dir, "rank_change", "Design-point ranking against the year",
               "Where the best case at the design point is not the best over the year, the two are drawn in colour.",

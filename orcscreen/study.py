@@ -43,6 +43,7 @@ from orcscreen import cycles as _cycles  # the registries the schema reads (no C
 from orcscreen import streams as _streams
 from orcscreen import areas as _areas
 from orcscreen import costs as _costs
+from orcscreen import controls as _controls
 from orcscreen.case_variables import optimised_or
 from orcscreen import objectives as _objectives
 from orcscreen import turbine as _turbine
@@ -436,7 +437,7 @@ class CycleSection(_Section):
 COST_MODELS = tuple(_costs.COST_MODELS)
 
 #: Off-design control strategies of a year (the plant's response to each bin).
-CONTROLS = ("sliding-pressure",)
+CONTROLS = _controls.CONTROL_NAMES
 
 
 class YearSection(_Section):
@@ -451,9 +452,8 @@ class YearSection(_Section):
         "else the year's mean (common practice).", "a number from -50 to 80", ge=-50, le=80
     )
     control: Literal[CONTROLS] = _f(
-        "sliding-pressure", "How the plant meets each bin: \"sliding-pressure\" (the turbine's swallowing "
-        "capacity sets the evaporation pressure; fans and pumps at design speed; a bin that breaks a limit is "
-        "not run).", _choices(CONTROLS)
+        "sliding-pressure", "How the plant meets each bin (orcscreen.controls): " + "; ".join(
+            f"\"{c.name}\": {c.description}" for c in _controls.CONTROLS.values()) + ".", _choices(CONTROLS)
     )
     bin_width_K: float = _f(1.0, "Width of the sink-temperature bins of an hourly year [K].", "a number > 0", gt=0)
     #: set on loading (not study keys): the file resolved, and its SHA-256 (the case keys carry it)

@@ -244,3 +244,100 @@ def test_the_source_may_change_bin_by_bin(tmp_path):
     powers = sorted(year["net_power_kW"])
     assert powers[0] == pytest.approx(design, rel=1e-6)  # the study's source: the design point
     assert powers[1] > design and powers[2] > design  # hotter, or more flow: more power
+
+
+# --------------------------------------------------------------------------- an operator's answers
+AIR_YEAR = {"source": {**SOURCE, "pressure_bar": 10.0}, "exchangers": {"pinch_evaporator_K": 6.0, "pinch_condenser_K": 8.0},
+            "machines": {"generator_efficiency": 0.96, "motor_efficiency": 0.93}}
+AIR = {"kind": "air", "inlet_temperature_C": 14.0, "temperature_rise_K": 12.0}
+
+
+def _air_design(fluid, source=None):
+    return _design(AIR, fluid=fluid, source=source or AIR_YEAR["source"],
+                   **{k: v for k, v in AIR_YEAR.items() if k != "source"})
+
+
+def _closes(p):
+    r = p.result
+    assert r.Q_in_W + r.W_pump_W == pytest.approx(r.Q_out_W + r.W_turbine_W, rel=1e-9)
+    assert p.profiles["evaporator"].min_approach_K > 0.0 and p.profiles["condenser"].min_approach_K > 0.0
+
+
+def test_the_pressure_limit_is_held_with_less_flow():
+    """R134a designed just below its pressure limit (0.9 p_crit by default): in 30 °C air the
+    sliding pressure the turbine needs would pass the limit (shown by the same hardware with the
+    limit lifted), so the plant holds the evaporation pressure at the limit with less flow and
+    more superheat (the feed pump slows; orcscreen.controls). Energy closes, both exchangers keep
+    a positive approach."""
+    L, ctx, r, hw = _air_design("R134a")
+    p_max = ctx.settings.max_evaporation_pressure_Pa(ctx.fluid)
+    assert r.states["3"].p_Pa < p_max
+    free = dataclasses.replace(ctx, settings=dataclasses.replace(ctx.settings, max_reduced_pressure=0.99))
+    sliding = od.operating_point(L, free, hw, 30.0 + 273.15)
+    assert sliding.running and sliding.result.states["3"].p_Pa > p_max * 1.001
+    p = od.operating_point(L, ctx, hw, 30.0 + 273.15)
+    assert p.running, p.reason
+    assert "pressure held" in p.actions
+    assert p.result.states["3"].p_Pa == pytest.approx(p_max, rel=1e-6)
+    assert p.m_wf_kg_s < sliding.m_wf_kg_s and p.superheat_K > sliding.superheat_K
+    assert p.result.states["4"].q >= ctx.settings.min_turbine_outlet_quality - 1e-9
+    _closes(p)
+
+
+def test_the_source_outlet_minimum_is_kept_by_slowing_the_fans():
+    """R245fa designed with the brine leaving at its 75 °C minimum: in cold air the condensing
+    temperature would fall and the brine leave colder (at full fan speed: below 75 °C), so the
+    fans slow until it leaves at 75 °C. The outlet is checked on the source's own energy balance,
+    the fans' power by the affinity laws (power ~ speed^3 at a fixed density ratio: common
+    practice, e.g. any fan handbook), and the approach on a 200-segment path."""
+    L, ctx, r, hw = _air_design("R245fa", source={**AIR_YEAR["source"], "min_outlet_temperature_C": 75.0})
+    assert r.T_source_out_K == pytest.approx(75.0 + 273.15, abs=0.01)  # the design sits on the limit
+    T_air = 0.0 + 273.15
+    unlimited = dataclasses.replace(ctx, source=dataclasses.replace(ctx.source, T_out_min_K=None))
+    full = od.operating_point(L, unlimited, hw, T_air)  # fans at full speed, the limit not enforced
+    assert full.running and full.sink_flow_fraction == 1.0 and full.T_source_out_K < 75.0 + 273.15 - 1.0
+    p = od.operating_point(L, ctx, hw, T_air)
+    assert p.running, p.reason
+    assert "sink flow reduced" in p.actions and od.MIN_SINK_FLOW_FRACTION < p.sink_flow_fraction < 1.0
+    src = ctx.source
+    T_out = float(src.T_K(src.h_in_J_kg - p.result.Q_in_W / src.m_kg_s))
+    assert T_out == pytest.approx(75.0 + 273.15, abs=1e-3)
+    W_aux = p.result.W_net_W - p.W_net_W
+    rho = od._density(ctx.sink, T_air) / hw.sink_density_design
+    assert W_aux == pytest.approx(hw.W_aux_design_W * rho * p.sink_flow_fraction ** 3, rel=1e-9)
+    fluid, st = ctx.fluid, p.result.states
+    fine = heating_path(fluid, fluid.sat_T(p.T_evap_K), st["2"], st["3"], 200, True, zones=False)
+    assert heater_profile(fine, p.m_wf_kg_s, st["3"].h, src).min_approach_K > 0.0
+    _closes(p)
+
+
+def test_the_best_sink_flow_is_within_a_dense_grid_of_fan_speeds():
+    """With the best-sink-flow control the fans' speed in a cold bin is chosen for the largest
+    net power: within 0.05 % of a dense grid (76 speeds, 25 % to 100 %) of the same operating
+    points; slower fans beat full speed in cold air (less fan power, a condensing temperature
+    nearer the turbine's design volume flow)."""
+    L, ctx, r, hw = _air_design("R245fa")
+    T_air = 0.0 + 273.15
+    best = od.best_sink_flow_point(L, ctx, hw, T_air)
+    assert best.running, best.reason
+    grid = [od.operating_point(L, ctx, hw, T_air, sink_flow_fraction=g).W_net_W
+            for g in np.linspace(od.MIN_SINK_FLOW_FRACTION, 1.0, 76)]
+    assert best.W_net_W >= max(grid) * (1.0 - 5e-4)
+    assert best.W_net_W > grid[-1] * 1.01 and best.sink_flow_fraction < 0.95
+    _closes(best)
+
+
+def test_the_study_chooses_the_control(tmp_path):
+    """[year] control reaches the solver: a year of cold bins rated with the best sink flow gives
+    more energy than at design fan speed (slower fans in cold air), the same design point."""
+    from orcscreen.api import run_case
+
+    rows = {}
+    for control in ("sliding-pressure", "sliding-pressure-best-sink-flow"):
+        raw = _year_study(tmp_path, "sink_temperature_C,hours\n0,3000\n5,3000\n14,2760\n",
+                          year={"file": "year.csv", "design_sink_temperature_C": 14.0, "control": control})
+        raw["fluids"] = {"include": ["R245fa"]}
+        rows[control] = run_case(next(iter(_load(tmp_path, raw).cases())))["row"]
+    a, b = rows["sliding-pressure"], rows["sliding-pressure-best-sink-flow"]
+    assert a["net_power_kW"] == pytest.approx(b["net_power_kW"], rel=1e-12)
+    assert b["annual_energy_MWh"] > a["annual_energy_MWh"] * 1.005
