@@ -181,6 +181,20 @@ def _cmd_report(args: argparse.Namespace) -> int:
     return EXIT_OK
 
 
+def _cmd_compare(args: argparse.Namespace) -> int:
+    from orcscreen import compare
+
+    runs = [compare.read_run(d) for d in (args.dir_a, args.dir_b)]
+    result = compare.compare_runs(*runs)
+    chart = Path(args.out) if args.out else compare.default_chart_path(args.dir_a, args.dir_b)
+    chart, table = compare.write_comparison(result, chart)
+    print(compare.format_comparison(result, n=args.top))
+    print(f"chart: {chart}")
+    print(f"table: {table}")
+    print(CAUTION_LINE)
+    return EXIT_OK
+
+
 # ---------------------------------------------------------------------------------------------
 # Parser
 # ---------------------------------------------------------------------------------------------
@@ -313,6 +327,25 @@ def build_parser() -> argparse.ArgumentParser:
     )
     p.add_argument("dir", metavar="DIR", help="output directory of an `orcscreen run`")
     p.set_defaults(func=_cmd_report)
+
+    p = sub.add_parser(
+        "compare", help="what changed between two finished runs, case by case",
+        description="Compare two run output folders (ranking.csv and run-info.json of each), matching "
+        "cases on fluid, layout and swept values: the objective in A and B with its change (B - A, "
+        "absolute and %), the rank change, cases that became feasible or infeasible (with the reason) "
+        "and cases in one run only, largest changes first. Writes a chart (B against A) and the table "
+        "as CSV beside it.",
+        epilog="example:\n  orcscreen compare out/brine out/brine-reinjection-70\n"
+        "  orcscreen compare out/before out/after --out charts/catalogue-update.png\n\n"
+        "Without --out the chart is DIR_B/compare-<name of DIR_A>.png; the CSV has the same stem.",
+        formatter_class=fmt,
+    )
+    p.add_argument("dir_a", metavar="DIR_A", help="output folder of the first (reference) run")
+    p.add_argument("dir_b", metavar="DIR_B", help="output folder of the second run")
+    p.add_argument("--out", metavar="FILE", help="chart file, ending in .png (the CSV goes beside it)")
+    p.add_argument("--top", type=_positive_int, default=20, metavar="N",
+                   help="changed cases to print (default 20; the CSV holds all)")
+    p.set_defaults(func=_cmd_compare)
     return parser
 
 
@@ -329,7 +362,8 @@ def _bad_input_types() -> tuple[type[BaseException], ...]:
     found: list[type[BaseException]] = [StudyError, UsageError]
     for module, names in (("orcscreen.fluids", ("UnknownFluidError",)),
                           ("orcscreen.store", ("StoreError",)),
-                          ("orcscreen.batch", ("ClusterError",))):
+                          ("orcscreen.batch", ("ClusterError",)),
+                          ("orcscreen.compare", ("CompareError",))):
         mod = sys.modules.get(module)
         if mod is None:
             continue
