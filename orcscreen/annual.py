@@ -10,13 +10,14 @@ again on the annual energy. Without a year the annual energy is the design's net
 
 from __future__ import annotations
 
+import dataclasses
 import functools
 import math
 
-from . import costs, offdesign
+from . import costs, offdesign, year_design
 from .year import HOURS_PER_YEAR, read_year
 
-__all__ = ["YEAR_COLUMNS", "year_figures", "design_year_columns"]
+__all__ = ["YEAR_COLUMNS", "year_figures", "design_year_columns", "optimum_for_year"]
 
 #: The row's columns of a year (with annual_energy_MWh, an economic column).
 YEAR_COLUMNS = ("capacity_factor", "hours_not_running")
@@ -32,6 +33,18 @@ def design_year_columns(econ) -> dict:
     """Capacity factor and hours not running of a case without a year (full-load hours)."""
     hours = getattr(econ, "full_load_hours", math.nan)
     return {"capacity_factor": hours / HOURS_PER_YEAR, "hours_not_running": math.nan}
+
+
+def optimum_for_year(layout, ctx, opt, section) -> tuple:
+    """(optimum, notes): the design-point optimum opt, or with section.design_for = "year" the
+    design searched for the year's energy (orcscreen.year_design) in its place."""
+    if section.design_for != "year" or opt.cycle.layout not in offdesign.SUPPORTED_LAYOUTS:
+        return opt, []
+    bins = _bins(section.resolved_path, section.sha256, section.bin_width_K)
+    design, n, limit, note = year_design.design_for_year(layout, ctx, opt.cycle, bins, section.control)
+    opt = dataclasses.replace(opt, cycle=design, evaluations=opt.evaluations + n,
+                              binding_limit=opt.binding_limit if limit is None else limit)
+    return opt, [note] if note else []
 
 
 def year_figures(layout, ctx, design, section, row: dict) -> tuple[dict, dict | None, list[str]]:

@@ -20,7 +20,7 @@ from pathlib import Path
 from . import fluids as fluid_catalogue
 from . import streams
 from .cycles import LAYOUTS, CycleContext, CycleSettings
-from .annual import year_figures
+from .annual import optimum_for_year, year_figures
 from .areas import U_KEYS
 from .economics import Economics
 from .objectives import OBJECTIVES
@@ -107,20 +107,26 @@ def run_case(case) -> dict:
         if isinstance(opt, tuple):
             _, reason, n = opt
             return {"row": empty_row(case.fluid, case.layout, info, "infeasible", reason, time.perf_counter() - t0, n), "detail": None}
+        year = getattr(case, "year", None)
+        design_notes = []
+        if year is not None and year.resolved_path:
+            try:
+                opt, design_notes = optimum_for_year(layout, ctx, opt, year)
+            except (PropertyError, ValueError, ArithmeticError) as exc:  # the design point's optimum stands
+                design_notes = [f"not designed for the year: {type(exc).__name__}: {exc}"]
         try:
             detail = case_detail(layout, ctx.fluid, ctx.sink, opt.cycle, opt)
         except PropertyError as exc:  # chart data only: the result itself stands
             detail = {"error": f"detail not available: {exc}"}
         row = result_row(case.fluid, layout, info, ctx.fluid, ctx.source, ctx.sink, opt.cycle, opt.binding_limit,
                          opt.evaluations, time.perf_counter() - t0, ctx.settings)
-        year = getattr(case, "year", None)
         if year is not None and year.resolved_path:
             try:
                 columns, year_detail, notes = year_figures(layout, ctx, opt.cycle, year, row)
             except (PropertyError, ValueError, ArithmeticError) as exc:  # the design's result stands
                 columns, year_detail, notes = {}, None, [f"year not rated: {type(exc).__name__}: {exc}"]
             row.update(columns)
-            row["warnings"] = "; ".join(w for w in (row["warnings"], *notes) if w)
+            row["warnings"] = "; ".join(w for w in (row["warnings"], *design_notes, *notes) if w)
             if isinstance(detail, dict) and year_detail is not None:
                 detail["year"] = year_detail
             row["elapsed_s"] = time.perf_counter() - t0

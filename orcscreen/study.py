@@ -439,6 +439,9 @@ COST_MODELS = tuple(_costs.COST_MODELS)
 #: Off-design control strategies of a year (the plant's response to each bin).
 CONTROLS = _controls.CONTROL_NAMES
 
+#: What a design is chosen for when the study has a year.
+DESIGN_FOR = ("design-point", "year")
+
 
 class YearSection(_Section):
     """[year]: a year of operation; each fluid's design is rated bin by bin (orcscreen.offdesign)."""
@@ -456,6 +459,12 @@ class YearSection(_Section):
             f"\"{c.name}\": {c.description}" for c in _controls.CONTROLS.values()) + ".", _choices(CONTROLS)
     )
     bin_width_K: float = _f(1.0, "Width of the sink-temperature bins of an hourly year [K].", "a number > 0", gt=0)
+    design_for: Literal[DESIGN_FOR] = _f(
+        "design-point", "What each fluid's design is chosen for: \"design-point\" (the study's objective at the "
+        "design condition) or \"year\" (the evaporation temperature searched for the most energy over the "
+        "year, orcscreen.year_design; an option: about four times the cost of the year's rating).",
+        _choices(DESIGN_FOR)
+    )
     #: set on loading (not study keys): the file resolved, and its SHA-256 (the case keys carry it)
     resolved_path: Optional[str] = Field(None, description="Set by orcscreen on loading; leave out.")
     sha256: Optional[str] = Field(None, description="Set by orcscreen on loading; leave out.")

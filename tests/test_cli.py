@@ -63,6 +63,7 @@ EXPECTED = {
     "year-file-missing": ["year.file = 'no-such-climate.csv'", "no such file"],
     "year-file-outside-folder": ["year.file = '../../studies/climate-dry-inland.csv'", "outside the study's folder"],
     "year-negative-hours": ["year.file", "year-negative-hours.csv, row 5, column hours", "'-760'", "from 0 to 8,784"],
+    "year-design-for-unknown": ['year.design_for = "annual"', '"design-point", "year"'],
     "year-unknown-control": ['year.control = "fan-speed"', '"sliding-pressure-best-sink-flow"'],
     "annual-objective-without-year": ['study.objective = "annual_energy"', "needs a year", "year.file"],
     "npv-objective-without-price": ['study.objective = "net_present_value"', "economics.electricity_price_per_MWh"],

@@ -67,6 +67,7 @@ CONTRACT_DEFAULTS = {
                   "exchange_rates": {}, "discount_rate": 0.07, "lifetime_years": 25, "om_fraction": 0.02,
                   "full_load_hours": 7500.0, "electricity_price_per_MWh": None},
     "year": {"file": None, "design_sink_temperature_C": None, "control": "sliding-pressure", "bin_width_K": 1.0,
+             "design_for": "design-point",
              "resolved_path": None, "sha256": None},
 }
 

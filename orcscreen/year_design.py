@@ -1,0 +1,101 @@
+"""The design chosen for the year (``[year] design_for = "year"``, an option): instead of the
+design that makes the study's objective best at the design condition, the evaporation
+temperature of the design is searched for the most net energy over the year, each candidate
+design's hardware rated bin by bin (orcscreen.offdesign).
+
+The search (Brent's bounded method, scipy's minimize_scalar, to YEAR_XATOL_K) rates each
+candidate on at most REPRESENTATIVE_BINS bins: consecutive bins merged into groups of about
+equal hours, each group at its hour-weighted mean sink temperature (our choice; the year's own
+bins when they carry source values). The design found is then rated on every bin and kept only
+when it beats the design-point optimum's year there. Other free variables (an optimised
+superheat) stay at the design-point optimum's values. It costs many design optimisations per
+case (figures in benchmarks/bench_year.py), hence an option.
+"""
+
+from __future__ import annotations
+
+import math
+
+from . import offdesign
+from .year import Bin
+
+__all__ = ["REPRESENTATIVE_BINS", "YEAR_XATOL_K", "representative_bins", "design_for_year"]
+
+#: Most bins a candidate design is rated on during the search (our choice).
+REPRESENTATIVE_BINS = 8
+
+#: Tolerance of the searched evaporation temperature [K] (our choice).
+YEAR_XATOL_K = 0.05
+
+#: The free variable searched for the year.
+SEARCHED = "evaporation_temperature_K"
+
+
+def representative_bins(bins, n: int = REPRESENTATIVE_BINS) -> list:
+    """At most n bins standing for the year: consecutive bins (sorted by sink temperature) merged
+    into groups of about equal hours, each at its hour-weighted mean temperature with the group's
+    hours. Bins with source values are returned as they are (they cannot be merged by sink
+    temperature alone)."""
+    bins = list(bins)
+    if len(bins) <= n or any(b.source_temperature_C is not None or b.source_mass_flow_kg_s is not None for b in bins):
+        return bins
+    total = sum(b.hours for b in bins)
+    groups, current, filled = [], [], 0.0
+    for b in sorted(bins, key=lambda b: b.sink_temperature_C):
+        current.append(b)
+        filled += b.hours
+        if filled >= total * (len(groups) + 1) / n - 1e-9 and len(groups) < n - 1:
+            groups.append(current)
+            current = []
+    if current:
+        groups.append(current)
+    out = []
+    for g in groups:
+        hours = sum(b.hours for b in g)
+        if hours > 0:
+            out.append(Bin(sum(b.sink_temperature_C * b.hours for b in g) / hours, hours))
+    return out
+
+
+def design_for_year(layout, ctx, design, bins, control: str):
+    """(design, evaluations, binding limit, note): the exact, feasible design of the layout whose
+    year on bins is best, starting from the design-point optimum design (kept, with its binding
+    limit, when no other does better over every bin), the designs evaluated, and a note."""
+    from scipy.optimize import minimize_scalar
+
+    if SEARCHED not in [v.name for v in layout.variables(ctx)]:
+        return design, 0, None, ""
+    outer = {k: v for k, v in design.variables.items() if k != SEARCHED}
+    window = layout.window(ctx, SEARCHED, outer)
+    few = representative_bins(bins)
+    tried: dict[float, float] = {}
+
+    def rated(x: float, on):
+        """(design at x, its energy over the bins on [MWh], or None where infeasible)."""
+        r = layout.evaluate(ctx, {**design.variables, SEARCHED: x}, exact=True)
+        if not r.ok:
+            return r, None
+        year = offdesign.annual_energy(layout, ctx, offdesign.hardware_of(r, ctx), on, r.W_net_W, control)
+        return r, year.energy_MWh
+
+    def loss(x: float) -> float:
+        energy = rated(float(x), few)[1]
+        tried[float(x)] = -math.inf if energy is None else energy
+        return math.inf if energy is None else -energy
+
+    minimize_scalar(loss, bounds=(window.lo, window.hi), method="bounded", options={"xatol": YEAR_XATOL_K})
+    n = len(tried) + 2
+    x_best = max(tried, key=tried.get)
+    base = rated(design.variables[SEARCHED], bins)[1]
+    if not math.isfinite(tried[x_best]):
+        return design, n, None, "designed for the year: no other design runs, the design point's optimum kept"
+    r, energy = rated(x_best, bins)
+    if energy is None or base is not None and energy <= base:
+        return design, n, None, "designed for the year: the design point's optimum is also the year's"
+    at = (window.lo_name if x_best - window.lo < 2 * YEAR_XATOL_K else
+          window.hi_name if window.hi - x_best < 2 * YEAR_XATOL_K else "none (the year's interior optimum)")
+    gain = "" if base is None else f", {energy / base - 1.0:+.2%} energy over the year"
+    note = (f"designed for the year: evaporation at {x_best - 273.15:.1f} °C instead of "
+            f"{design.variables[SEARCHED] - 273.15:.1f} °C{gain}, "
+            f"{r.W_net_W / design.W_net_W - 1.0:+.2%} net power at the design point")
+    return r, n, at, note
