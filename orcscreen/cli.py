@@ -56,6 +56,7 @@ def _cmd_run(args: argparse.Namespace) -> int:
     table = outputs.write_outputs(out_dir)
     print(outputs.top_table(table, n=args.top))
     print(f"run: {summary}")
+    _print_left_out(study)
     print(f"ranking: {out_dir / outputs.RANKING_FILE}")
     if not args.no_report:
         _build_report_quietly(out_dir)
@@ -68,6 +69,18 @@ def _print_warnings(study: Any) -> None:
     line on stderr; they do not stop anything."""
     for line in getattr(study, "warnings", ()):
         print(line, file=sys.stderr)
+
+
+def _print_left_out(study: Any, indent: str = "") -> None:
+    """The fluids that the study's [fluids] filters left out, one a line with the reason."""
+    from orcscreen import fluids
+
+    section = getattr(study, "fluid_filter", None)
+    left = fluids.left_out_of(section.model_dump()) if section is not None else ()
+    if left:
+        print(f"{indent}left out by the [fluids] filters: {len(left)}")
+        for item in left:
+            print(f"{indent}  {item.line}")
 
 
 def _build_report_quietly(out_dir: Path) -> None:
@@ -103,6 +116,7 @@ def _cmd_check(args: argparse.Namespace) -> int:
     fluids = study.fluids
     shown = ", ".join(fluids[:8]) + (", ..." if len(fluids) > 8 else "")
     print(f"  fluids: {len(fluids)} ({shown})")
+    _print_left_out(study, indent="  ")
     print(f"  layouts: {len(study.layouts)} ({', '.join(study.layouts)})")
     factors = [str(n) for n in sizes.values()] + [str(len(fluids)), str(len(study.layouts))]
     print(f"  cases: {' x '.join(factors)} = {study.n_cases:,}")

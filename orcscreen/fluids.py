@@ -20,6 +20,12 @@ Vapour-curve criterion (dry / wet / isentropic)
     to T_r = 0.6 ends within about 2.5 % of the saturated-vapour state (e.g. R11, sigma =
     -0.57: quality 0.98). If 0.7 T_c lies below the lowest temperature of the equation of
     state (carbon dioxide: triple point), the slope is taken 1 K above that temperature.
+
+Filters (:func:`selection`, :func:`select`): max_gwp, safety_classes and zero_odp leave out a
+fluid whose value is unknown (conservative), and :func:`selection` returns every fluid left out
+with its reason, for the check, the run summary, run-info.json and the report.
+Displays write a missing catalogue value as :data:`UNKNOWN` and the class "none" as
+:data:`NOT_CLASSIFIED` (:func:`safety_class_text`, :func:`gwp_text`).
 """
 
 from __future__ import annotations
@@ -45,18 +51,27 @@ __all__ = [
     "CATALOGUE_ENV",
     "CURVE_REDUCED_TEMPERATURE",
     "FAMILIES",
+    "GWP_REPORTS",
     "ISENTROPIC_BAND",
+    "NOT_CLASSIFIED",
     "SAFETY_CLASSES",
+    "UNKNOWN",
     "CatalogueError",
     "FluidInfo",
+    "LeftOut",
+    "Selection",
     "UnknownFluidError",
     "catalogue_frame",
     "catalogue_path",
     "classify_curve",
     "close_matches",
     "get_info",
+    "gwp_text",
+    "left_out_of",
     "load_catalogue",
+    "safety_class_text",
     "select",
+    "selection",
     "vapour_curve_slope",
 ]
 
@@ -83,6 +98,13 @@ FAMILIES = (
 #: ASHRAE 34 / ISO 817 safety groups: toxicity A (lower) / B (higher), flammability 1, 2L, 2, 3.
 SAFETY_CLASSES = ("A1", "A2L", "A2", "A3", "B1", "B2L", "B2", "B3")
 _FLAMMABLE_SUBCLASSES = ("2L", "2", "3")
+#: Where a GWP100 comes from: an IPCC assessment report (AR6 2021, AR5 2013, AR4 2007, TAR 2001,
+#: SAR 1995), "other" (another document: manufacturer, fact sheet, common practice) or "none"
+#: (no value: gwp100 left empty).
+GWP_REPORTS = ("AR6", "AR5", "AR4", "TAR", "SAR", "other", "none")
+#: The one word every display of the catalogue uses for a value that is not known.
+UNKNOWN = "unknown"
+NOT_CLASSIFIED = "not classified"  # display of safety_class "none": ASHRAE 34 lists no class
 _FLAMMABILITY_WORDS = {
     "1": "no flame propagation",
     "2L": "lower flammability, low burning velocity",
@@ -98,7 +120,7 @@ GWP_FGAS_NOTICE = 150.0  # GWP100 from which F-gas restrictions commonly start (
 
 _COLUMNS = (
     "coolprop_name", "display_name", "family", "safety_class", "safety_class_source",
-    "gwp100", "gwp_source", "odp", "odp_source", "max_temperature_C", "max_temperature_source",
+    "gwp100", "gwp_source", "gwp_report", "odp", "odp_source", "max_temperature_C", "max_temperature_source",
 )
 _SOURCE_COLUMNS = ("safety_class_source", "gwp_source", "odp_source", "max_temperature_source")
 
@@ -134,6 +156,7 @@ class FluidInfo:
     temperature, thermal-stability limit). None where unknown; T_nbp_K is None when the fluid
     has no liquid at 101325 Pa. curve_slope is sigma, see the module docstring.
     safety_class is an ASHRAE 34 group, "none" (not classified) or "" (unknown).
+    gwp_report is the assessment report of gwp100, one of :data:`GWP_REPORTS`.
     """
 
     coolprop_name: str
@@ -143,6 +166,7 @@ class FluidInfo:
     safety_class_source: str
     gwp100: float | None
     gwp_source: str
+    gwp_report: str
     odp: float | None
     odp_source: str
     max_temperature_C: float | None
@@ -174,6 +198,14 @@ class FluidInfo:
         return "lower" if self.safety_class[0] == "A" else "higher"
 
     @property
+    def class_words(self) -> str:
+        """The safety class in words: "ASHRAE 34 class A1", "not classified in ASHRAE 34" or
+        "ASHRAE 34 class unknown"."""
+        if self.safety_class == "none":
+            return f"{NOT_CLASSIFIED} in ASHRAE 34"
+        return f"ASHRAE 34 class {safety_class_text(self.safety_class)}"
+
+    @property
     def cautions(self) -> str:
         """Short fluid-specific cautions (safety class, GWP, ODP, stability, condenser)."""
         parts = []
@@ -184,9 +216,10 @@ class FluidInfo:
                 f"{_FLAMMABILITY_WORDS[sub]}."
             )
         else:
-            parts.append("No ASHRAE 34 class recorded: treat as flammable and toxic.")
+            words = self.class_words
+            parts.append(f"{words[0].upper()}{words[1:]}: treat as flammable and toxic.")
         if self.gwp100 is None:
-            parts.append("GWP unknown.")
+            parts.append(f"GWP {UNKNOWN}.")
         elif self.gwp100 >= GWP_FGAS_NOTICE:
             parts.append(f"GWP100 {self.gwp100:g}: F-gas rules apply.")
         if self.odp is None:
@@ -301,6 +334,8 @@ def _parse_row(row: dict, where: str, known: frozenset[str]) -> FluidInfo:
     for column in _SOURCE_COLUMNS:
         if not row[column]:
             raise CatalogueError(f"{where}: column {column!r} is empty (write 'unknown' if there is no source)")
+    gwp100 = _number(row["gwp100"], where, "gwp100", 0.0)
+    gwp_report = _gwp_report(row["gwp_report"], gwp100, where)
     try:
         computed = _computed(name)
     except (PropertyError, ValueError, ZeroDivisionError) as exc:
@@ -311,14 +346,28 @@ def _parse_row(row: dict, where: str, known: frozenset[str]) -> FluidInfo:
         family=family,
         safety_class=safety,
         safety_class_source=row["safety_class_source"],
-        gwp100=_number(row["gwp100"], where, "gwp100", 0.0),
+        gwp100=gwp100,
         gwp_source=row["gwp_source"],
+        gwp_report=gwp_report,
         odp=_number(row["odp"], where, "odp", 0.0),
         odp_source=row["odp_source"],
         max_temperature_C=_number(row["max_temperature_C"], where, "max_temperature_C", -273.15),
         max_temperature_source=row["max_temperature_source"],
         **computed,
     )
+
+
+def _gwp_report(text: str, gwp100: float | None, where: str) -> str:
+    """The gwp_report cell checked: one of GWP_REPORTS (any case), "none" exactly when gwp100 is empty."""
+    spellings = {r.lower(): r for r in GWP_REPORTS}
+    report = spellings.get(text.lower())
+    if report is None:
+        raise CatalogueError(f"{where}: gwp_report {text!r} is not one of {', '.join(GWP_REPORTS)}")
+    if (report == "none") != (gwp100 is None):
+        allowed = "'none' (gwp100 is empty)" if gwp100 is None else \
+            f"the report the value comes from ({', '.join(GWP_REPORTS[:-1])}; gwp100 is {gwp100:g})"
+        raise CatalogueError(f"{where}: gwp_report {text!r} does not fit gwp100; allowed: {allowed}")
+    return report
 
 
 @functools.lru_cache(maxsize=8)
@@ -422,14 +471,68 @@ def _as_list(items) -> list[str]:
     return [items] if isinstance(items, str) else list(items)
 
 
-def select(include=("all",), exclude=(), max_gwp=None, safety_classes=None, zero_odp=False) -> list[FluidInfo]:
-    """Catalogue fluids chosen by names/families, in catalogue order.
+@dataclass(frozen=True)
+class LeftOut:
+    """A fluid that the include/exclude lists asked for and a filter left out, with the reason
+    (e.g. "GWP 1530 above max_gwp 150"; several filters: reasons joined by "; ")."""
+
+    info: FluidInfo
+    reason: str
+
+    @property
+    def line(self) -> str:
+        """One display line: "display name: reason"."""
+        return f"{self.info.display_name}: {self.reason}"
+
+    def as_dict(self) -> dict:
+        """For JSON (run-info.json): fluid (CoolProp name), display_name, reason."""
+        return {"fluid": self.info.coolprop_name, "display_name": self.info.display_name, "reason": self.reason}
+
+
+@dataclass(frozen=True)
+class Selection:
+    """What :func:`selection` chose (catalogue order) and what its filters left out (same order)."""
+
+    chosen: tuple[FluidInfo, ...]
+    left_out: tuple[LeftOut, ...]
+
+
+def _gwp_reason(info: FluidInfo, max_gwp: float) -> str | None:
+    """Why max_gwp leaves the fluid out, None if it keeps it. An unknown GWP is left out
+    (conservative), and the reason says so with the catalogue's own words on why it is unknown
+    (the first clause of gwp_source after "unknown", e.g. "not assessed by IPCC AR6")."""
+    if info.gwp100 is None:
+        why = info.gwp_source.removeprefix(UNKNOWN).strip(" :;,").split(";")[0].strip()
+        return f"GWP not known{f' ({why})' if why else ''}: left out by max_gwp"
+    if info.gwp100 > max_gwp:
+        return f"GWP {info.gwp100:g} above max_gwp {max_gwp:g}"
+    return None
+
+
+def _class_reason(info: FluidInfo, allowed: set[str]) -> str | None:
+    if info.safety_class in allowed:
+        return None
+    if not info.classified:
+        return f"{info.class_words}: left out by safety_classes"
+    return f"safety class {info.safety_class} not in safety_classes {', '.join(sorted(allowed))}"
+
+
+def _odp_reason(info: FluidInfo) -> str | None:
+    if info.odp is None:
+        return f"ODP {UNKNOWN}: left out by zero_odp"
+    return None if info.odp == 0.0 else f"ODP {info.odp:g} not zero: left out by zero_odp"
+
+
+def selection(include=("all",), exclude=(), max_gwp=None, safety_classes=None, zero_odp=False) -> Selection:
+    """Catalogue fluids chosen by names/families and filters, with the ones the filters left out.
 
     include, exclude: fluid names (CoolProp or display), family names or "all".
-    max_gwp: keep GWP100 <= max_gwp; fluids with unknown GWP are dropped.
-    safety_classes: keep only these ASHRAE 34 groups; unclassified fluids are dropped.
-    zero_odp: keep only ODP == 0; fluids with unknown ODP are dropped.
-    Raises UnknownFluidError for an unknown name, ValueError for a bad filter value.
+    max_gwp: keep GWP100 <= max_gwp; fluids with unknown GWP are left out (conservative).
+    safety_classes: keep only these ASHRAE 34 groups; unclassified fluids are left out.
+    zero_odp: keep only ODP == 0; fluids with unknown ODP are left out.
+    A fluid named by include and not by exclude that a filter drops is in ``left_out`` with
+    every filter's reason. Raises UnknownFluidError for an unknown name, ValueError for a bad
+    filter value.
     """
     chosen: set[str] = set()
     for item in _as_list(include):
@@ -444,18 +547,56 @@ def select(include=("all",), exclude=(), max_gwp=None, safety_classes=None, zero
         bad = sorted(allowed - set(SAFETY_CLASSES))
         if bad:
             raise ValueError(f"safety class(es) {', '.join(bad)} unknown; allowed: {', '.join(SAFETY_CLASSES)}")
-    out = []
+    kept, left = [], []
     for info in load_catalogue():
         if info.coolprop_name not in chosen:
             continue
-        if max_gwp is not None and (info.gwp100 is None or info.gwp100 > max_gwp):
-            continue
-        if allowed is not None and info.safety_class not in allowed:
-            continue
-        if zero_odp and info.odp != 0.0:
-            continue
-        out.append(info)
-    return out
+        reasons = [
+            max_gwp is not None and _gwp_reason(info, max_gwp),
+            allowed is not None and _class_reason(info, allowed),
+            zero_odp and _odp_reason(info),
+        ]
+        reasons = [r for r in reasons if r]
+        if reasons:
+            left.append(LeftOut(info, "; ".join(reasons)))
+        else:
+            kept.append(info)
+    return Selection(tuple(kept), tuple(left))
+
+
+def select(include=("all",), exclude=(), max_gwp=None, safety_classes=None, zero_odp=False) -> list[FluidInfo]:
+    """The fluids :func:`selection` chooses, in catalogue order (same arguments and errors)."""
+    return list(selection(include, exclude, max_gwp, safety_classes, zero_odp).chosen)
+
+
+def left_out_of(filters) -> tuple[LeftOut, ...]:
+    """The fluids that a study's [fluids] section (a mapping with the keys of :func:`selection`:
+    include, exclude, max_gwp, safety_classes, zero_odp; others are ignored) leaves out."""
+    keys = ("include", "exclude", "max_gwp", "safety_classes", "zero_odp")
+    return selection(**{k: filters[k] for k in keys if k in filters}).left_out
+
+
+# -- display -------------------------------------------------------------------------------
+def _missing(value) -> bool:
+    return value is None or (isinstance(value, float) and math.isnan(value)) or value == ""
+
+
+def safety_class_text(value) -> str:
+    """A safety_class for display: the ASHRAE 34 group, "not classified" for "none" and
+    "unknown" for an empty or missing value (ranking rows hold "" or NaN)."""
+    if _missing(value):
+        return UNKNOWN
+    text = str(value).strip()
+    return NOT_CLASSIFIED if text.lower() == "none" else text
+
+
+def gwp_text(value) -> str:
+    """A GWP100 for display: general format (1530, 0.501, 0.02), "unknown" when missing."""
+    try:
+        number = float(value)
+    except (TypeError, ValueError):
+        return UNKNOWN
+    return UNKNOWN if math.isnan(number) else f"{number:g}"
 
 
 def catalogue_frame(infos=None) -> "pd.DataFrame":
@@ -468,7 +609,7 @@ def catalogue_frame(infos=None) -> "pd.DataFrame":
             "coolprop_name": i.coolprop_name,
             "display_name": i.display_name,
             "family": i.family,
-            "safety_class": i.safety_class or "unknown",
+            "safety_class": safety_class_text(i.safety_class),
             "gwp100": i.gwp100,
             "odp": i.odp,
             "T_crit_C": i.T_crit_K - 273.15,

@@ -479,6 +479,7 @@ def write_outputs(out_dir: str | os.PathLike[str],
         "updated_at": meta.get("updated_at"),
         "files": {"ranking": RANKING_FILE, "store": store.path.name},
         "money": _money_info((meta.get("study") or {}).get("economics")),
+        "left_out_fluids": left_out_fluids(meta),
     }
     _atomic_write(info_path, json.dumps(info, indent=2) + "\n")
     _WRITTEN.pop(store.path.resolve(), None)
@@ -486,6 +487,21 @@ def write_outputs(out_dir: str | os.PathLike[str],
         _WRITTEN.pop(next(iter(_WRITTEN)))
     _WRITTEN[store.path.resolve()] = (revision, _stamps(ranking_path, info_path), summary)
     return summary
+
+
+def left_out_fluids(meta: dict) -> list[dict] | None:
+    """The fluids that the stored study's [fluids] filters left out, each {fluid, display_name,
+    reason} (orcscreen.fluids.left_out_of, on the catalogue in use); None when the store holds
+    no study or the catalogue no longer knows a name of its filters."""
+    section = (meta.get("study") or {}).get("fluids")
+    if not isinstance(section, dict):
+        return None
+    from orcscreen import fluids
+
+    try:
+        return [item.as_dict() for item in fluids.left_out_of(section)]
+    except ValueError:  # UnknownFluidError, CatalogueError: the run's files still get written
+        return None
 
 
 def _money_info(economics: dict | None) -> dict | None:
@@ -612,10 +628,11 @@ def _top_text(summary: RankingSummary, n: int) -> str:
                                                if v is not None and v == v else "")
             else:
                 columns[title] = best[col].map(lambda v, f=fmt: _fmt(v, f))
-    for title, col in (("class", "safety_class"), ("GWP100", "gwp100")):
+    from orcscreen.fluids import gwp_text, safety_class_text  # one spelling of unknown, "not classified"
+
+    for title, col, shown in (("class", "safety_class", safety_class_text), ("GWP100", "gwp100", gwp_text)):
         if col in best:
-            columns[title] = best[col].map(lambda v: "" if v is None or v != v else
-                                           (_fmt(v, ".0f") if isinstance(v, (int, float)) else str(v)))
+            columns[title] = best[col].map(shown)
     text = pd.DataFrame(columns).to_string(index=False)
     notes = _warning_lines(best)
     if notes:

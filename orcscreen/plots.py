@@ -35,6 +35,7 @@ from matplotlib.ticker import FuncFormatter
 from matplotlib.transforms import blended_transform_factory
 
 from orcscreen import cycles as _cycles
+from orcscreen.fluids import UNKNOWN, gwp_text, safety_class_text
 from orcscreen import rank
 
 __all__ = [
@@ -200,8 +201,9 @@ def ranking_chart(df: pd.DataFrame, ax: Axes | None = None, max_bars: int = 40,
         ax.barh(i, row["_p"], height=0.7, color=style["color"], hatch=style["hatch"],
                 edgecolor="white" if not style["hatch"] else "#333333", linewidth=0.4,
                 gid=f"bar-{i}")
-        safety = row.get("safety_class") or "class n/a"
-        note = f"{row['_p']:.1f} kW   {safety}   GWP {_fmt(row.get('gwp100'), '.0f')}"
+        safety = safety_class_text(row.get("safety_class"))
+        safety = f"class {UNKNOWN}" if safety == UNKNOWN else safety
+        note = f"{row['_p']:.1f} kW   {safety}   GWP {gwp_text(row.get('gwp100'))}"
         ax.text(max(row["_p"], 0) + 0.01 * top, i, note, va="center", ha="left",
                 fontsize=NOTE_PT, gid=f"bar-note-{i}")
     ax.set_yticks(y, [case_label(r) for _, r in ok.iterrows()], fontsize=TICK_PT)

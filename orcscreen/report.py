@@ -31,7 +31,8 @@ import pandas as pd
 from orcscreen import plots, rank
 from orcscreen.controls import CONTROLS
 from orcscreen.figures import LAYOUT_COLUMNS
-from orcscreen.outputs import objective_of, ranking_table
+from orcscreen.fluids import NOT_CLASSIFIED, UNKNOWN, gwp_text, safety_class_text
+from orcscreen.outputs import left_out_fluids, objective_of, ranking_table
 from orcscreen.safe_files import atomic_write, refuse_link
 from orcscreen.store import RunStore, StoreError
 
@@ -346,13 +347,15 @@ def fluid_cautions(row: Mapping) -> list[str]:
             out.append("Higher toxicity: exposure limits, detection and ventilation govern the "
                        "plant room.")
     else:
-        out.append("No ASHRAE 34 safety class in the catalogue: treat the fluid as flammable "
-                   "and toxic until its safety data sheet says otherwise.")
+        words = (f"{NOT_CLASSIFIED.capitalize()} in ASHRAE 34" if cls == "NONE"
+                 else f"ASHRAE 34 safety class {UNKNOWN}")
+        out.append(f"{words}: treat the fluid as flammable and toxic until its safety data sheet "
+                   "says otherwise.")
     gwp = _num(row.get("gwp100"))
     if math.isfinite(gwp):
         out.append(f"GWP100 = {gwp:g}: check the fluorinated-gas rules that apply on site.")
     else:
-        out.append("GWP100 not in the catalogue.")
+        out.append(f"GWP100 {UNKNOWN}.")
     odp = _num(row.get("odp"))
     if math.isfinite(odp) and odp > 0:
         out.append(f"ODP = {odp:g}: an ozone-depleting substance, controlled under the "
@@ -413,6 +416,9 @@ def _sort_key(value) -> str:
 def _e(value) -> str:
     return html.escape("" if value is None else str(value), quote=True)
 
+
+#: Catalogue columns shown in words where a value is missing ("unknown", "not classified").
+_CATALOGUE_SHOWN = {"safety_class": safety_class_text, "gwp100": gwp_text}
 
 #: Ranking-table columns: (column, header, format). Sweep columns come first.
 _RANK_COLUMNS = [
@@ -522,9 +528,21 @@ def _summary(data: _RunData) -> str:
     status_counts = "".join(f'<li><span class="badge {s}">{_e(s)}</span> {n}</li>'
                             for s, n in counts.items())
     parts.append(f'<ul class="counts" id="counts">{status_counts}</ul>')
+    parts.append(_left_out_paragraph(meta))
     parts.append(_inputs(meta))
     parts.append("</section>")
     return "".join(parts)
+
+
+def _left_out_paragraph(meta: Mapping) -> str:
+    """The fluids the [fluids] filters left out, with reasons (outputs.left_out_fluids, the
+    list of run-info.json); empty when none was left out."""
+    left = left_out_fluids(dict(meta))
+    if not left:
+        return ""
+    items = "".join(f"<li>{_e(item['display_name'])}: {_e(item['reason'])}</li>" for item in left)
+    return (f'<div id="left-out"><p class="note">Left out by the [fluids] filters ({len(left)} '
+            f"fluid{'s' if len(left) != 1 else ''}):</p><ul class=\"note\">{items}</ul></div>")
 
 
 def _schema_defaults() -> dict[str, Any]:
@@ -621,7 +639,9 @@ def _ranking_section(data: _RunData, overview: list[FigureRecord]) -> str:
             value = r.get(col)
             if col == "display_name":
                 value = value or r.get("fluid")
-            if fmt == "":
+            if col in _CATALOGUE_SHOWN:
+                cells.append((_CATALOGUE_SHOWN[col](value), _sort_key(value)))
+            elif fmt == "":
                 cells.append((_fmt(value), _fmt(value)))
             else:
                 cells.append((_fmt(value, fmt if fmt != "d" else ".0f"), _sort_key(value)))
@@ -646,9 +666,9 @@ def _card(n: int, row: Mapping, detail: Mapping | None, figs: list[FigureRecord]
     facts = [
         ("CoolProp name", row.get("fluid")), ("family", row.get("family")),
         ("curve type", row.get("curve_type")),
-        ("safety class (ASHRAE 34)", row.get("safety_class") or "not catalogued"),
-        ("GWP100", _fmt(row.get("gwp100"), "g") or "not catalogued"),
-        ("ODP", _fmt(row.get("odp"), "g") or "not catalogued"),
+        ("safety class (ASHRAE 34)", safety_class_text(row.get("safety_class"))),
+        ("GWP100", gwp_text(row.get("gwp100"))),
+        ("ODP", _fmt(row.get("odp"), "g") or UNKNOWN),
         ("thermal efficiency", _fmt(row.get("thermal_efficiency"), ".4f")),
         ("exergy efficiency", _fmt(row.get("exergy_efficiency"), ".4f")),
         ("heat input [kW]", _fmt(row.get("heat_input_kW"), ".1f")),

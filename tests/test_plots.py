@@ -118,9 +118,10 @@ def test_ranking_bars_best_first_with_class_and_gwp(run):
     for i, (_, r) in enumerate(ok.iterrows()):
         note = _by_gid(ax.texts, f"bar-note-{i}").get_text()
         assert f"{r['net_power_kW']:.1f} kW" in note
-        assert (r["safety_class"] or "class n/a") in note
+        cls = r["safety_class"] if isinstance(r["safety_class"], str) else ""
+        assert {"none": "not classified", "": "class unknown"}.get(cls, cls) in note
         gwp = r["gwp100"]
-        assert (f"GWP {gwp:.0f}" if gwp is not None and math.isfinite(gwp) else "GWP n/a") in note
+        assert (f"GWP {gwp:g}" if gwp is not None and math.isfinite(gwp) else "GWP unknown") in note
     # the infeasible carbon dioxide cases (critical point below the useful evaporation
     # temperature: 31 °C, NIST Chemistry WebBook, from memory) have no bar
     assert not any("CarbonDioxide" in l or "carbon dioxide" in l.lower() for l in labels)
