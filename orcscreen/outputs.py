@@ -482,6 +482,10 @@ def write_outputs(out_dir: str | os.PathLike[str],
         "left_out_fluids": left_out_fluids(meta),
     }
     _atomic_write(info_path, json.dumps(info, indent=2) + "\n")
+    from orcscreen.spreadsheet import SPREADSHEET_FILE, write_spreadsheet  # openpyxl: only there
+
+    write_spreadsheet(out_dir / SPREADSHEET_FILE, ranking_path, info, meta.get("study"),
+                      text_columns=("case_key", *_VERSION_COLUMNS))
     _WRITTEN.pop(store.path.resolve(), None)
     while len(_WRITTEN) >= _WRITTEN_KEPT:  # the oldest first (dicts keep insertion order)
         _WRITTEN.pop(next(iter(_WRITTEN)))
