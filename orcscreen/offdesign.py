@@ -35,9 +35,9 @@ from dataclasses import dataclass
 import numpy as np
 
 from . import areas
-from .cycles.base import isentropic_end
+from .cycles import LAYOUTS
 from .exchangers import Profile, heater_profile
-from .paths import condensing_path, heating_path
+from .paths import condensing_path
 from .controls import CONTROLS, MIN_SINK_FLOW_FRACTION
 from .turbine import ConstantEfficiency
 
@@ -100,9 +100,9 @@ def scaled_U(U_design: float, zone: str, wf_flow_ratio: float, stream_flow_ratio
 # ---------------------------------------------------------------------------------------------
 
 
-#: Layouts whose off-design this module solves: one heater, one turbine, one condenser (a
-#: recuperator is held at its design effectiveness).
-SUPPORTED_LAYOUTS = ("basic", "recuperated")
+#: Layouts whose off-design this module solves, those with a hot side (Layout.hot_side): one
+#: heater, one turbine, one condenser (a recuperator is held at its design effectiveness).
+SUPPORTED_LAYOUTS = tuple(name for name, layout in LAYOUTS.items() if layout.hot_side is not None)
 
 #: Relative area mismatch below which an operating point is solved [-].
 AREA_RTOL = 1e-6
@@ -112,7 +112,9 @@ AREA_RTOL = 1e-6
 class Hardware:
     """What a design fixes [SI]: the turbine's Stodola constant and design efficiency, enthalpy
     drop and outlet volume flow; each exchanger's area and U by zone; the design flows; the
-    sink's design flow and auxiliary power; the design superheat."""
+    sink's design flow and auxiliary power; the design's heater coordinate and hot end
+    (orcscreen.cycles.base.HotSide: evaporation temperature and superheat, or heater pressure
+    and turbine inlet temperature)."""
 
     layout: str
     K_m2: float
@@ -126,18 +128,27 @@ class Hardware:
     m_source_design: float
     m_sink_design: float
     W_aux_design_W: float
-    superheat_K: float
-    T_evap_design_K: float
+    u_design: float
+    hot_design: float
     T_cond_design_K: float
     sink_density_design: float
     T_sink_design_K: float
+    #: a turbine of two sections (bleed, reheat; HotSide.lp_inlet): the second section's
+    #: Stodola constant [m2], the middle pressure's saturation temperature [K] and the value held
+    #: there at design (NaN for one section)
+    K_lp_m2: float = math.nan
+    T_mid_design_K: float = math.nan
+    held_design: float = math.nan
+    #: the flow through the turbine's last section and the condenser at design [kg/s]
+    m_out_design: float = math.nan
 
 
 @dataclass(frozen=True)
 class OperatingPoint:
     """The plant's state at one condition: net power [W] (0 when it cannot run, with the reason),
-    and the evaporation and condensing temperatures [K], working-fluid flow [kg/s], turbine
-    efficiency and source outlet temperature [K] it settles at."""
+    and the evaporation (NaN for a supercritical heater) and condensing temperatures [K],
+    working-fluid flow [kg/s], turbine efficiency and source outlet temperature [K] it settles
+    at; u is the heater's coordinate (orcscreen.cycles.base.HotSide)."""
 
     W_net_W: float
     reason: str = ""
@@ -156,6 +167,10 @@ class OperatingPoint:
     sink_flow_fraction: float = 1.0
     #: what the operator did to meet a limit, in words ("" when nothing)
     actions: str = ""
+    #: the heater's coordinate at the point and a two-section turbine's middle saturation
+    #: temperature [K] (the next bin's start)
+    u: float = math.nan
+    T_mid_K: float = math.nan
 
     @property
     def running(self) -> bool:
@@ -163,7 +178,7 @@ class OperatingPoint:
 
 
 def _need(design) -> None:
-    if design.layout not in SUPPORTED_LAYOUTS:
+    if design.layout not in LAYOUTS or LAYOUTS[design.layout].hot_side is None:
         raise ValueError(f"off-design of the {design.layout!r} layout is not modelled (only "
                          f"{', '.join(SUPPORTED_LAYOUTS)})")
 
@@ -171,18 +186,49 @@ def _need(design) -> None:
 def hardware_of(design, ctx) -> Hardware:
     """The hardware the design result (exact, feasible) fixes in its context."""
     _need(design)
-    fluid, st = ctx.fluid, design.states
+    fluid, st, sink = ctx.fluid, design.states, ctx.sink
     st3 = st["3"]
     sat_c = fluid.sat_T(design.T_cond_K)
-    st4s = isentropic_end(fluid, st3, sat_c)
-    K = stodola_constant(design.m_wf_kg_s, 1.0 / st3.v, st3.p_Pa, sat_c.p_Pa)
-    U = areas.zone_coefficients(ctx.source, ctx.sink, ctx.settings.u_W_m2K)
-    found = areas.exchanger_areas({k: p for k, p in design.profiles.items() if k in ("evaporator", "condenser")}, U)
-    sink = ctx.sink
-    return Hardware(design.layout, K, design.eta_turbine, st3.h - st4s.h, design.m_wf_kg_s * st4s.v,
-                    found["evaporator"], found["condenser"], U, design.m_wf_kg_s, ctx.source.m_kg_s,
-                    design.m_sink_kg_s, design.W_aux_W, design.superheat_K, design.T_evap_K, design.T_cond_K,
-                    _density(sink, sink.T_in_K), sink.T_in_K)
+    side = LAYOUTS[design.layout].hot_side
+    u, hot = side.of_design(design)
+    m, m_out = design.m_wf_kg_s, _condenser_flow(design)
+    T_mid, held, K_lp = math.nan, math.nan, math.nan
+    p_out = sat_c.p_Pa
+    if side.lp_inlet:  # a turbine of two sections: a Stodola law for each
+        T_mid, held = side.middle_of_design(ctx, design)
+        p_out = fluid.sat_T(T_mid).p_Pa
+        lp = st[side.lp_inlet]
+        K_lp = stodola_constant(m_out, 1.0 / lp.v, p_out, sat_c.p_Pa)
+    K = stodola_constant(m, 1.0 / st3.v, st3.p_Pa, p_out)
+    dh_is, v_s = side.isentropic_expansion(fluid, st, sat_c)
+    U = areas.zone_coefficients(ctx.source, sink, ctx.settings.u_W_m2K)
+    # both profiles as operating_point builds them (the same paths), so that the design
+    # condition returns the design itself
+    n = ctx.settings.n_zone_segments
+    path = side.heating_path(ctx, u, st, n)
+    profiles = {"evaporator": heater_profile(path, m, float(path.h[-1]), ctx.source),
+                "condenser": _condenser_profile(fluid, sat_c, st, m_out, sink, design.m_sink_kg_s, n)}
+    found = areas.exchanger_areas(profiles, U)
+    return Hardware(design.layout, K, design.eta_turbine, dh_is, m_out * v_s,
+                    found["evaporator"], found["condenser"], U, m, ctx.source.m_kg_s,
+                    design.m_sink_kg_s, design.W_aux_W, u, hot, design.T_cond_K,
+                    _density(sink, sink.T_in_K), sink.T_in_K, K_lp, T_mid, held, m_out)
+
+
+def _condenser_flow(r) -> float:
+    """Working-fluid flow through the condenser [kg/s] (the turbine's last section's): the heat
+    rejected over the enthalpy fall from the condenser's inlet, the last state of the cycle, to 1."""
+    states = list(r.states.values())
+    return r.Q_out_W / (states[-1].h - r.states["1"].h)
+
+
+def _condenser_profile(fluid, sat_c, states, m_out: float, sink, m_sink: float, n: int) -> Profile:
+    """The condenser's T-Q profile [W, K] at a condensing point: the working fluid from the
+    cycle's last state to 1 against the sink at flow m_sink [kg/s]."""
+    cpath = condensing_path(fluid, sat_c, states["1"], list(states.values())[-1], n, True)
+    Q = m_out * (cpath.h - cpath.h[0])
+    T_sink = sink.T_K(sink.h_in_J_kg + Q / m_sink)
+    return Profile(Q, cpath.T_K, np.asarray(T_sink, dtype=float))
 
 
 def _density(sink, T_K: float) -> float:
@@ -225,32 +271,40 @@ def operating_point(layout, ctx, hw: Hardware, T_sink_in_K: float, T_source_in_K
     settings0 = dataclasses.replace(s, aux_power_per_W_rejected=0.0, turbine=ConstantEfficiency(hw.eta_design),
                                     u_W_m2K={}, economics=None, objective=None, profiles_in_search=False,
                                     min_turbine_outlet_quality=0.0, max_pressure_Pa=None, max_reduced_pressure=0.995,
-                                    pinch_evaporator_K=0.0)
+                                    max_supercritical_reduced_pressure=math.inf, pinch_evaporator_K=0.0)
     n = s.n_zone_segments
     q_min = s.min_turbine_outlet_quality
-    p_max = s.max_evaporation_pressure_Pa(fluid)
-    T_evap_max = fluid.T_sat_K(p_max) if p_max < fluid.p_crit_Pa else math.inf
+    side = layout.hot_side
+    u_max = side.highest_u(ctx)
     T_min = source.T_out_min_K
 
+    k = 1 if side.lp_inlet else 0  # a turbine of two sections: the middle pressure is unknown too
+
     def solve_point(x, answers=()):
-        """(residuals, payload) at x = (T_evap, T_cond[, superheat][, sink flow fraction]): the
-        flow the turbine swallows, the part-load efficiency settled, the areas needed over the
-        design's, and one residual per answer: "wet" (superheat free, outlet quality at its
-        limit), "pressure" (superheat free, evaporation at the pressure limit), "outlet" (sink
-        flow free, source outlet at its minimum)."""
-        T_evap, T_cond = float(x[0]), float(x[1])
-        free_superheat = "wet" in answers or "pressure" in answers
-        x_sh = float(x[2]) if free_superheat else hw.superheat_K
+        """(residuals, payload) at x = (u, T_cond[, T_mid][, hot][, sink flow fraction]), u the
+        heater's coordinate, T_mid the saturation temperature of a two-section turbine's middle
+        pressure, hot the heater's hot end (orcscreen.cycles.base.HotSide): the flow the turbine
+        swallows (Stodola, per section), the part-load efficiency settled, the areas needed over
+        the design's (and the second section's flow against its law), and one residual per
+        answer: "wet" (hot end free, outlet quality at its limit), "pressure" (hot end free, the
+        heater at the pressure limit), "outlet" (sink flow free, source outlet at its minimum)."""
+        u, T_cond = float(x[0]), float(x[1])
+        T_mid = float(x[2]) if k else math.nan
+        hot = float(x[2 + k]) if "wet" in answers or "pressure" in answers else hw.hot_design
         g = float(x[-1]) if "outlet" in answers else sink_flow_fraction
-        if not (T_cond + 0.5 < T_evap < min(fluid.T_crit_K - 0.05, source.T_in_K - 0.05)) or T_cond <= sink.T_in_K:
+        if T_cond <= sink.T_in_K or not 0.05 < g <= 1.5:
             return None, None
-        if x_sh < 0.0 or T_evap + x_sh > source.T_in_K - 0.05 or not 0.05 < g <= 1.5:
+        at = side.point(ctx, u, hot, T_cond, source.T_in_K)
+        if at is None or (k and not T_cond + 0.1 < T_mid < u - 0.1):
             return None, None
+        variables, st3 = at
         m_sink = hw.m_sink_design * density_ratio * g
-        sat_e, sat_c = fluid.sat_T(T_evap), fluid.sat_T(T_cond)
-        st3 = fluid.state_pT(sat_e.p_Pa, T_evap + x_sh, "gas") if x_sh > 1e-12 else None
-        v3 = st3.v if st3 is not None else sat_e.vV
-        m = stodola_flow(hw.K_m2, 1.0 / v3, sat_e.p_Pa, sat_c.p_Pa)
+        sat_c = fluid.sat_T(T_cond)
+        p_out = sat_c.p_Pa
+        if k:
+            variables = {**variables, **side.middle(ctx, T_mid, hw.held_design)}
+            p_out = fluid.sat_T(T_mid).p_Pa
+        m = stodola_flow(hw.K_m2, 1.0 / st3.v, st3.p_Pa, p_out)
         if not m > 0.0:
             return None, None
         eta = hw.eta_design
@@ -258,14 +312,12 @@ def operating_point(layout, ctx, hw: Hardware, T_sink_in_K: float, T_source_in_K
         for _ in range(4):  # the part-load efficiency depends on the expansion it sets
             here = dataclasses.replace(ctx, source=source, sink=sink,
                                        settings=dataclasses.replace(settings0, turbine=ConstantEfficiency(eta)))
-            r = layout.evaluate_at(here, {"evaporation_temperature_K": T_evap, "superheat_K": x_sh}, True,
-                                   T_cond_K=T_cond, m_wf_kg_s=m)
+            r = layout.evaluate_at(here, variables, True, T_cond_K=T_cond, m_wf_kg_s=m)
             if not r.ok:
                 return None, r
-            st3r = r.states["3"]
-            st4s = isentropic_end(fluid, st3r, sat_c)
-            eta_new = part_load_efficiency(hw.eta_design, (st3r.h - st4s.h) / hw.dh_is_design,
-                                           m * st4s.v / hw.v_out_design_m3_s)
+            dh_is, v_s = side.isentropic_expansion(fluid, r.states, sat_c)
+            m_out = _condenser_flow(r)
+            eta_new = part_load_efficiency(hw.eta_design, dh_is / hw.dh_is_design, m_out * v_s / hw.v_out_design_m3_s)
             if not eta_new > PART_LOAD_FLOOR * hw.eta_design:  # far outside the correlation's range
                 return None, (f"turbine part-load efficiency below {PART_LOAD_FLOOR:.0%} of the design's: "
                               "outside the correlation's range")
@@ -273,63 +325,65 @@ def operating_point(layout, ctx, hw: Hardware, T_sink_in_K: float, T_source_in_K
                 break
             eta = eta_new
         st = r.states
-        inlet = st.get("2r", st["2"])
-        path = heating_path(fluid, sat_e, inlet, st["3"], n, True, zones=False)
-        prof_e = heater_profile(path, m, st["3"].h, source)
-        cpath = condensing_path(fluid, sat_c, st["1"], st.get("4r", st["4"]), n, True)
-        Q = m * (cpath.h - cpath.h[0])
-        T_sink = sink.T_K(sink.h_in_J_kg + Q / m_sink)
-        prof_c = Profile(Q, cpath.T_K, np.asarray(T_sink, dtype=float))
+        path = side.heating_path(ctx, u, st, n)
+        prof_e = heater_profile(path, m, float(path.h[-1]), source)
+        prof_c = _condenser_profile(fluid, sat_c, st, m_out, sink, m_sink, n)
         A_e = _area(prof_e, "evaporator", hw.U_design, m / hw.m_wf_design,
                     source.m_kg_s / hw.m_source_design)
-        A_c = _area(prof_c, "condenser", hw.U_design, m / hw.m_wf_design, m_sink / hw.m_sink_design)
+        A_c = _area(prof_c, "condenser", hw.U_design, m_out / hw.m_out_design, m_sink / hw.m_sink_design)
         res = [A_e / hw.evaporator.area_m2 - 1.0, A_c / hw.condenser.area_m2 - 1.0]
-        if "wet" in answers:  # the superheat that puts the turbine outlet at its quality limit
-            q4 = st[r.turbine_outlet].q
-            res.append((q4 if q4 == q4 else 1.0) - q_min)
-        elif "pressure" in answers:  # the superheat that holds the evaporation at the pressure limit
-            res.append(T_evap - T_evap_max)
+        if k:  # the second section swallows what the first leaves it
+            lp = st[side.lp_inlet]
+            res.append(m_out / stodola_flow(hw.K_lp_m2, 1.0 / lp.v, p_out, sat_c.p_Pa) - 1.0)
+        if "wet" in answers:  # the hot end that puts the turbine outlets at their quality limit
+            res.append(_outlet_quality(layout, r) - q_min)
+        elif "pressure" in answers:  # the hot end that holds the heater at the pressure limit
+            res.append(u - u_max)
         if "outlet" in answers:  # the sink flow that brings the source outlet to its minimum
             res.append(float(prof_e.T_hot_K[0]) - T_min)
         res = np.array(res)
-        payload = _Solved(r, {"evaporator": prof_e, "condenser": prof_c}, m, eta, x_sh, g,
-                          hw.W_aux_design_W * density_ratio * g ** 3)
+        payload = _Solved(r, {"evaporator": prof_e, "condenser": prof_c}, m, eta, hot, g,
+                          hw.W_aux_design_W * density_ratio * g ** 3, T_mid)
         return (res if np.all(np.isfinite(res)) else None), payload
 
-    # start: the guess's (a neighbouring bin's) evaporation temperature, or the design's, and the
-    # design's condensing temperature moved with the sink
-    x0 = np.array((guess[0] if guess is not None else hw.T_evap_design_K,
-                   hw.T_cond_design_K + (sink.T_in_K - hw.T_sink_design_K)), dtype=float)
+    # start: the guess's (a neighbouring bin's) point, or the design's with the condensing
+    # temperature moved with the sink (and a middle pressure's saturation moved half as much)
+    dT = sink.T_in_K - hw.T_sink_design_K
+    x0 = np.array((hw.u_design, hw.T_cond_design_K + dT) + ((hw.T_mid_design_K + 0.5 * dT,) if k else ()))
+    if guess is not None:
+        x0[0] = guess[0]
+        if k and len(guess) > 2 and guess[2] == guess[2]:
+            x0[2] = guess[2]
     x, out, failed = _newton(solve_point, x0)
     if failed and abs(x0[1] - hw.T_cond_design_K) > 0.5:  # a second start: the design's condensing temperature
-        x2, out2, failed2 = _newton(solve_point, np.array((x0[0], hw.T_cond_design_K)))
+        x2, out2, failed2 = _newton(solve_point, np.array((x0[0], hw.T_cond_design_K) +
+                                                          ((hw.T_mid_design_K,) if k else ())))
         if not failed2:
             x, out, failed = x2, out2, ""
-    answers, actions = (), []
-    if failed and math.isfinite(T_evap_max):
+    answers = ()
+    if failed and math.isfinite(u_max):
         # no sliding-pressure point (it may lie above the pressure limit): try the pressure held
-        x, out, answers, actions = _answer(solve_point, x, out, answers, np.array([T_evap_max, x0[1], hw.superheat_K + 3.0]),
-                                           ("pressure",), actions, "pressure held at its limit with less flow")
-        failed = failed if not answers else ""
+        x, out, answers = _answer(solve_point, x, out, answers, np.array([u_max, *x0[1:], hw.hot_design + 3.0]),
+                                  ("pressure",))
+        # held with less flow, the hot end can only rise: a point with a cooler one is another branch
+        failed = failed if not answers or out.hot < hw.hot_design - 1e-9 else ""
     if failed:
         return OperatingPoint(0.0, reason=failed, sink_flow_fraction=sink_flow_fraction)
-    room = s.max_turbine_inlet_temperature_K is None or x[0] + hw.superheat_K + 3.0 < s.max_turbine_inlet_temperature_K
-    if _wet(out.result, q_min) and room:
-        # a wet expansion: just enough superheat to hold the outlet quality at its limit
-        x, out, answers, actions = _answer(solve_point, x, out, answers, np.array([x[0], x[1], hw.superheat_K + 3.0]),
-                                           ("wet",), actions, "superheat raised to keep the expansion dry")
-    if x[0] > T_evap_max + 1e-9 and "pressure" not in answers:
-        # the pressure limit: held there with less flow, the vapour leaving more superheated
-        sh = out.superheat_K + max(3.0, x[0] - T_evap_max)
-        x, out, answers, actions = _answer(solve_point, x, out, answers, np.array([T_evap_max, x[1], sh]), ("pressure",),
-                                           actions, "pressure held at its limit with less flow")
+    T3_max = s.max_turbine_inlet_temperature_K
+    if _wet(layout, out.result, q_min) and (T3_max is None or out.result.states["3"].T_K + 3.0 < T3_max):
+        # a wet expansion: just enough more heat at the hot end to hold the outlet quality at its limit
+        x, out, answers = _answer(solve_point, x, out, answers, np.array([*x[:2 + k], hw.hot_design + 3.0]), ("wet",))
+    if x[0] > u_max + 1e-9 and "pressure" not in answers:
+        # the pressure limit: held there with less flow, the vapour leaving hotter
+        x, out, answers = _answer(solve_point, x, out, answers, np.array([u_max, *x[1:2 + k], out.hot + 3.0]),
+                                  ("pressure",))
     if T_min is not None and out.T_source_out_K < T_min - 1e-6:
-        # the source's outlet minimum: the sink's fans or pumps slowed until it is met
-        # started from the design's temperatures, where a design on that limit settles
-        for x1 in (np.concatenate(((hw.T_evap_design_K, hw.T_cond_design_K), x[2:], (0.7 * out.sink_flow_fraction,))),
+        # the source's outlet minimum: the sink's fans or pumps slowed until it is met,
+        # started from the design's point, where a design on that limit settles
+        design_start = (hw.u_design, hw.T_cond_design_K) + ((hw.T_mid_design_K,) if k else ())
+        for x1 in (np.concatenate((design_start, x[2 + k:], (0.7 * out.sink_flow_fraction,))),
                    np.append(x, 0.8 * out.sink_flow_fraction)):
-            x, out, answers, actions = _answer(solve_point, x, out, answers, x1, answers + ("outlet",), actions,
-                                               "sink flow reduced to keep the source outlet at its minimum")
+            x, out, answers = _answer(solve_point, x, out, answers, x1, answers + ("outlet",))
             if "outlet" in answers:
                 break
         if "outlet" in answers and out.sink_flow_fraction < MIN_SINK_FLOW_FRACTION:
@@ -337,47 +391,60 @@ def operating_point(layout, ctx, hw: Hardware, T_sink_in_K: float, T_source_in_K
                    f"below the {MIN_SINK_FLOW_FRACTION:.0%} the fans or pumps are slowed to")
             return OperatingPoint(0.0, why, sink_flow_fraction=out.sink_flow_fraction)
     r, profiles = out.result, out.profiles
-    why = _limits(ctx, r, source, r.states["3"], out.T_source_out_K)
+    why = _limits(ctx, layout, r, source, out.T_source_out_K, x[0] > u_max * (1 + 1e-9), side)
     W_net = r.W_net_W - out.W_aux_W
     if not why and W_net <= 0.0:
         why = "net power not positive at this condition"
-    return OperatingPoint(0.0 if why else W_net, why, float(x[0]), float(x[1]), out.m_wf_kg_s, out.eta_turbine,
-                          out.T_source_out_K, r, profiles, out.superheat_K, out.sink_flow_fraction,
-                          "; ".join(actions))
+    return OperatingPoint(0.0 if why else W_net, why, r.T_evap_K, float(x[1]), out.m_wf_kg_s, out.eta_turbine,
+                          out.T_source_out_K, r, profiles, r.superheat_K, out.sink_flow_fraction,
+                          "; ".join(_ANSWERED[a].format(hot=side.hot_words) for a in answers), float(x[0]),
+                          out.T_mid_K)
 
 
 @dataclass(frozen=True)
 class _Solved:
     """What one trial of operating_point computed: the cycle, its exchanger profiles, the flow
-    [kg/s], the turbine efficiency, the superheat [K], the sink flow fraction and the sink's
+    [kg/s], the turbine efficiency, the heater's hot end, the sink flow fraction and the sink's
     fan or pump power [W]."""
 
     result: object
     profiles: dict
     m_wf_kg_s: float
     eta_turbine: float
-    superheat_K: float
+    hot: float
     sink_flow_fraction: float
     W_aux_W: float
+    T_mid_K: float = math.nan
 
     @property
     def T_source_out_K(self) -> float:
         return float(self.profiles["evaporator"].T_hot_K[0])
 
 
-def _wet(r, q_min: float) -> bool:
-    q4 = r.states[r.turbine_outlet].q
-    return q4 == q4 and q4 < q_min
+#: What the operator did for each answer, in words.
+_ANSWERED = {"wet": "{hot} raised to keep the expansion dry",
+             "pressure": "pressure held at its limit with less flow (a higher {hot})",
+             "outlet": "sink flow reduced to keep the source outlet at its minimum"}
 
 
-def _answer(solve_point, x, out, answers: tuple, x0, trial: tuple, actions: list, action: str):
+def _outlet_quality(layout, r) -> float:
+    """The lowest quality at the layout's turbine outlets (1 where an outlet is superheated)."""
+    qs = [r.states[key].q for key in layout.turbine_outlets]
+    return min(q if q == q else 1.0 for q in qs)
+
+
+def _wet(layout, r, q_min: float) -> bool:
+    return _outlet_quality(layout, r) < q_min
+
+
+def _answer(solve_point, x, out, answers: tuple, x0, trial: tuple):
     """Solve again from x0 with the unknowns and residuals of trial: the new (x, payload,
-    answers, actions), or the old ones (x, out, answers) when no point is found (the limit check
-    then names the limit the plant could not meet)."""
+    answers), or the old ones when no point is found (the limit check then names the limit the
+    plant could not meet)."""
     x_new, out_new, failed = _newton(lambda z: solve_point(z, trial), x0)
     if failed:
-        return x, out, answers, actions
-    return x_new, out_new, trial, actions + [action]
+        return x, out, answers
+    return x_new, out_new, trial
 
 
 def _newton(solve, x0: np.ndarray, step_K: float = 0.02, iterations: int = 40):
@@ -411,7 +478,7 @@ def _newton(solve, x0: np.ndarray, step_K: float = 0.02, iterations: int = 40):
         while lam > 1e-3:
             x_try = x + lam * np.clip(delta, -5.0, 5.0)
             f_try, out_try = solve(x_try)
-            if f_try is not None and np.max(np.abs(f_try)) < np.max(np.abs(f)):
+            if f_try is not None and np.linalg.norm(f_try) < np.linalg.norm(f):
                 x, f, out = x_try, f_try, out_try
                 break
             lam *= 0.5
@@ -442,7 +509,7 @@ def best_sink_flow_point(layout, ctx, hw: Hardware, T_sink_in_K: float, T_source
     from scipy.optimize import minimize_scalar
 
     full = operating_point(layout, ctx, hw, T_sink_in_K, T_source_in_K, m_source_kg_s, guess)
-    start = (full.T_evap_K, full.T_cond_K) if full.running else guess
+    start = (full.u, full.T_cond_K, full.T_mid_K) if full.running else guess
     top = min(1.0, full.sink_flow_fraction)
     if top <= MIN_SINK_FLOW_FRACTION + SINK_FLOW_XTOL:
         return full
@@ -481,7 +548,7 @@ def annual_energy(layout, ctx, hw: Hardware, bins, W_design_W: float, control: s
             T_src = None if b.source_temperature_C is None else b.source_temperature_C + 273.15
             solved[i] = p = point_at(layout, ctx, hw, b.sink_temperature_C + 273.15, T_src, b.source_mass_flow_kg_s, guess)
             if p.running:
-                guess = (p.T_evap_K, p.T_cond_K)
+                guess = (p.u, p.T_cond_K, p.T_mid_K)
     points = tuple((b, solved[i]) for i, b in enumerate(bins))
     energy_Wh = sum(p.W_net_W * b.hours for b, p in points)
     hours = sum(b.hours for b, _ in points)
@@ -497,11 +564,12 @@ def _why(out, default: str) -> str:
     return getattr(r, "reason", "") or default
 
 
-def _limits(ctx, r, source, st3, T_source_out_K: float) -> str:
+def _limits(ctx, layout, r, source, T_source_out_K: float, above_pressure: bool, side) -> str:
     """The limit the solved point breaks, in words, or ""."""
     s = ctx.settings
-    q4 = r.states[r.turbine_outlet].q
-    if q4 == q4 and q4 < s.min_turbine_outlet_quality:
+    st3 = r.states["3"]
+    q4 = _outlet_quality(layout, r)
+    if q4 < s.min_turbine_outlet_quality - 1e-6:  # an answered limit is met to the solver's tolerance
         return f"turbine outlet quality {q4:.3f} below {s.min_turbine_outlet_quality:g}"
     T_min = source.T_out_min_K
     if T_min is not None and T_source_out_K < T_min - 1e-6:
@@ -510,8 +578,7 @@ def _limits(ctx, r, source, st3, T_source_out_K: float) -> str:
     if s.max_turbine_inlet_temperature_K is not None and st3.T_K > s.max_turbine_inlet_temperature_K + 1e-6:
         return (f"turbine inlet {st3.T_K - 273.15:.1f} °C above the fluid's thermal-stability limit "
                 f"{s.max_turbine_inlet_temperature_K - 273.15:.1f} °C")
-    p_max = s.max_evaporation_pressure_Pa(ctx.fluid)
-    if st3.p_Pa > p_max * (1 + 1e-9):
-        return (f"evaporation pressure {st3.p_Pa / 1e5:.2f} bar above the limit {p_max / 1e5:.2f} bar, "
+    if above_pressure:
+        return (f"{side.coordinate} above its pressure limit ({st3.p_Pa / 1e5:.2f} bar), "
                 "and no operating point holds it there with less flow")
     return ""

@@ -1,14 +1,16 @@
 """The design chosen for the year (``[year] design_for = "year"``, an option): instead of the
-design that makes the study's objective best at the design condition, the evaporation
-temperature of the design is searched for the most net energy over the year, each candidate
+design that makes the study's objective best at the design condition, the design's heater
+pressure (the evaporation temperature, or a supercritical heater's pressure: the layout's
+``hot_side.variable``) is searched for the most net energy over the year, each candidate
 design's hardware rated bin by bin (orcscreen.offdesign).
 
-The search (Brent's bounded method, scipy's minimize_scalar, to YEAR_XATOL_K) rates each
+The search (Brent's bounded method, scipy's minimize_scalar, to YEAR_XATOL of the variable's
+window) rates each
 candidate on at most REPRESENTATIVE_BINS bins: consecutive bins merged into groups of about
 equal hours, each group at its hour-weighted mean sink temperature (our choice; the year's own
 bins when they carry source values). The design found is then rated on every bin and kept only
 when it beats the design-point optimum's year there. Other free variables (an optimised
-superheat) stay at the design-point optimum's values. It costs many design optimisations per
+superheat, a turbine inlet temperature) stay at the design-point optimum's values. It costs many design optimisations per
 case (figures in benchmarks/bench_year.py), hence an option.
 """
 
@@ -19,16 +21,14 @@ import math
 from . import offdesign
 from .year import Bin
 
-__all__ = ["REPRESENTATIVE_BINS", "YEAR_XATOL_K", "representative_bins", "design_for_year"]
+__all__ = ["REPRESENTATIVE_BINS", "YEAR_XATOL", "representative_bins", "design_for_year"]
 
 #: Most bins a candidate design is rated on during the search (our choice).
 REPRESENTATIVE_BINS = 8
 
-#: Tolerance of the searched evaporation temperature [K] (our choice).
-YEAR_XATOL_K = 0.05
-
-#: The free variable searched for the year.
-SEARCHED = "evaporation_temperature_K"
+#: Tolerance of the searched variable, as a fraction of its window (our choice: about 0.05 K of
+#: a 60 K evaporation window).
+YEAR_XATOL = 1e-3
 
 
 def representative_bins(bins, n: int = REPRESENTATIVE_BINS) -> list:
@@ -63,16 +63,19 @@ def design_for_year(layout, ctx, design, bins, control: str):
     limit, when no other does better over every bin), the designs evaluated, and a note."""
     from scipy.optimize import minimize_scalar
 
-    if SEARCHED not in [v.name for v in layout.variables(ctx)]:
+    name = layout.hot_side.variable
+    var = next((v for v in layout.variables(ctx) if v.name == name), None)
+    if var is None:
         return design, 0, None, ""
-    outer = {k: v for k, v in design.variables.items() if k != SEARCHED}
-    window = layout.window(ctx, SEARCHED, outer)
+    outer = {k: v for k, v in design.variables.items() if k != name}
+    window = layout.window(ctx, name, outer)
+    xatol = YEAR_XATOL * (window.hi - window.lo)
     few = representative_bins(bins)
     tried: dict[float, float] = {}
 
     def rated(x: float, on):
         """(design at x, its energy over the bins on [MWh], or None where infeasible)."""
-        r = layout.evaluate(ctx, {**design.variables, SEARCHED: x}, exact=True)
+        r = layout.evaluate(ctx, {**design.variables, name: x}, exact=True)
         if not r.ok:
             return r, None
         year = offdesign.annual_energy(layout, ctx, offdesign.hardware_of(r, ctx), on, r.W_net_W, control)
@@ -83,19 +86,22 @@ def design_for_year(layout, ctx, design, bins, control: str):
         tried[float(x)] = -math.inf if energy is None else energy
         return math.inf if energy is None else -energy
 
-    minimize_scalar(loss, bounds=(window.lo, window.hi), method="bounded", options={"xatol": YEAR_XATOL_K})
+    minimize_scalar(loss, bounds=(window.lo, window.hi), method="bounded", options={"xatol": xatol})
     n = len(tried) + 2
     x_best = max(tried, key=tried.get)
-    base = rated(design.variables[SEARCHED], bins)[1]
+    base = rated(design.variables[name], bins)[1]
     if not math.isfinite(tried[x_best]):
         return design, n, None, "designed for the year: no other design runs, the design point's optimum kept"
     r, energy = rated(x_best, bins)
     if energy is None or base is not None and energy <= base:
         return design, n, None, "designed for the year: the design point's optimum is also the year's"
-    at = (window.lo_name if x_best - window.lo < 2 * YEAR_XATOL_K else
-          window.hi_name if window.hi - x_best < 2 * YEAR_XATOL_K else "none (the year's interior optimum)")
+    at = (window.lo_name if x_best - window.lo < 2 * xatol else
+          window.hi_name if window.hi - x_best < 2 * xatol else "none (the year's interior optimum)")
     gain = "" if base is None else f", {energy / base - 1.0:+.2%} energy over the year"
-    note = (f"designed for the year: evaporation at {x_best - 273.15:.1f} °C instead of "
-            f"{design.variables[SEARCHED] - 273.15:.1f} °C{gain}, "
+    def shown(v: float) -> str:
+        return f"{v * var.scale + var.offset:.4g}" + (f" {var.unit}" if var.unit != "-" else "")
+
+    note = (f"designed for the year: {var.label} {shown(x_best)} instead of "
+            f"{shown(design.variables[name])}{gain}, "
             f"{r.W_net_W / design.W_net_W - 1.0:+.2%} net power at the design point")
     return r, n, at, note

@@ -4,7 +4,7 @@ A small invented study runs end to end through the command line; the spreadsheet
 against the ranking.csv of the same run (header, every value, order), against the unit symbols
 of the SI Brochure (BIPM, 9th ed. 2019, Tables 2 and 4: K, °C, Pa, W, m, kg, s; bar = 1e5 Pa and
 h as the SI Brochure's 8th ed. Table 8 lists them, from memory), against the safety classes of
-ANSI/ASHRAE Standard 34 and the GWP100 of IPCC AR5 WG1 Table 8.A.1 (read through the
+ANSI/ASHRAE Standard 34 and the GWP100 of IPCC AR6 WG1 Table 7.SM.7 (read through the
 globalwarmingpotentials package), and against the project's one caution text.
 """
 
@@ -158,8 +158,8 @@ def test_cautions_sheet_holds_the_caution_text_and_each_fluid(run_dir):
     assert table["R245fa"][2] == "B1" and table["n-Pentane"][2] == "A3"
     assert table["R245fa"][5] == fluids.get_info("R245fa").cautions  # the catalogue's own text
     gwp = pytest.importorskip("globalwarmingpotentials")
-    # IPCC AR5 WG1 Table 8.A.1 GWP100, as the globalwarmingpotentials package transcribes it
-    assert table["R245fa"][3] == pytest.approx(gwp.data["AR5GWP100"]["HFC245fa"])
+    # IPCC AR6 WG1 Table 7.SM.7 GWP100, as the globalwarmingpotentials package transcribes it
+    assert table["R245fa"][3] == pytest.approx(gwp.data["AR6GWP100"]["HFC245fa"])
 
 
 def _small_csv(path, rows):

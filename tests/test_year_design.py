@@ -56,10 +56,10 @@ def test_the_year_design_is_within_a_dense_grid_of_designs(tmp_path):
     def energy(r):
         return od.annual_energy(L, ctx, od.hardware_of(r, ctx), bins, r.W_net_W).energy_MWh
 
-    w = L.window(ctx, yd.SEARCHED, {})
+    w = L.window(ctx, L.hot_side.variable, {})
     grid = []
     for x in np.linspace(w.lo, w.hi, 41):
-        r = L.evaluate(ctx, {**point.variables, yd.SEARCHED: float(x)}, exact=True)
+        r = L.evaluate(ctx, {**point.variables, L.hot_side.variable: float(x)}, exact=True)
         if r.ok:
             grid.append(energy(r))
     assert len(grid) > 10

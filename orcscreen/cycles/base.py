@@ -195,6 +195,58 @@ class Window:
     hi_name: str
 
 
+class HotSide:
+    """The heater of a fixed design as orcscreen.offdesign moves it (one per family of layouts).
+
+    u: the pressure coordinate the turbine's swallowing capacity sets (sliding pressure), in a
+    unit where STEP_U is a fit finite-difference step and a Newton step is clipped to 5; hot: the
+    hot-end value an operator holds (raises, to answer a wet expansion or the pressure limit)."""
+
+    #: the words of u and hot
+    coordinate: str = ""
+    hot_words: str = ""
+    #: the layout's free variable that sets u at the design
+    variable: str = ""
+
+    def of_design(self, r: "CycleResult") -> tuple[float, float]:
+        """(u, hot) of a design result."""
+        raise NotImplementedError
+
+    def highest_u(self, ctx: "CycleContext") -> float:
+        """u at the layout's pressure limit (inf when none applies)."""
+        raise NotImplementedError
+
+    def point(self, ctx: "CycleContext", u: float, hot: float, T_cond_K: float, T_source_K: float):
+        """(free variables x of the layout, turbine-inlet state) at (u, hot), or None outside
+        the fluid's or the source's range."""
+        raise NotImplementedError
+
+    def heating_path(self, ctx: "CycleContext", u: float, states: Mapping[str, "State"], n: int):
+        """The heater's discretised path at u between the cycle's states (orcscreen.paths), per kg
+        of the heater's flow; it ends at the heater's outlet enthalpy."""
+        raise NotImplementedError
+
+    #: the state entering the second section of a turbine split by a bleed or a reheat ("" for
+    #: a turbine of one section); its pressure is the middle pressure, a third unknown off design
+    lp_inlet: str = ""
+
+    def middle_of_design(self, ctx: "CycleContext", r: "CycleResult") -> tuple[float, float]:
+        """(saturation temperature of the middle pressure [K], the value held there [SI]) of a
+        design whose turbine has two sections."""
+        raise NotImplementedError
+
+    def middle(self, ctx: "CycleContext", T_mid_K: float, held: float) -> dict:
+        """The layout's free variables that put the middle pressure at saturation temperature
+        T_mid_K (and hold the value held there)."""
+        raise NotImplementedError
+
+    def isentropic_expansion(self, fluid, states: Mapping[str, "State"], sat_c) -> tuple[float, float]:
+        """(isentropic enthalpy drop of the turbine [J/kg], specific volume at its isentropic
+        outlet [m3/kg]): the part-load correlation's a and b. One expansion from state 3."""
+        st4s = isentropic_end(fluid, states["3"], sat_c)
+        return states["3"].h - st4s.h, st4s.v
+
+
 @dataclass(frozen=True)
 class CycleResult:
     """Everything one cycle evaluation produced. Powers [W], flows [kg/s], temperatures [K].
@@ -283,6 +335,9 @@ class Layout:
     #: cost of one optimisation relative to the basic layout's, as measured (benchmarks/
     #: bench_layouts.py, 2026-12-02): for the time estimate of `orcscreen check`
     cost_factor: float = 1.0
+    #: how orcscreen.offdesign moves the heater of a fixed design (a HotSide: its pressure
+    #: coordinate, the hot end held, the state and path at a point); None: off design not modelled
+    hot_side: "HotSide | None" = None
 
     def variables(self, ctx: CycleContext) -> tuple[Variable, ...]:
         """The free variables for this case, innermost (searched most often) first."""

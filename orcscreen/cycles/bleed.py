@@ -21,13 +21,14 @@ Wiley 2014, section 8.4.1 (regenerative cycle with an open feedwater heater) and
 
 from __future__ import annotations
 
+import math
 from collections.abc import Mapping
 from dataclasses import dataclass
 
 from ..exchangers import Profile, open_heater_bleed_fraction
 from ..states import CycleInfeasible, SatPoint, State
 from .base import CycleContext, Variable, Window, condenser_outlet, expand, isobar_ts, pump
-from .subcritical import EVAPORATION_TEMPERATURE_NESTED, SUPERHEAT, Subcritical
+from .subcritical import EVAPORATION_TEMPERATURE_NESTED, SUPERHEAT, EvaporatorHotSide, Subcritical
 
 __all__ = ["BleedRegenerative", "BLEED_REGENERATIVE", "BLEED_PLACE", "BLEED_PRESSURE_KEY"]
 
@@ -96,11 +97,27 @@ class BleedColdSide:
         return (self.s2h.h,)
 
 
+class BleedHotSide(EvaporatorHotSide):
+    """Off design of the bleed layout: the evaporator fed from the feed pump (state 2h), and a
+    turbine of two sections, the bled vapour (3b) at the middle pressure entering the second one
+    with the flow the open heater leaves it (orcscreen.offdesign: a Stodola law per section)."""
+
+    heater_inlet = "2h"
+    lp_inlet = "3b"
+
+    def middle_of_design(self, ctx, r):
+        return ctx.fluid.T_sat_K(r.states["3b"].p_Pa), math.nan
+
+    def middle(self, ctx, T_mid_K, held):
+        return {BLEED_PRESSURE_KEY: ctx.fluid.sat_T(T_mid_K).p_Pa}
+
+
 class BleedRegenerative(Subcritical):
     """Subcritical layout with one open feed-liquid heater fed by turbine bleed (module docstring)."""
 
     columns = ("bleed_pressure_bar", "bleed_fraction")
     cost_factor = 8.0
+    hot_side = BleedHotSide()
 
     #: the bleed fraction, hence the heater inlet, follows the expansion (see Subcritical.heater_inlet_follows_turbine)
     heater_inlet_follows_turbine = True

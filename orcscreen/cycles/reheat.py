@@ -27,8 +27,8 @@ from dataclasses import dataclass
 from ..exchangers import Profile
 from ..paths import composite_path, heating_path, reheating_path
 from ..states import CycleInfeasible, SatPoint, State
-from .base import C, CycleContext, Variable, Window, condenser_outlet, expand, isobar_ts, pump
-from .subcritical import EVAPORATION_TEMPERATURE_NESTED, SUPERHEAT, Subcritical
+from .base import C, CycleContext, Variable, Window, condenser_outlet, expand, isentropic_end, isobar_ts, pump
+from .subcritical import EVAPORATION_TEMPERATURE_NESTED, SUPERHEAT, EvaporatorHotSide, Subcritical
 
 __all__ = ["Reheat", "REHEAT", "REHEAT_PLACE", "REHEAT_PRESSURE_KEY"]
 
@@ -96,12 +96,42 @@ class ReheatColdSide:
         return (self.s2.h, self.s3e.h, self.s3r.h)
 
 
+class ReheatHotSide(EvaporatorHotSide):
+    """Off design of the reheat layout: the evaporator and the reheater as one composite heater
+    (as at design), the reheater outlet temperature held at the design's (common practice: the
+    reheat temperature is controlled), and a turbine of two sections, the reheated vapour (3r)
+    at the middle pressure entering the second one (orcscreen.offdesign: a Stodola law per
+    section)."""
+
+    lp_inlet = "3r"
+
+    def middle_of_design(self, ctx, r):
+        return ctx.fluid.T_sat_K(r.states["3e"].p_Pa), r.states["3r"].T_K
+
+    def middle(self, ctx, T_mid_K, held):
+        return {REHEAT_PRESSURE_KEY: ctx.fluid.sat_T(T_mid_K).p_Pa, REHEAT_TEMPERATURE_KEY: held}
+
+    def heating_path(self, ctx, u, states, n):
+        fluid = ctx.fluid
+        main = heating_path(fluid, fluid.sat_T(u), states["2"], states["3"], n, True, zones=False)
+        rh = reheating_path(fluid, fluid.sat_p(states["3e"].p_Pa), states["3e"], states["3r"], n, True)
+        return composite_path((main, rh), (1.0, 1.0), ("evaporator", "reheater"))
+
+    def isentropic_expansion(self, fluid, states, sat_c):
+        """The two sections' isentropic drops added; the outlet volume of the second's end."""
+        sat_rh = fluid.sat_p(states["3e"].p_Pa)
+        hp = isentropic_end(fluid, states["3"], sat_rh)
+        lp = isentropic_end(fluid, states["3r"], sat_c)
+        return (states["3"].h - hp.h) + (states["3r"].h - lp.h), lp.v
+
+
 class Reheat(Subcritical):
     """Subcritical layout with one reheat between two turbines (module docstring)."""
 
     columns = ("reheat_pressure_bar", "reheat_temperature_C")
     turbine_outlets = ("3e", "4")
     cost_factor = 15.0
+    hot_side = ReheatHotSide()
 
     #: the reheater inlet is the high-pressure turbine outlet (see Subcritical.heater_inlet_follows_turbine)
     heater_inlet_follows_turbine = True

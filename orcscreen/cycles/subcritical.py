@@ -40,6 +40,7 @@ from .base import (
     ColdSide,
     CycleContext,
     CycleResult,
+    HotSide,
     Layout,
     Variable,
     Window,
@@ -92,8 +93,44 @@ def evaporation_window(ctx: CycleContext, superheat_K: float) -> Window:
     return Window(T_lo, T_hi, "lowest evaporation temperature", name)
 
 
+class EvaporatorHotSide(HotSide):
+    """Off design of an evaporator: u is the evaporation temperature [K], hot the superheat [K]."""
+
+    coordinate = "evaporation temperature"
+    hot_words = "superheat"
+    variable = "evaporation_temperature_K"
+
+    def of_design(self, r):
+        return r.T_evap_K, r.superheat_K
+
+    def highest_u(self, ctx):
+        fluid = ctx.fluid
+        p_max = ctx.settings.max_evaporation_pressure_Pa(fluid)
+        return fluid.T_sat_K(p_max) if p_max < fluid.p_crit_Pa else math.inf
+
+    def point(self, ctx, u, hot, T_cond_K, T_source_K):
+        fluid = ctx.fluid
+        if not (T_cond_K + 0.5 < u < min(fluid.T_crit_K - 0.05, T_source_K - 0.05)):
+            return None
+        if hot < 0.0 or u + hot > T_source_K - 0.05:
+            return None
+        sat_e = fluid.sat_T(u)
+        st3 = (fluid.state_pT(sat_e.p_Pa, u + hot, "gas") if hot > 1e-12
+               else State(u, sat_e.p_Pa, sat_e.hV, sat_e.sV, sat_e.vV, 1.0))
+        return {EVAPORATION_TEMPERATURE.name: u, SUPERHEAT.name: hot}, st3
+
+    #: the state entering the evaporator
+    heater_inlet: str = "2"
+
+    def heating_path(self, ctx, u, states, n):
+        st_in = states.get("2r", states[self.heater_inlet])
+        return heating_path(ctx.fluid, ctx.fluid.sat_T(u), st_in, states["3"], n, True, zones=False)
+
+
 class Subcritical(Layout):
     """Basic and recuperated subcritical layouts (module docstring)."""
+
+    hot_side = EvaporatorHotSide()
 
     limits = ("max pressure", "max reduced pressure", "thermal stability", "turbine outlet quality",
               "min condensing pressure", "evaporator pinch", "condenser pinch", "source outlet limit")

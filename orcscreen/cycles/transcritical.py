@@ -38,6 +38,7 @@ from .base import (
     ColdSide,
     CycleContext,
     CycleResult,
+    HotSide,
     Layout,
     Variable,
     Window,
@@ -78,10 +79,49 @@ N_FAST_SEGMENTS = 8
 XATOL_FAST_K = 1e-2
 
 
+class SupercriticalHotSide(HotSide):
+    """Off design of a supercritical heater: u is 100 p/p_crit (the heater pressure over the
+    critical one, in per cent), hot the turbine inlet temperature [K]. The heater pressure
+    slides with the turbine's swallowing capacity and must stay above the critical pressure:
+    below it the heater would boil, which this layout's model does not hold."""
+
+    coordinate = "heater pressure"
+    hot_words = "turbine inlet temperature"
+    variable = "heater_reduced_pressure"
+
+    def of_design(self, r):
+        return 100.0 * r.variables[HEATER_REDUCED_PRESSURE.name], r.states["3"].T_K
+
+    def highest_u(self, ctx):
+        return 100.0 * ctx.settings.max_heater_pressure_Pa(ctx.fluid)[0] / ctx.fluid.p_crit_Pa
+
+    def point(self, ctx, u, hot, T_cond_K, T_source_K):
+        fluid = ctx.fluid
+        if not (u > 100.0 * LOWEST_OFF_DESIGN_REDUCED_PRESSURE and T_cond_K < fluid.T_crit_K - 0.05):
+            return None
+        if not (fluid.T_crit_K < hot < T_source_K - 0.05):
+            return None
+        p = u / 100.0 * fluid.p_crit_Pa
+        return {HEATER_REDUCED_PRESSURE.name: u / 100.0, TURBINE_INLET_TEMPERATURE.name: hot}, fluid.state_pT(p, hot)
+
+    def heating_path(self, ctx, u, states, n):
+        # uniform in temperature, without the refinement rounds: a grid that moves continuously
+        # with u, so that the areas' balance is smooth for the Newton iteration (the refinement
+        # adds points in jumps); three times as many segments make up for it
+        return supercritical_heating_path(ctx.fluid, u / 100.0 * ctx.fluid.p_crit_Pa, states.get("2r", states["2"]),
+                                          states["3"], 3 * n, rounds=0)
+
+
+#: Lowest heater pressure off design, over the critical pressure (our choice: closer, the
+#: equation of state near the critical point makes the areas' balance ill-conditioned).
+LOWEST_OFF_DESIGN_REDUCED_PRESSURE = 1.002
+
+
 class Transcritical(Layout):
     """Transcritical layout, with or without a recuperator (module docstring)."""
 
     supercritical = True
+    hot_side = SupercriticalHotSide()
     cost_factor = 5.0
     limits = ("max pressure", "max supercritical reduced pressure", "thermal stability", "turbine outlet quality",
               "min condensing pressure", "condensation below the critical temperature", "heater pinch",
