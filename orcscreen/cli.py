@@ -188,7 +188,7 @@ def _cmd_report(args: argparse.Namespace) -> int:
             raise UsageError("this orcscreen has no report module yet; ranking.csv in the run "
                              "directory holds the results") from None
         raise
-    path = report.build_report(out_dir)
+    path = report.build_report(out_dir, svg=args.svg) if args.svg else report.build_report(out_dir)
     print(f"report: {path if path else out_dir / 'report.html'} "
           f"(store read {getattr(report, 'READ_MODE', 'as found')})")
     print(CAUTION_LINE)
@@ -336,10 +336,12 @@ def build_parser() -> argparse.ArgumentParser:
     p = sub.add_parser(
         "report", help="rebuild the charts and report.html of a finished run",
         description="Rebuild DIR/figures/*.png and DIR/report.html from the run store DIR/run.sqlite.",
-        epilog="example:\n  orcscreen report out/demo",
+        epilog="example:\n  orcscreen report out/demo\n  orcscreen report out/demo --svg    # SVG files too",
         formatter_class=fmt,
     )
     p.add_argument("dir", metavar="DIR", help="output directory of an `orcscreen run`")
+    p.add_argument("--svg", action="store_true",
+                   help="also write every chart as SVG (vector files for print or editing); PNG only by default")
     p.set_defaults(func=_cmd_report)
 
     p = sub.add_parser(

@@ -590,18 +590,33 @@ def _warning_lines(best) -> list[str]:
         text = r["warnings"]
         if not isinstance(text, str) or not text:
             continue
-        name = r.get("display_name") if isinstance(r.get("display_name"), str) else r["fluid"]
-        lines.extend(f"  #{r['rank']} {name} · {r['layout']}: {w}" for w in text.split("; ") if w)
+        lines.extend(f"  #{r['rank']} {_name(r)} · {r['layout']}: {w}" for w in text.split("; ") if w)
     return lines
+
+
+def _fold_lines(best) -> list[str]:
+    """One line per row that a layout without gain was folded into (orcscreen.rank.fold_inactive)."""
+    from orcscreen.rank import FOLD_NOTE
+
+    return [f"  #{r['rank']} {_name(r)} · {r['layout']}: {r[FOLD_NOTE]}"
+            for _, r in best.iterrows() if r.get(FOLD_NOTE)]
+
+
+def _name(r) -> str:
+    return r.get("display_name") if isinstance(r.get("display_name"), str) else r["fluid"]
 
 
 def _top_text(summary: RankingSummary, n: int) -> str:
     import pandas as pd
 
+    from orcscreen.rank import fold_inactive
+
     sweep_cols = summary.varying
     n_points = summary.points if sweep_cols else 1
     pool = summary.best if n_points > 1 else summary.leaders
-    best = pool.head(n) if pool is not None else None
+    objective = summary.objective or OBJECTIVES[DEFAULT_OBJECTIVE]
+    # a layout whose extra component does nothing is shown once, as its simpler layout
+    best = fold_inactive(pool, objective.column).head(n) if pool is not None else None
     counts = summary.status_counts
     tally = ", ".join(f"{s} {int(counts.get(s, 0))}" for s in ("ok", "infeasible", "failed"))
     if best is None or best.empty:
@@ -617,7 +632,6 @@ def _top_text(summary: RankingSummary, n: int) -> str:
             ("p_high bar", "turbine_inlet_pressure_bar", ".2f"),
             ("p_cond bar", "condensing_pressure_bar", ".3f"), ("SP m", "size_parameter_m", ".3f"),
             ("VR", "volume_ratio", ".1f"), ("stages", "turbine_stages", ".0f"), ("eta_t", "turbine_efficiency", ".3f")]
-    objective = summary.objective or OBJECTIVES[DEFAULT_OBJECTIVE]
     if objective.needs_year:  # the year's figures next to the design power
         spec[1:1] = [("MWh/year", "annual_energy_MWh", ".0f"), ("CF", "capacity_factor", ".3f"),
                      ("h off", "hours_not_running", ".0f")]
@@ -641,6 +655,9 @@ def _top_text(summary: RankingSummary, n: int) -> str:
     notes = _warning_lines(best)
     if notes:
         text += "\nwarnings (soft limits passed; the results stand):\n" + "\n".join(notes)
+    folded = _fold_lines(best)
+    if folded:
+        text += "\nshown once (the same result in a layout whose extra component does nothing):\n" + "\n".join(folded)
     by = f" by {objective.label}"
     if n_points > 1:
         head = f"best {len(best)} of {summary.cases} cases{by} over {n_points} operating points"

@@ -183,9 +183,13 @@ def ranking_chart(df: pd.DataFrame, ax: Axes | None = None, max_bars: int = 40,
     """Horizontal bars of net power [kW], best case on top, one bar per feasible fluid + layout.
 
     Beside each bar: the net power, the ASHRAE 34 safety class and the GWP100. Shows at most
-    ``max_bars`` cases (the best ones) and says so in the title when it cuts.
+    ``max_bars`` cases (the best ones) and says so in the title when it cuts. A layout whose
+    extra component does nothing is shown once, as its simpler layout's bar with a note
+    (:func:`orcscreen.rank.fold_inactive`). The power axis starts just below the smallest bar
+    shown, not at zero (:func:`ranking_axis_start`; the axis label says so), so that close
+    candidates can be told apart.
     """
-    ok = rank.feasible(df)
+    ok = rank.fold_inactive(rank.feasible(df))
     if ok.empty:
         raise ValueError("ranking chart: no feasible case to plot")
     ok = ok.assign(_p=pd.to_numeric(ok["net_power_kW"])).sort_values("_p", ascending=False,
@@ -196,6 +200,7 @@ def ranking_chart(df: pd.DataFrame, ax: Axes | None = None, max_bars: int = 40,
     y = np.arange(len(ok))
     power = ok["_p"].to_numpy()
     top = float(np.nanmax(power))
+    start = ranking_axis_start(power)
     for i, (_, row) in enumerate(ok.iterrows()):
         style = _layout_style(row.get("layout"))
         ax.barh(i, row["_p"], height=0.7, color=style["color"], hatch=style["hatch"],
@@ -204,17 +209,40 @@ def ranking_chart(df: pd.DataFrame, ax: Axes | None = None, max_bars: int = 40,
         safety = safety_class_text(row.get("safety_class"))
         safety = f"class {UNKNOWN}" if safety == UNKNOWN else safety
         note = f"{row['_p']:.1f} kW   {safety}   GWP {gwp_text(row.get('gwp100'))}"
-        ax.text(max(row["_p"], 0) + 0.01 * top, i, note, va="center", ha="left",
+        ax.text(max(row["_p"], start) + 0.01 * (top - start), i, note, va="center", ha="left",
                 fontsize=NOTE_PT, gid=f"bar-note-{i}")
-    ax.set_yticks(y, [case_label(r) for _, r in ok.iterrows()], fontsize=TICK_PT)
+    labels = [case_label(r) + (f" ({r[rank.FOLDED]}: no gain)" if r.get(rank.FOLDED) else "")
+              for _, r in ok.iterrows()]
+    ax.set_yticks(y, labels, fontsize=TICK_PT)
     ax.set_ylim(len(ok) - 0.5, -0.5)        # best (index 0) on top
-    ax.set_xlim(min(0.0, float(np.nanmin(power)) * 1.05), top * 1.38)
+    ax.set_xlim(start, top + 0.55 * (top - start))   # room for the notes beside the bars
     # no legend: every bar's label names its layout; colour and hatch only repeat it
     if cut > 0 and title:
-        title = f"{title} (best {max_bars}; {cut} more in the table)"
-    _finish(ax, axis_label("net_power_kW"), "", title)
+        title = f"{title}\n(best {max_bars}; {cut} more in the table)"
+    label = axis_label("net_power_kW")
+    if start != 0.0:
+        name, _, unit = label.partition(" [")
+        label = f"{name}, axis from {start:g} kW, not zero [{unit}"
+    _finish(ax, label, "", title)
     ax.grid(False, axis="y")
     return ax
+
+
+def ranking_axis_start(power: Sequence[float]) -> float:
+    """Lower end [kW] of the ranking chart's power axis: a tenth of the spread of the bars (at
+    least 5 % of the largest bar) below the smallest one, rounded down to a step of
+    10**floor(log10(spread / 10)), so that the smallest bar keeps a visible length; zero when that would reach zero or a bar is not
+    positive (then the bars are drawn from zero as usual)."""
+    p = np.asarray(power, dtype=float)
+    p = p[np.isfinite(p)]
+    if p.size == 0 or p.min() <= 0.0:
+        return min(0.0, float(p.min()) * 1.05) if p.size else 0.0
+    lo, hi = float(p.min()), float(p.max())
+    spread = max(hi - lo, 0.05 * hi)
+    below = lo - 0.1 * spread
+    step = 10.0 ** math.floor(math.log10(spread / 10.0))   # a round number, at most spread / 10
+    start = math.floor(below / step) * step
+    return start if start > 0.0 else 0.0
 
 
 # --------------------------------------------------------------------------- T-Q diagram
@@ -227,6 +255,11 @@ _EXCHANGER_SIDES = {
 }
 
 
+#: An exchanger narrower than this share of the T-Q diagram's total duty is drawn enlarged in an
+#: inset as well (a recuperator often takes a few per cent of the heat: a sliver on the axis).
+TQ_NARROW_SHARE = 0.12
+
+
 def tq_diagram(detail: Mapping, row: Mapping | None = None, ax: Axes | None = None,
                title: str | None = None) -> Axes:
     """Temperature [°C] against heat duty [kW] for the condenser, recuperator and evaporator.
@@ -234,56 +267,84 @@ def tq_diagram(detail: Mapping, row: Mapping | None = None, ax: Axes | None = No
     The exchangers stand side by side on one duty axis (cold to hot: condenser | recuperator |
     evaporator), each as wide as its duty; within each, hot stream solid and cold stream dashed.
     The pinch of each exchanger is marked by a bar between the two streams, labelled with its
-    value in K (the ``pinch_K`` of the detail).
+    value in K (the ``pinch_K`` of the detail). An exchanger narrower than
+    :data:`TQ_NARROW_SHARE` of the total duty (a recuperator, usually) is also drawn enlarged in
+    an inset at the upper left, on its own duty axis, where its pinch is labelled.
     """
     exchangers = detail.get("exchangers") or {}
     present = [name for name in _EXCHANGER_SIDES if exchangers.get(name)]
     if not present:
         raise ValueError("T-Q diagram: the detail has no exchanger profiles")
     ax = _new_axes(ax, 3.9)
+    duties = {name: _duty(exchangers[name]) for name in present}
+    total = sum(duties.values())
+    narrow = [n for n in present if len(present) > 1 and duties[n] < TQ_NARROW_SHARE * total]
     offset = 0.0
     trans = blended_transform_factory(ax.transData, ax.transAxes)
     for name in present:
         hx = exchangers[name]
-        q = np.asarray(hx["Q_kW"], dtype=float) + offset
-        hot_stream, cold_stream = _EXCHANGER_SIDES[name]
-        ax.plot(q, hx["T_hot_C"], color=STREAM_COLOURS[hot_stream], linewidth=1.8,
-                linestyle="-", gid=f"{name}-hot")
-        ax.plot(q, hx["T_cold_C"], color=STREAM_COLOURS[cold_stream], linewidth=1.8,
-                linestyle="--", gid=f"{name}-cold")
-        duty = _num(hx.get("duty_kW"))
-        if not math.isfinite(duty):
-            duty = float(q[-1] - offset)
+        duty = duties[name]
+        _tq_exchanger(ax, name, hx, offset, label_pinch=name not in narrow)
         ax.axvline(offset, color="#BBBBBB", linewidth=0.8)
         ax.text(offset + duty / 2, 0.985, f"{name}\n{duty:,.0f} kW", transform=trans,
                 ha="center", va="top", fontsize=NOTE_PT)
-        pinch = _num(hx.get("pinch_K"))
-        if math.isfinite(pinch):
-            xq = offset + _num(hx.get("pinch_Q_kW"))
-            t_hot, t_cold = _num(hx.get("pinch_T_hot_C")), _num(hx.get("pinch_T_cold_C"))
-            ax.plot([xq, xq], [t_cold, t_hot], color="black", linewidth=1.2,
-                    marker="_", markersize=8, gid=f"pinch-{name}-bar")
-            right = (xq - offset) < 0.6 * duty
-            ax.annotate(f"pinch {pinch:.1f} K", xy=(xq, (t_hot + t_cold) / 2),
-                        xytext=(5 if right else -5, 0), textcoords="offset points",
-                        ha="left" if right else "right", va="center", fontsize=NOTE_PT,
-                        bbox={"boxstyle": "round,pad=0.15", "fc": "white", "ec": "none",
-                              "alpha": 0.85},
-                        gid=f"pinch-{name}")
         offset += duty
     ax.axvline(offset, color="#BBBBBB", linewidth=0.8)
     ax.set_xlim(0, offset)
     lo, hi = ax.get_ylim()
     ax.set_ylim(lo, hi + 0.22 * (hi - lo))      # head room for the exchanger names
+    for k, name in enumerate(narrow[:1]):       # one inset: the space above the condenser
+        inset = ax.inset_axes([0.08, 0.40, 0.30, 0.36])
+        inset.set_gid(f"inset-{name}")
+        _tq_exchanger(inset, name, exchangers[name], 0.0, label_pinch=True)
+        inset.set_xlim(-0.05 * duties[name], 1.05 * duties[name])   # the pinch bar off the frame
+        inset.set_title(f"{name} enlarged, {duties[name]:,.0f} kW", fontsize=NOTE_PT, loc="left")
+        inset.tick_params(labelsize=TICK_PT - 1)
+        inset.set_xlabel("heat duty [kW]", fontsize=NOTE_PT - 0.5)
+        inset.set_ylabel("[°C]", fontsize=NOTE_PT - 0.5)
+        inset.grid(True, color="#EEEEEE", linewidth=0.5)
+        inset.set_facecolor("white")
     handles = [Line2D([], [], color=STREAM_COLOURS[s], linewidth=1.8, label=s)
                for s in ("source", "working fluid", "sink")]
     handles += [Line2D([], [], color="#444444", linestyle="-", label="hot side"),
                 Line2D([], [], color="#444444", linestyle="--", label="cold side")]
-    ax.legend(handles=handles, fontsize=NOTE_PT, loc="upper left", bbox_to_anchor=(0, 0.86),
-              ncols=1, framealpha=0.9)
+    ax.legend(handles=handles, fontsize=NOTE_PT, ncols=1, framealpha=0.9,
+              **({"loc": "lower right"} if narrow else {"loc": "upper left", "bbox_to_anchor": (0, 0.86)}))
     if title is None and row is not None:
         title = f"T-Q diagram: {case_label(row)}"
     return _finish(ax, "heat duty, exchangers side by side [kW]", "temperature [°C]", title)
+
+
+def _duty(hx: Mapping) -> float:
+    """An exchanger's duty [kW]: the detail's, else the end of its profile."""
+    duty = _num(hx.get("duty_kW"))
+    return duty if math.isfinite(duty) else float(np.asarray(hx["Q_kW"], dtype=float)[-1])
+
+
+def _tq_exchanger(ax: Axes, name: str, hx: Mapping, offset: float, label_pinch: bool) -> None:
+    """One exchanger's two streams from ``offset`` [kW] on, and its pinch bar (with its value
+    when ``label_pinch``)."""
+    q = np.asarray(hx["Q_kW"], dtype=float) + offset
+    hot_stream, cold_stream = _EXCHANGER_SIDES[name]
+    ax.plot(q, hx["T_hot_C"], color=STREAM_COLOURS[hot_stream], linewidth=1.8,
+            linestyle="-", gid=f"{name}-hot")
+    ax.plot(q, hx["T_cold_C"], color=STREAM_COLOURS[cold_stream], linewidth=1.8,
+            linestyle="--", gid=f"{name}-cold")
+    pinch = _num(hx.get("pinch_K"))
+    if not math.isfinite(pinch):
+        return
+    xq = offset + _num(hx.get("pinch_Q_kW"))
+    t_hot, t_cold = _num(hx.get("pinch_T_hot_C")), _num(hx.get("pinch_T_cold_C"))
+    ax.plot([xq, xq], [t_cold, t_hot], color="black", linewidth=1.2,
+            marker="_", markersize=8, gid=f"pinch-{name}-bar")
+    if not label_pinch:
+        return
+    right = (xq - offset) < 0.6 * _duty(hx)
+    ax.annotate(f"pinch {pinch:.1f} K", xy=(xq, (t_hot + t_cold) / 2),
+                xytext=(5 if right else -5, 0), textcoords="offset points",
+                ha="left" if right else "right", va="center", fontsize=NOTE_PT,
+                bbox={"boxstyle": "round,pad=0.15", "fc": "white", "ec": "none", "alpha": 0.85},
+                gid=f"pinch-{name}")
 
 
 # --------------------------------------------------------------------------- T-s diagram
@@ -330,16 +391,23 @@ def ts_diagram(detail: Mapping, row: Mapping | None = None, ax: Axes | None = No
 
 # --------------------------------------------------------------------------- trade-off
 
+#: Most Pareto-optimal cases a trade-off chart names (more labels overlap at A4 width).
+TRADEOFF_LABELS = 8
+
+
 def tradeoff_chart(df: pd.DataFrame, x: str = "size_parameter_m", ax: Axes | None = None,
-                   title: str | None = None, label_front: bool = True, xlabel: str | None = None) -> Axes:
+                   title: str | None = None, label_front: bool = True, xlabel: str | None = None,
+                   max_labels: int = TRADEOFF_LABELS) -> Axes:
     """Net power [kW] against a size or cost measure ``x`` (turbine SP [m], total UA [kW/K],
     specific investment; xlabel names its axis where the column name cannot).
 
-    Every feasible case is a point (marker by layout); the Pareto-optimal cases of
-    :func:`orcscreen.rank.pareto_front` (most power for least size) are filled, joined by a step
-    line and named. The x axis turns logarithmic when the sizes span more than a factor of 30.
+    Every feasible case is a point (marker by layout; a layout whose extra component does
+    nothing is folded into its simpler layout, :func:`orcscreen.rank.fold_inactive`); the
+    Pareto-optimal cases of :func:`orcscreen.rank.pareto_front` (most power for least size) are
+    filled and joined by a step line, and at most ``max_labels`` of them are named, those with
+    the most net power first, a point next to one already named left unnamed. The x axis turns logarithmic when the sizes span more than a factor of 30.
     """
-    ok = rank.feasible(df)
+    ok = rank.fold_inactive(rank.feasible(df))
     ok = ok[np.isfinite(pd.to_numeric(ok[x], errors="coerce"))] if x in ok else ok.iloc[0:0]
     if ok.empty:
         raise ValueError(f"trade-off chart: no feasible case with a value of {x}")
@@ -359,10 +427,36 @@ def tradeoff_chart(df: pd.DataFrame, x: str = "size_parameter_m", ax: Axes | Non
     if values.min() > 0 and values.max() / values.min() > 30:
         ax.set_xscale("log")         # sizes spanning orders of magnitude (SP of siloxanes...)
         ax.xaxis.set_major_formatter(FuncFormatter(lambda v, _pos: f"{v:g}"))
-    if label_front:
-        _label_points(ax, pts, x)
+    if label_front and max_labels > 0:
+        _label_points(ax, pts.loc[pts.index.isin(_to_name(ax, pts, x, max_labels))], x)
     ax.legend(fontsize=NOTE_PT, loc="lower right")
     return _finish(ax, xlabel or axis_label(x), axis_label("net_power_kW"), title)
+
+
+def _to_name(ax: Axes, pts: pd.DataFrame, x: str, most: int) -> list:
+    """Index of the points to name: by net power, most first, skipping a point that sits within
+    a quarter of the x span and 5 % of the y span of one already named (about a label's size at
+    A4 width: its label would overlap), up to ``most``."""
+    log_x = ax.get_xscale() == "log"
+    xlo, xhi = ax.get_xlim()
+    ylo, yhi = ax.get_ylim()
+
+    def xpos(v: float) -> float:
+        return math.log10(v) if log_x else v
+
+    span_x, span_y = abs(xpos(xhi) - xpos(xlo)) or 1.0, abs(yhi - ylo) or 1.0
+    chosen: list = []
+    kept: list[tuple[float, float]] = []
+    order = pd.to_numeric(pts["net_power_kW"]).sort_values(ascending=False, kind="stable").index
+    for i in order:
+        px, py = xpos(float(pts.at[i, x])), float(pts.at[i, "net_power_kW"])
+        if any(abs(px - qx) < 0.25 * span_x and abs(py - qy) < 0.05 * span_y for qx, qy in kept):
+            continue
+        chosen.append(i)
+        kept.append((px, py))
+        if len(chosen) == most:
+            break
+    return chosen
 
 
 def _label_points(ax: Axes, pts: pd.DataFrame, x: str) -> None:
@@ -415,14 +509,15 @@ def turbine_map(df: pd.DataFrame, top: pd.DataFrame | None = None, ax: Axes | No
                 title: str | None = "Turbine map: efficiency against size parameter") -> Axes:
     """Turbine isentropic efficiency [-] against the whole turbine's size parameter SP [m].
 
-    Every feasible case is a point: its fill shows the volume ratio VR (logarithmic colour
-    scale, colour bar), its marker the layout, a small number beside it the stage count where
+    Every feasible case is a point (a layout whose extra component does nothing folded into its
+    simpler layout): its fill shows the volume ratio VR (logarithmic colour scale, colour bar),
+    its marker the layout, a small number beside it the stage count where
     the turbine model gives one. The cases of ``top`` (the ranking's best) are ringed in black
     and numbered by rank. SP on a logarithmic axis (sizes span orders of magnitude).
     """
     from matplotlib.colors import LogNorm
 
-    ok = rank.feasible(df)
+    ok = rank.fold_inactive(rank.feasible(df))
     sp = pd.to_numeric(ok.get("size_parameter_m"), errors="coerce")
     eta = pd.to_numeric(ok.get("turbine_efficiency"), errors="coerce")
     vr = pd.to_numeric(ok.get("volume_ratio"), errors="coerce")
@@ -502,7 +597,7 @@ def rank_change_chart(df: pd.DataFrame, n: int = 10, ax: Axes | None = None,
     """The best n cases by design net power (left) and by annual net energy (right), each case a
     line between its two ranks; the winner of each side in bold, and a line in colour where the
     winner changes."""
-    ok = rank.feasible(df)
+    ok = rank.fold_inactive(rank.feasible(df), "annual_energy_MWh")
     energy = pd.to_numeric(ok.get("annual_energy_MWh"), errors="coerce")
     ok = ok[np.isfinite(energy)]
     if ok.empty:
@@ -624,7 +719,7 @@ def sweep_chart(df: pd.DataFrame, variable: str, ax: Axes | None = None, top_n: 
     wins at one end. Other swept variables are held at their middle value (said in the title).
     """
     part, ref = _slice(df, [variable])
-    ok = rank.feasible(part)
+    ok = rank.fold_inactive(rank.feasible(part))
     if ok.empty:
         raise ValueError(f"sweep chart over {variable}: no feasible case")
     ax = _new_axes(ax, 4.0)
@@ -752,8 +847,9 @@ def file_stem(*parts) -> str:
 
 
 def save_figure(fig: Figure, directory: Path | str, stem: str,
-                formats: Sequence[str] = ("png", "svg"), dpi: int = 200) -> list[Path]:
-    """Write ``fig`` as ``directory/stem.<format>`` for each format; return the paths written.
+                formats: Sequence[str] = ("png",), dpi: int = 200) -> list[Path]:
+    """Write ``fig`` as ``directory/stem.<format>`` for each format (PNG by default; add "svg"
+    for a vector file); return the paths written.
 
     File metadata without dates, so the same data gives the same files.
     """

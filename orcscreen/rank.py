@@ -1,8 +1,15 @@
-"""Ranking helpers on the result table: operating points, best case per point, Pareto sets.
+"""Ranking helpers on the result table: operating points, best case per point, Pareto sets, and
+the folding of layouts whose extra component does nothing.
 
 Pure table operations on the rows of contract section 2 (no physics). An *operating point* is one
 combination of swept values; the sweep columns are the ones named with a dotted study path
 (e.g. ``"source.inlet_temperature_C"``).
+
+Folding (:func:`fold_inactive`): a recuperated layout whose recuperator takes no heat gives the
+basic layout's cycle again; the console table, the charts and the report show such a pair once,
+as the simpler layout's row with a note. ranking.csv keeps every case. Which layout is the
+simpler one of which, and what its extra exchangers are, is read from the layout registry
+(:data:`orcscreen.cycles.LAYOUTS`), never from layout names.
 """
 
 from __future__ import annotations
@@ -15,7 +22,22 @@ __all__ = [
     "feasible",
     "best_per_point",
     "pareto_front",
+    "FOLD_NOTE",
+    "FOLDED",
+    "FOLD_RTOL",
+    "simpler_layouts",
+    "fold_columns",
+    "fold_inactive",
 ]
+
+#: Columns that :func:`fold_inactive` adds: the note on a kept row, and the names of the layouts
+#: folded into it ("" where nothing was folded).
+FOLD_NOTE = "fold_note"
+FOLDED = "folded_layouts"
+#: Relative tolerance within which a folded row's net power and objective equal the simpler
+#: layout's. The optimiser settles the evaporation temperature to about 2e-3 K, which moves the
+#: net power by about 1e-5 relative (measured on the demo study); 1e-4 leaves room (common practice).
+FOLD_RTOL = 1e-4
 
 
 def sweep_columns(df: pd.DataFrame) -> list[str]:
@@ -44,16 +66,19 @@ def best_per_point(df: pd.DataFrame, objective: str = "net_power_kW") -> pd.Data
     Returns one row per operating point that has at least one feasible case, in the order of the
     sweep values (a single row when there is no sweep); points with no feasible case are absent.
     When the table has a ``rank`` column (ranking.csv, :func:`orcscreen.outputs.ranking_table`)
-    the row ranked 1 is taken, so ties are broken as the ranking breaks them; otherwise the first
-    row with the highest value.
+    the row ranked best is taken, so ties are broken as the ranking breaks them; otherwise the first
+    row with the highest value. Layouts whose extra component does nothing are folded first
+    (:func:`fold_inactive`): such a best case is named by its simpler layout.
     """
     ok = feasible(df)
     if ok.empty:
         return ok
+    ok = fold_inactive(ok, objective)
     picks = []
     for _, group in _point_groups(ok):
-        if "rank" in group and (pd.to_numeric(group["rank"], errors="coerce") == 1).any():
-            picks.append(group.index[(pd.to_numeric(group["rank"], errors="coerce") == 1)][0])
+        ranks = pd.to_numeric(group["rank"], errors="coerce") if "rank" in group else None
+        if ranks is not None and ranks.notna().any():
+            picks.append(ranks.idxmin())    # rank 1, or the simpler row it was folded into
             continue
         values = pd.to_numeric(group[objective], errors="coerce")
         picks.append(values.idxmax())
@@ -83,3 +108,111 @@ def pareto_front(
         strictly_better = (g > g[k]) | (c < c[k])
         on_front[i] = not np.any(at_least_as_good & strictly_better)
     return pd.Series(on_front, index=df.index, name="pareto")
+
+
+# --------------------------------------------------------------------------- folding
+
+def simpler_layouts() -> dict[str, tuple[str, tuple[str, ...]]]:
+    """Layout name -> (its simpler layout's name, the exchangers it adds), from the registry.
+
+    Layout B is the simpler layout of A when A is an instance of B's class, has the same kind of
+    heater (``supercritical``), and B's exchangers and states are a strict subset of A's: the
+    recuperated layouts add a recuperator to basic and to transcritical. Where several qualify,
+    the one with most exchangers (the closest) is taken.
+    """
+    from orcscreen.cycles import LAYOUTS
+
+    out: dict[str, tuple[str, tuple[str, ...]]] = {}
+    for name, layout in LAYOUTS.items():
+        found = [(len(other.exchangers), other_name, other) for other_name, other in LAYOUTS.items()
+                 if other is not layout and isinstance(layout, type(other))
+                 and other.supercritical == layout.supercritical
+                 and set(other.exchangers) < set(layout.exchangers)
+                 and set(other.state_labels) <= set(layout.state_labels)]
+        if found:
+            _, other_name, other = max(found, key=lambda f: f[0])
+            out[name] = (other_name, tuple(e for e in layout.exchangers if e not in other.exchangers))
+    return out
+
+
+def fold_columns() -> tuple[str, ...]:
+    """The row columns :func:`fold_inactive` reads besides the ranking's (the duty columns of
+    the exchangers that layouts add), for readers that load only some columns."""
+    return tuple(dict.fromkeys(_duty_column(e) for _, extra in simpler_layouts().values() for e in extra))
+
+
+def _duty_column(exchanger: str) -> str:
+    """The row column of an exchanger's duty [kW] (``recuperator_duty_kW``)."""
+    return f"{exchanger.replace(' ', '_')}_duty_kW"
+
+
+def _inactive(rows: pd.DataFrame, exchangers: tuple[str, ...]) -> pd.Series:
+    """True where every one of ``exchangers`` has a duty column and takes no heat."""
+    mask = pd.Series(bool(exchangers), index=rows.index)
+    for e in exchangers:
+        col = _duty_column(e)
+        if col not in rows:
+            return pd.Series(False, index=rows.index)
+        duty = pd.to_numeric(rows[col], errors="coerce").astype(float)
+        mask &= np.isfinite(duty) & (duty <= 0.0)
+    return mask
+
+
+def _close(a: pd.Series, b: pd.Series, rtol: float) -> np.ndarray:
+    x = pd.to_numeric(a, errors="coerce").to_numpy(dtype=float)
+    y = pd.to_numeric(b, errors="coerce").to_numpy(dtype=float)
+    return np.isfinite(x) & np.isfinite(y) & np.isclose(x, y, rtol=rtol, atol=0.0)
+
+
+def fold_inactive(df: pd.DataFrame, objective: str = "net_power_kW",
+                  rtol: float = FOLD_RTOL) -> pd.DataFrame:
+    """``df`` without the rows whose layout's extra component does nothing, marked on the rows
+    kept in their place.
+
+    A row is folded when (1) its layout has a simpler layout in the registry
+    (:func:`simpler_layouts`), (2) every exchanger it adds has a duty column that is zero or
+    less (the recuperator took no heat), (3) the same fluid in the simpler layout at the same
+    operating point is ok too, and (4) the two give the same net power and ``objective`` within
+    ``rtol``. The simpler row is kept, and column :data:`FOLD_NOTE` says what was folded into it,
+    e.g. "recuperated (rank 2) gives the same result: the recuperator gives no gain here", and
+    :data:`FOLDED` names the layouts folded ("recuperated"); both "" elsewhere. Order and every other row are unchanged (a table whose index is not unique
+    comes back renumbered); a table without the columns needed is returned with an empty note
+    column.
+    """
+    if not df.index.is_unique:
+        df = df.reset_index(drop=True)
+    out = df.copy()
+    out[FOLD_NOTE] = ""
+    out[FOLDED] = ""
+    if df.empty or not {"fluid", "layout", "net_power_kW"} <= set(df.columns):
+        return out
+    ok = df[df["status"] == "ok"] if "status" in df else df
+    keys = [*sweep_columns(df), "fluid"]
+    compared = [c for c in dict.fromkeys(["net_power_kW", objective]) if c in df]
+    drop: list = []
+    notes: dict = {}
+    folded: dict = {}
+    for layout, (simpler, extra) in simpler_layouts().items():
+        rows = ok[ok["layout"] == layout]
+        rows = rows[_inactive(rows, extra)]
+        base = ok[ok["layout"] == simpler]
+        if rows.empty or base.empty:
+            continue
+        pairs = (rows[keys + compared + [c for c in ("rank",) if c in rows]].reset_index(names="_i")
+                 .merge(base[keys + compared].reset_index(names="_j").drop_duplicates(keys),
+                        on=keys, suffixes=("", "_base")))
+        same = np.ones(len(pairs), dtype=bool)
+        for c in compared:
+            same &= _close(pairs[c], pairs[f"{c}_base"], rtol)
+        words = " and ".join(extra)
+        for _, p in pairs[same].iterrows():
+            drop.append(p["_i"])
+            rank = p.get("rank")
+            where = f" (rank {int(rank)})" if rank is not None and pd.notna(rank) else ""
+            note = f"{layout}{where} gives the same result: the {words} gives no gain here"
+            notes[p["_j"]] = f"{notes[p['_j']]}; {note}" if p["_j"] in notes else note
+            folded[p["_j"]] = f"{folded[p['_j']]}, {layout}" if p["_j"] in folded else layout
+    for j, note in notes.items():
+        out.at[j, FOLD_NOTE] = note
+        out.at[j, FOLDED] = folded[j]
+    return out.drop(index=drop)

@@ -2,10 +2,16 @@
 
 :func:`build_report` reads the run store (``DIR/run.sqlite``) and recomputes nothing: it ranks the
 stored rows (:func:`orcscreen.outputs.ranking_table`), draws every chart of :mod:`orcscreen.plots`
-(PNG and SVG into ``DIR/figures/``) and writes one self-contained HTML file: figures embedded as
-base64 PNG, inline CSS, a few lines of inline JavaScript that sort the tables, no network access
-(a Content-Security-Policy in the page forbids any). Each chart is drawn in its own ``try``: a
-chart that fails is named in the report with its error, and the rest of the report is written.
+(PNG into ``DIR/figures/``; SVG as well on request, ``svg=True``) and writes one self-contained
+HTML file: figures embedded as base64 PNG, inline CSS, a few lines of inline JavaScript that sort
+the tables, no network access (a Content-Security-Policy in the page forbids any). Each chart is
+drawn in its own ``try``: a chart that fails is named in the report with its error, and the rest
+of the report is written.
+
+The page answers first: the study in one line, the recommended candidates and the ranking table
+fill the first screen; charts, detail cards, then inputs, metadata and method follow. A layout
+whose extra component does nothing (a recuperator that takes no heat) is shown once, folded into
+its simpler layout's row (:func:`orcscreen.rank.fold_inactive`); ranking.csv keeps every case.
 
 Orchestration only: no physics here, every number comes from the stored rows and details.
 """
@@ -13,6 +19,7 @@ Orchestration only: no physics here, every number comes from the stored rows and
 from __future__ import annotations
 
 import base64
+import functools
 import contextlib
 import html
 import logging
@@ -108,8 +115,8 @@ REPORT_COLUMNS = (
     "family", "safety_class", "gwp100", "odp", "curve_type",
     "sink_temperature_rise_K", "area_evaporator_m2", "area_condenser_m2", "area_recuperator_m2",
     "condenser_area_basis", "investment_total", "specific_investment_per_kW", "annual_energy_MWh", "lcoe_per_MWh",
-    "net_present_value", "capacity_factor", "hours_not_running",
-) + LAYOUT_COLUMNS
+    "net_present_value", "capacity_factor", "hours_not_running", "caution",
+) + LAYOUT_COLUMNS + rank.fold_columns()
 
 
 def _load(out_dir: Path, top_n: int,
@@ -122,7 +129,7 @@ def _load(out_dir: Path, top_n: int,
         meta, counts = store.meta(), store.counts()
         table = ranking_table(store.rows(columns=columns), meta, all_columns=columns is None)
         sweep_cols = rank.sweep_columns(table)
-        ok = rank.feasible(table)
+        ok = rank.fold_inactive(rank.feasible(table), objective_of(meta).column)
         point: dict = {}
         at_point = ok
         if sweep_cols and not ok.empty:
@@ -145,14 +152,19 @@ def _at_point(df: pd.DataFrame, point: Mapping) -> pd.DataFrame:
 
 # --------------------------------------------------------------------------- figures
 
+#: Chart files the report writes: PNG (embedded in the page) by default, SVG too on request.
+FORMATS = ("png",)
+FORMATS_WITH_SVG = ("png", "svg")
+
+
 def _draw(records: list[FigureRecord], fig_dir: Path, stem: str, title: str, caption: str,
-          draw: Callable[[], Any], group: str = "overview") -> None:
-    """Run one chart function in its own try; keep its files or its error."""
+          draw: Callable[[], Any], group: str = "overview", formats: Sequence[str] = FORMATS) -> None:
+    """Run one chart function in its own try; keep its files (``formats``) or its error."""
     record = FigureRecord(stem=stem, title=title, caption=caption, group=group)
     try:
         ax = draw()
-        png, svg = plots.save_figure(ax.figure, fig_dir, stem)
-        record.png, record.svg = png, svg
+        paths = dict(zip(formats, plots.save_figure(ax.figure, fig_dir, stem, formats=formats)))
+        record.png, record.svg = paths.get("png"), paths.get("svg")
     except Exception as exc:  # noqa: BLE001 - a failing chart must never lose the report
         record.error = f"{type(exc).__name__}: {exc}"
         log.warning("chart %s not drawn: %s", stem, record.error)
@@ -171,10 +183,13 @@ def _point_note(point: Mapping) -> str:
     return "operating point of the best case: " + ", ".join(parts)
 
 
-def make_figures(data: _RunData, fig_dir: Path) -> list[FigureRecord]:
-    """Draw every chart of the run into ``fig_dir``; one record per chart, failures included.
+def make_figures(data: _RunData, fig_dir: Path, svg: bool = False) -> list[FigureRecord]:
+    """Draw every chart of the run into ``fig_dir`` (PNG; SVG too when ``svg``); one record per
+    chart, failures included.
 
     Without any feasible case there is nothing to draw (no chart, no error)."""
+    formats = FORMATS_WITH_SVG if svg else FORMATS
+    draw = functools.partial(_draw, formats=formats)
     refuse_link(fig_dir)
     fig_dir.mkdir(parents=True, exist_ok=True)
     for entry in fig_dir.iterdir():  # the folder is the report's: a link there is dropped,
@@ -189,30 +204,36 @@ def make_figures(data: _RunData, fig_dir: Path) -> list[FigureRecord]:
     at_point = _at_point(ok, data.point) if data.point else ok
     note = _point_note(data.point)
 
-    _draw(records, fig_dir, "ranking", "Net power of every case",
+    draw(records, fig_dir, "ranking", "Net power of every case",
           "Net power of every feasible fluid and layout, best first; beside each bar the net "
-          "power, the ASHRAE 34 safety class and the GWP100." + (f" At the {note}." if note else ""),
+          "power, the ASHRAE 34 safety class and the GWP100. The power axis starts just below the "
+          "smallest bar shown, not at zero, so that close candidates can be told apart. A layout "
+          "whose extra component does nothing (a recuperator that takes no heat) is one bar, its "
+          "simpler layout's, marked \"no gain\"." + (f" At the {note}." if note else ""),
           lambda: plots.ranking_chart(at_point))
-    _draw(records, fig_dir, "tradeoff_size_parameter", "Net power against turbine size",
+    draw(records, fig_dir, "tradeoff_size_parameter", "Net power against turbine size",
           "Each point is a feasible case; filled diamonds are Pareto-optimal (no other case has "
-          "more net power with a smaller size parameter)." + (f" At the {note}." if note else ""),
+          "more net power with a smaller size parameter); at most "
+          f"{plots.TRADEOFF_LABELS} of them are named, most net power first (crowded neighbours unnamed)." + (f" At the {note}." if note else ""),
           lambda: plots.tradeoff_chart(at_point, x="size_parameter_m",
                                        title="Net power against turbine size parameter"))
-    _draw(records, fig_dir, "tradeoff_ua", "Net power against total UA",
+    draw(records, fig_dir, "tradeoff_ua", "Net power against total UA",
           "Filled diamonds: Pareto-optimal for net power against total UA of the exchangers, "
-          "a first measure of exchanger size." + (f" At the {note}." if note else ""),
+          f"a first measure of exchanger size; at most {plots.TRADEOFF_LABELS} of them are named, "
+          "most net power first (crowded neighbours unnamed)." + (f" At the {note}." if note else ""),
           lambda: plots.tradeoff_chart(at_point, x="ua_total_kW_K",
                                        title="Net power against total UA"))
     money = _money(data.meta)
     if "specific_investment_per_kW" in at_point and np.isfinite(
             pd.to_numeric(at_point["specific_investment_per_kW"], errors="coerce")).any():
-        _draw(records, fig_dir, "tradeoff_investment", "Net power against specific investment",
+        draw(records, fig_dir, "tradeoff_investment", "Net power against specific investment",
               "Filled diamonds: Pareto-optimal for net power against investment per net kW "
-              f"({money}; a screening estimate, about ±30 % at best)." + (f" At the {note}." if note else ""),
+              f"({money}; a screening estimate, about ±30 % at best); at most {plots.TRADEOFF_LABELS} "
+              "of them are named, most net power first (crowded neighbours unnamed)." + (f" At the {note}." if note else ""),
               lambda: plots.tradeoff_chart(at_point, x="specific_investment_per_kW",
                                            title="Net power against specific investment",
                                            xlabel=f"specific investment [{money} per net kW]"))
-    _draw(records, fig_dir, "turbine_map", "Turbine map",
+    draw(records, fig_dir, "turbine_map", "Turbine map",
           "Turbine isentropic efficiency against size parameter for every feasible case; the fill "
           "shows the volume ratio, the small number the stage count, the rings the best cases by rank. "
           "Small machines and large volume ratios cost efficiency." + (f" At the {note}." if note else ""),
@@ -220,28 +241,28 @@ def make_figures(data: _RunData, fig_dir: Path) -> list[FigureRecord]:
     cases = [(r, data.details.get(r["case_key"])) for _, r in data.top.iterrows()]
     if any((d or {}).get("year") for _, d in cases):
         year_control = ((data.meta.get("study") or {}).get("year") or {}).get("control") or "sliding-pressure"
-        _draw(records, fig_dir, "year_power", "Net power over the year",
+        draw(records, fig_dir, "year_power", "Net power over the year",
               "Each top case's fixed design rated at the sink temperatures of the year's bins (the turbine's "
               "swallowing capacity sets the evaporation pressure; exchanger areas fixed, their coefficients scaled "
               f"with the flows; control \"{year_control}\": {CONTROLS[year_control].description}). "
               "A bin at zero does not run.",
               lambda: plots.year_chart(cases))
-        _draw(records, fig_dir, "rank_change", "Design-point ranking against the year",
+        draw(records, fig_dir, "rank_change", "Design-point ranking against the year",
               "Where the best case at the design point is not the best over the year, the two are drawn in colour.",
               lambda: plots.rank_change_chart(at_point))
-    _draw(records, fig_dir, "landscape", "Optimisation landscape",
+    draw(records, fig_dir, "landscape", "Optimisation landscape",
           "The optimiser's scan of evaporation temperature for the best fluids; the star is the "
           "optimum, the legend names the limit that binds there.",
           lambda: plots.landscape_chart(cases))
 
     varied = [c for c in data.sweep_cols if data.table[c].nunique(dropna=True) > 1]
     for c in varied:
-        _draw(records, fig_dir, plots.file_stem("sweep", c), f"Net power over {c}",
+        draw(records, fig_dir, plots.file_stem("sweep", c), f"Net power over {c}",
               "Black dashed with diamonds: best case at each point (named where it changes); coloured: the "
               "fluid and layout combinations with the highest net power.",
               lambda c=c: plots.sweep_chart(data.table, c), group="sweep")
     for x, y in combinations(varied, 2):
-        _draw(records, fig_dir, plots.file_stem("map", x, y), f"Best fluid over {x} and {y}",
+        draw(records, fig_dir, plots.file_stem("map", x, y), f"Best fluid over {x} and {y}",
               "Best fluid and layout at each operating point, with its net power.",
               lambda x=x, y=y: plots.best_fluid_map(data.table, x, y), group="sweep")
 
@@ -256,11 +277,12 @@ def make_figures(data: _RunData, fig_dir: Path) -> list[FigureRecord]:
                 raise ValueError(f"no stored detail for case {key}")
             return detail
 
-        _draw(records, fig_dir, f"tq_{stem}", f"T-Q diagram, {label}",
+        draw(records, fig_dir, f"tq_{stem}", f"T-Q diagram, {label}",
               "Temperature against heat duty of each exchanger (hot side solid, cold side "
-              "dashed); the bar marks each exchanger's pinch with its value.",
+              "dashed); the bar marks each exchanger's pinch with its value. A narrow exchanger "
+              "(a recuperator, usually) is drawn enlarged in an inset as well.",
               lambda row=row, nd=need_detail: plots.tq_diagram(nd(), row), group=key)
-        _draw(records, fig_dir, f"ts_{stem}", f"T-s diagram, {label}",
+        draw(records, fig_dir, f"ts_{stem}", f"T-s diagram, {label}",
               "Saturation dome, cycle path and numbered states.",
               lambda row=row, nd=need_detail: plots.ts_diagram(nd(), row), group=key)
     return records
@@ -420,46 +442,50 @@ def _e(value) -> str:
 #: Catalogue columns shown in words where a value is missing ("unknown", "not classified").
 _CATALOGUE_SHOWN = {"safety_class": safety_class_text, "gwp100": gwp_text}
 
-#: Ranking-table columns: (column, header, format). Sweep columns come first.
+#: Ranking-table columns: (column, header, format, what the header means). Sweep columns come
+#: first, the study's objective after the layout when it is not the net power. Format "%" shows a
+#: fraction in per cent; "" is text.
 _RANK_COLUMNS = [
-    ("rank", "rank", "d"),
-    ("display_name", "fluid", ""),
-    ("layout", "layout", ""),
-    ("warnings", "warnings", ""),
-    ("net_power_kW", "net power [kW]", ".1f"),
-    ("thermal_efficiency", "thermal efficiency [-]", ".4f"),
-    ("exergy_efficiency", "exergy efficiency [-]", ".4f"),
-    ("evaporation_temperature_C", "evaporation T [°C]", ".1f"),
-    ("turbine_inlet_pressure_bar", "turbine inlet p [bar]", ".2f"),
-    ("condensing_temperature_C", "condensing T [°C]", ".1f"),
-    ("superheat_K", "superheat [K]", ".1f"),
-    ("wf_mass_flow_kg_s", "fluid flow [kg/s]", ".2f"),
-    ("source_outlet_temperature_C", "source outlet T [°C]", ".1f"),
-    ("size_parameter_m", "size parameter [m]", ".4f"),
-    ("volume_ratio", "volume ratio [-]", ".1f"),
-    ("turbine_stages", "turbine stages", ".0f"),
-    ("turbine_efficiency", "turbine efficiency [-]", ".3f"),
-    ("ua_total_kW_K", "total UA [kW/K]", ".1f"),
-    ("binding_limit", "binding limit", ""),
-    ("safety_class", "safety class", ""),
-    ("gwp100", "GWP100 [-]", "g"),
+    ("rank", "rank", "d", "rank within the operating point, as in ranking.csv"),
+    ("display_name", "fluid", "", "working fluid"),
+    ("layout", "layout", "", "cycle layout (a layout without gain is folded into it, see the note)"),
+    ("net_power_kW", "net power [kW]", ".1f", "net electrical power"),
+    ("thermal_efficiency", "thermal eff. [%]", "%", "thermal efficiency: net power / heat input"),
+    ("turbine_inlet_pressure_bar", "high p [bar]", ".2f",
+     "highest cycle pressure: evaporation pressure, or the supercritical heater's"),
+    ("condensing_pressure_bar", "cond. p [bar]", ".3f", "condensing pressure"),
+    ("size_parameter_m", "SP [m]", ".3f", "turbine size parameter (Macchi and Perdichizzi 1981)"),
+    ("volume_ratio", "VR [-]", ".1f", "turbine volume ratio"),
+    ("turbine_stages", "stages", ".0f", "turbine stages, where the turbine model gives them"),
+    ("turbine_efficiency", "turbine eff. [-]", ".3f", "turbine isentropic efficiency"),
+    ("safety_class", "safety class", "", "ANSI/ASHRAE 34 safety class"),
+    ("gwp100", "GWP100", "g", "global-warming potential over 100 years"),
+    ("caution", "caution", "", "in plain words; the cards and the Cautions section say more"),
+    ("pinch_location", "evaporator pinch", "", "where the evaporator pinch sits"),
+    ("warnings", "warnings", "", "soft limits passed; the result stands"),
 ]
+#: Ranking-table columns whose text wraps.
+_WRAP_COLUMNS = ("layout", "caution", "pinch_location", "warnings")
 
 
-def _table(headers: Sequence[tuple[str, bool]], rows: Iterable[Sequence[tuple[str, Any]]],
+def _table(headers: Sequence[tuple], rows: Iterable[Sequence[tuple]],
            table_id: str, caption: str = "", wrap: Sequence[int] = ()) -> str:
-    """A sortable table. ``headers``: (text, numeric); each row cell: (shown text, sort key);
-    ``wrap``: indices of columns of long text that may wrap."""
+    """A sortable table. ``headers``: (text, numeric[, what it means]); each row cell: (shown
+    text, sort key[, tooltip]); ``wrap``: indices of columns of long text that may wrap."""
     head = "".join(
-        f'<th scope="col" data-type="{"num" if numeric else "text"}" tabindex="0" '
-        f'title="click to sort">{_e(text)}</th>' for text, numeric in headers)
+        f'<th scope="col" data-type="{"num" if h[1] else "text"}" tabindex="0" '
+        f'title="{_e((h[2] + "; ") if len(h) > 2 and h[2] else "")}click to sort">{_e(h[0])}</th>'
+        for h in headers)
     body = []
     for cells in rows:
         tds = []
-        for i, (shown, key) in enumerate(cells):
+        for i, cell in enumerate(cells):
+            shown, key = cell[0], cell[1]
             attr = "" if _missing(key) or key == "" else f' data-sort="{_e(key)}"'
             if i in wrap:
                 attr += ' class="wrap"'
+            if len(cell) > 2 and cell[2]:
+                attr += f' title="{_e(cell[2])}"'
             tds.append(f"<td{attr}>{_e(shown)}</td>")
         body.append("<tr>" + "".join(tds) + "</tr>")
     cap = f"<caption>{_e(caption)}</caption>" if caption else ""
@@ -524,14 +550,37 @@ def _summary(data: _RunData) -> str:
     for c in data.sweep_cols:
         values = sorted(pd.unique(table[c].dropna()))
         pairs.append((f"swept: {plots.axis_label(c)}", ", ".join(_fmt(v, "g") for v in values)))
-    parts = ['<section id="summary"><h2>Study summary</h2>', _kv_table(pairs)]
+    parts = ['<section id="summary"><h2>Study: metadata, inputs and method</h2>', _kv_table(pairs)]
     status_counts = "".join(f'<li><span class="badge {s}">{_e(s)}</span> {n}</li>'
                             for s, n in counts.items())
     parts.append(f'<ul class="counts" id="counts">{status_counts}</ul>')
     parts.append(_left_out_paragraph(meta))
     parts.append(_inputs(meta))
+    parts.append(_method(meta))
     parts.append("</section>")
     return "".join(parts)
+
+
+def _method(meta: Mapping) -> str:
+    """How the results were obtained, in a few lines (the README's method section has it all)."""
+    study = meta.get("study") or {}
+    machines = study.get("machines") or {}
+    exchangers = study.get("exchangers") or {}
+    objective = objective_of(dict(meta))
+    items = [
+        f"Each case (fluid, layout, operating point) is optimised for {objective.label} over the "
+        "layout's free variables, within the study's pinch, pressure, temperature and turbine limits; "
+        "a case without a feasible cycle keeps its reason.",
+        f"Pinches: evaporator {_fmt(exchangers.get('pinch_evaporator_K'), 'g')} K, condenser "
+        f"{_fmt(exchangers.get('pinch_condenser_K'), 'g')} K; turbine efficiency model "
+        f"{machines.get('turbine_model', '?')}; fluid properties from CoolProp "
+        f"{meta.get('coolprop_version', '')}.",
+        f"Ranking by {objective.label} within each operating point, ties by fluid, then layout. A layout "
+        "whose extra component does nothing (a recuperator that takes no heat) gives its simpler "
+        "layout's result: tables and charts show it once, with a note; ranking.csv keeps both rows.",
+        "The model, its assumptions and its sources: README, \"What a case computes\".",
+    ]
+    return '<h3 id="method">Method</h3><ul>' + "".join(f"<li>{_e(t)}</li>" for t in items) + "</ul>"
 
 
 def _left_out_paragraph(meta: Mapping) -> str:
@@ -624,39 +673,152 @@ def _inputs(meta: Mapping) -> str:
             f'<div class="input-grid">{"".join(blocks)}</div><p class="note">{note}</p></details>')
 
 
+def _rank_columns(meta: Mapping) -> list[tuple[str, str, str, str]]:
+    """The ranking table's columns for this study: :data:`_RANK_COLUMNS`, with the study's
+    objective after the layout when it is not the net power."""
+    columns = list(_RANK_COLUMNS)
+    objective = objective_of(dict(meta))
+    if objective.column != "net_power_kW":
+        unit = plots.axis_label(objective.column).partition(" [")[2].rstrip("]")
+        money = _money(meta) if objective.needs_costs else ""
+        header = f"{objective.label} [{money or unit}]" if (money or unit) not in ("", "-") else objective.label
+        columns.insert(3, (objective.column, header, ".4g", "the study's objective: the ranking's order"))
+    return columns
+
+
+def _cell(row: Mapping, col: str, fmt: str) -> tuple:
+    """One ranking-table cell: (shown text, sort key[, tooltip])."""
+    value = row.get(col)
+    if col == "display_name":
+        value = value or row.get("fluid")
+    if col == "layout" and row.get(rank.FOLDED):
+        return (f"{value} ({row[rank.FOLDED]}: no gain)", value, row.get(rank.FOLD_NOTE))
+    if col == "caution":
+        text = short_caution(row)
+        return (text, text)
+    if col in _CATALOGUE_SHOWN:
+        return (_CATALOGUE_SHOWN[col](value), _sort_key(value))
+    if fmt == "":
+        return (_fmt(value), _fmt(value))
+    if fmt == "%":
+        return (_fmt(_num(value) * 100.0, ".2f"), _sort_key(value))
+    return (_fmt(value, fmt if fmt != "d" else ".0f"), _sort_key(value))
+
+
 def _ranking_section(data: _RunData, overview: list[FigureRecord]) -> str:
-    ok = rank.feasible(data.table)
+    ok = rank.fold_inactive(rank.feasible(data.table), objective_of(data.meta).column)
     ok = ok.sort_values([*data.sweep_cols, "rank"], kind="stable") if data.sweep_cols else \
         ok.sort_values("rank", kind="stable")
     shown = ok.head(MAX_TABLE_ROWS)
-    headers = [(plots.axis_label(c), True) for c in data.sweep_cols]
-    headers += [(h, fmt not in ("",)) for _, h, fmt in _RANK_COLUMNS]
+    columns = _rank_columns(data.meta)
+    headers = [(plots.axis_label(c), True, "swept study value") for c in data.sweep_cols]
+    headers += [(h, fmt != "", what) for _, h, fmt, what in columns]
     rows = []
     for _, r in shown.iterrows():
-        cells = [(_fmt(r[c], "g"), _sort_key(r[c]))
-                 for c in data.sweep_cols]
-        for col, _, fmt in _RANK_COLUMNS:
-            value = r.get(col)
-            if col == "display_name":
-                value = value or r.get("fluid")
-            if col in _CATALOGUE_SHOWN:
-                cells.append((_CATALOGUE_SHOWN[col](value), _sort_key(value)))
-            elif fmt == "":
-                cells.append((_fmt(value), _fmt(value)))
-            else:
-                cells.append((_fmt(value, fmt if fmt != "d" else ".0f"), _sort_key(value)))
+        cells = [(_fmt(r[c], "g"), _sort_key(r[c])) for c in data.sweep_cols]
+        cells += [_cell(r, col, fmt) for col, _, fmt, _ in columns]
         rows.append(cells)
     cut = len(ok) - len(shown)
+    folded = int((ok[rank.FOLDED] != "").sum()) if rank.FOLDED in ok else 0
     caption = (f"Feasible cases, ranked by {objective_of(data.meta).label} within each operating point. Click a "
-               "header to sort.") + (f" The first {len(shown)} of {len(ok)} rows; all are in "
-                                     "ranking.csv." if cut > 0 else "")
+               "header to sort." +
+               (f" {folded} row{'s' if folded != 1 else ''} stand{'' if folded != 1 else 's'} for a layout "
+                "whose extra component does nothing (marked \"no gain\": the same result as the simpler "
+                "layout); ranking.csv has both rows." if folded else "") +
+               (f" The first {len(shown)} of {len(ok)} rows; all are in ranking.csv." if cut > 0 else ""))
     figs = "".join(_figure_html(r) for r in overview)
     empty = "<p>No case is feasible.</p>" if ok.empty else ""
+    names = [c for c, _, _, _ in columns]
+    wrap = tuple(len(data.sweep_cols) + names.index(c) for c in _WRAP_COLUMNS if c in names)
     return ('<section id="ranking"><h2>Ranking</h2>' + empty +
-            (_table(headers, rows, "ranking-table", caption,
-                    wrap=(len(data.sweep_cols) + [c for c, _, _ in _RANK_COLUMNS].index("warnings"),))
-             if not ok.empty else "") +
-            f'<div class="charts">{figs}</div></section>')
+            (_table(headers, rows, "ranking-table", caption, wrap=wrap) if not ok.empty else "") +
+            "</section>" + (f'<section id="charts"><h2>Charts</h2><div class="charts">{figs}</div></section>'
+                            if figs else ""))
+
+
+#: Flammability and toxicity of the ASHRAE 34 class in the fewest words, for the table.
+_FLAMMABILITY_SHORT = {"1": "", "2L": "mildly flammable", "2": "flammable", "3": "highly flammable"}
+#: GWP100 above which the table says "high GWP": the limit of the EU F-gas Regulation (EU)
+#: No 517/2014, Annex III, for several kinds of new equipment (from memory).
+HIGH_GWP = 150.0
+
+
+def short_caution(row: Mapping) -> str:
+    """A case's caution in a few plain words, for the ranking table: the row's ``caution``
+    column when the catalogue gives one, else from the ASHRAE 34 class (ANSI/ASHRAE 34), the
+    GWP100, the ODP and a vacuum condenser. "" when none applies."""
+    given = row.get("caution")
+    if isinstance(given, str) and given.strip():
+        return given.strip()
+    words = []
+    cls = str(row.get("safety_class") or "").strip().upper()
+    if cls and cls[0] in _TOXICITY and cls[1:] in _FLAMMABILITY:
+        if _FLAMMABILITY_SHORT[cls[1:]]:
+            words.append(_FLAMMABILITY_SHORT[cls[1:]])
+        if cls[0] == "B":
+            words.append("toxic")
+    else:
+        words.append("safety class unknown: treat as flammable and toxic")
+    gwp = _num(row.get("gwp100"))
+    if math.isfinite(gwp) and gwp > HIGH_GWP:
+        words.append("high GWP")
+    if math.isfinite(_num(row.get("odp"))) and _num(row.get("odp")) > 0:
+        words.append("ozone-depleting")
+    if _truthy(row.get("sub_atmospheric_condenser")):
+        words.append("vacuum condenser")
+    return ", ".join(words)
+
+
+def _study_line(data: _RunData) -> str:
+    """The study in one line: source, sink, fluids and layouts, cases, objective, sweeps."""
+    study = data.meta.get("study") or {}
+    source, sink = study.get("source") or {}, study.get("sink") or {}
+    table = data.table
+    parts = []
+    if source:
+        parts.append(f"{source.get('kind', '?')} source {_fmt(source.get('inlet_temperature_C'), 'g')} °C, "
+                     f"{_fmt(source.get('mass_flow_kg_s'), 'g')} kg/s")
+    if sink:
+        parts.append(f"{sink.get('kind', '?')} sink {_fmt(sink.get('inlet_temperature_C'), 'g')} °C")
+    n_fluids = table["fluid"].nunique() if "fluid" in table else 0
+    layouts = ", ".join(map(str, pd.unique(table["layout"]))) if "layout" in table else ""
+    parts.append(f"{n_fluids} fluids × {layouts}")
+    counts = {s: int(data.counts.get(s, 0)) for s in ("ok", "infeasible", "failed")}
+    parts.append(f"{len(table)} cases (" + ", ".join(f"{n} {s}" for s, n in counts.items() if n) + ")")
+    for c in data.sweep_cols:
+        values = table[c].nunique(dropna=True)
+        if values > 1:
+            parts.append(f"swept: {plots.axis_label(c).split(' [')[0]} ({values} values)")
+    parts.append(f"ranked by {objective_of(data.meta).label}")
+    return " · ".join(parts)
+
+
+#: Candidates named at the top of the page.
+CANDIDATES = 3
+
+
+def _candidates(data: _RunData) -> str:
+    """The best fluids (each in its best layout, at the best case's operating point) in one line
+    each: the answer before the detail."""
+    if data.top.empty:
+        return '<p id="candidates">No feasible case: see the infeasible and failed cases below.</p>'
+    objective = objective_of(data.meta)
+    items = []
+    for n, (_, r) in enumerate(data.top.head(CANDIDATES).iterrows(), start=1):
+        value = ""
+        if objective.column != "net_power_kW":
+            value = f", {objective.label} {_fmt(r.get(objective.column), '.4g')}"
+        caution = short_caution(r)
+        folded = f" ({r.get(rank.FOLDED)}: no gain)" if r.get(rank.FOLDED) else ""
+        items.append(
+            f'<li><a href="#card-{n}"><strong>{_e(r.get("display_name") or r.get("fluid"))}</strong></a> · '
+            f"{_e(r.get('layout'))}{_e(folded)}: {_fmt(r.get('net_power_kW'), '.1f')} kW net{_e(value)}; "
+            f"class {_e(safety_class_text(r.get('safety_class')))}, GWP100 {_e(gwp_text(r.get('gwp100')))}"
+            + (f"; <em>{_e(caution)}</em>" if caution else "") + "</li>")
+    point = _point_note(data.point)
+    return ('<div id="candidates"><h2>Recommended candidates</h2>'
+            f'<ol class="cands">{"".join(items)}</ol>'
+            + (f'<p class="note">At the {_e(point)}.</p>' if point else "") + "</div>")
 
 
 def _card(n: int, row: Mapping, detail: Mapping | None, figs: list[FigureRecord]) -> str:
@@ -777,12 +939,15 @@ _CSS = """
 :root{--ink:#1a1a1a;--muted:#555;--line:#d0d0d0;--band:#f4f6f8;--accent:#0072B2}
 *{box-sizing:border-box}
 body{font:15px/1.45 system-ui,-apple-system,"Segoe UI",Roboto,"DejaVu Sans",sans-serif;
- color:var(--ink);margin:0 auto;max-width:1180px;padding:0 1.2rem 3rem}
-header{border-bottom:3px solid var(--accent);padding:1.2rem 0 .6rem;margin-bottom:1rem}
-h1{font-size:1.6rem;margin:0}h2{font-size:1.3rem;margin:2rem 0 .6rem;border-bottom:1px solid var(--line)}
+ color:var(--ink);margin:0 auto;max-width:1320px;padding:0 1rem 3rem}
+header{border-bottom:3px solid var(--accent);padding:.6rem 0 .3rem;margin-bottom:.3rem}
+h1{font-size:1.4rem;margin:0}h2{font-size:1.3rem;margin:2rem 0 .6rem;border-bottom:1px solid var(--line)}
+#candidates h2,#ranking h2{font-size:1.1rem;margin:.6rem 0 .2rem}
+ol.cands{margin:.2rem 0 .2rem;padding-left:1.6rem}ol.cands li{margin:0}
+header .sub{font-size:.9rem}
 h3{font-size:1.1rem;margin:.2rem 0 .6rem}h4{font-size:.95rem;margin:1rem 0 .3rem}
 .sub{color:var(--muted)}.note{color:var(--muted);font-size:.9rem}
-.banner{background:#fff4e0;border-left:4px solid #E69F00;padding:.5rem .8rem;margin:.8rem 0}
+.banner{background:#fff4e0;border-left:4px solid #E69F00;padding:.2rem .8rem;margin:.4rem 0 0}
 table{border-collapse:collapse;font-size:.85rem}
 th,td{padding:.25rem .5rem;border-bottom:1px solid var(--line);text-align:left;vertical-align:top}
 table.sortable td[data-sort],table.grid td{font-variant-numeric:tabular-nums}
@@ -806,7 +971,9 @@ figure.chart img{width:100%;height:auto;border:1px solid var(--line)}
 figure.failed{border:1px dashed #D55E00;padding:.5rem}
 figcaption{font-size:.85rem;color:var(--muted)}.files{font-family:monospace;font-size:.75rem}
 code{font-size:.85em}
-table.sortable td{white-space:nowrap}table.sortable td.wrap{white-space:normal;min-width:22rem}
+table.sortable td{white-space:nowrap}table.sortable td.wrap{white-space:normal;overflow-wrap:anywhere;min-width:7rem;max-width:22rem}
+#ranking-table{font-size:.78rem;width:100%}#ranking-table thead th{white-space:normal;vertical-align:bottom}
+#ranking-table th,#ranking-table td{padding:.2rem .3rem}
 .input-grid{display:flex;flex-wrap:wrap;gap:.4rem 1.6rem;align-items:flex-start}
 .inputs h4{margin:.6rem 0 .1rem}table.small{font-size:.8rem}table.small th{width:auto;padding-right:1rem}
 .dflt{font-size:.7rem;color:var(--muted);border:1px solid var(--line);border-radius:.6rem;padding:0 .35rem}
@@ -880,6 +1047,7 @@ def render_report(data: _RunData, records: list[FigureRecord]) -> str:
                      "".join(_figure_html(r) for r in sweeps) + "</div></section>"
                      if sweeps else "")
     made = datetime.now(timezone.utc).strftime("%Y-%m-%d %H:%M UTC")
+    kinds = " and SVG" if any(r.svg for r in records) else ""
     return (
         "<!DOCTYPE html>\n"
         '<html lang="en"><head><meta charset="utf-8">'
@@ -887,23 +1055,26 @@ def render_report(data: _RunData, records: list[FigureRecord]) -> str:
         '<meta name="viewport" content="width=device-width, initial-scale=1">'
         '<link rel="icon" href="data:,">'
         f"<title>{_e(name)} – orcscreen report</title><style>{_CSS}</style></head><body>"
-        f"<header><h1>{_e(name)}</h1><div class=\"sub\">orcscreen screening report · study hash "
-        f"<code>{_e(data.meta.get('study_hash', ''))}</code> · built {made}</div>"
+        f'<header><h1>{_e(name)}</h1><div class="sub" id="study-line">{_e(_study_line(data))}</div>'
         '<div class="banner">Preliminary screening, not a design: see the '
         '<a href="#cautions">cautions</a> before acting on any result.</div></header>'
-        '<nav class="note"><a href="#summary">summary</a> · <a href="#ranking">ranking</a> · '
+        '<nav class="note"><a href="#ranking">ranking</a> · '
+        + ('<a href="#charts">charts</a> · ' if overview else "") +
         '<a href="#top">top fluids</a> · ' + ('<a href="#sweeps">sweeps</a> · ' if sweeps else "") +
+        '<a href="#summary">inputs and method</a> · '
         '<a href="#problems">infeasible and failed</a> · <a href="#cautions">cautions</a></nav>'
-        + _summary(data) + _ranking_section(data, overview) + sweep_section + top_section
-        + _problems_section(data) + _chart_problems(records) + _cautions_section()
-        + f"<footer>Written by orcscreen {_e(data.meta.get('orcscreen_version', ''))} with "
-        f"CoolProp {_e(data.meta.get('coolprop_version', ''))}; charts also in "
-        f"{_e(FIGURES_DIR)}/ as PNG and SVG; every result in ranking.csv.</footer>"
+        + _candidates(data) + _ranking_section(data, overview) + sweep_section + top_section
+        + _summary(data) + _problems_section(data) + _chart_problems(records) + _cautions_section()
+        + f"<footer>orcscreen screening report · study hash "
+        f"<code>{_e(data.meta.get('study_hash', ''))}</code> · built {made} · written by orcscreen "
+        f"{_e(data.meta.get('orcscreen_version', ''))} with CoolProp "
+        f"{_e(data.meta.get('coolprop_version', ''))}; charts also in {_e(FIGURES_DIR)}/ as PNG{kinds}; "
+        "every result in ranking.csv.</footer>"
         f"<script>{_JS}</script></body></html>\n"
     )
 
 
-def build_report(out_dir: str | os.PathLike[str], top_n: int = 5) -> Path:
+def build_report(out_dir: str | os.PathLike[str], top_n: int = 5, svg: bool = False) -> Path:
     """Draw the charts and write ``out_dir/report.html`` from the run store; return its path.
 
     Recomputes nothing. Raises :class:`orcscreen.store.StoreNotFoundError` when ``out_dir`` has
@@ -911,7 +1082,8 @@ def build_report(out_dir: str | os.PathLike[str], top_n: int = 5) -> Path:
     on every build. A chart that fails is logged and named in the report; the report is still
     written. ``top_n``: number of best fluids (each in its best layout, at the operating point of
     the best case) that get a detail card with T-Q and T-s diagrams and appear in the landscape
-    chart.
+    chart. ``svg``: write every chart as SVG too (vector files for print or editing; PNG alone
+    is what the page needs, and about half the time of a report).
     """
     out_dir = Path(out_dir)
     path = out_dir / REPORT_FILE
@@ -928,7 +1100,7 @@ def build_report(out_dir: str | os.PathLike[str], top_n: int = 5) -> Path:
             data = _load(out_dir, max(0, int(top_n)), store=store)
         except sqlite3.DatabaseError as exc:  # a damaged file: say so, with what to do
             raise store.error_for(exc) from None
-        records = make_figures(data, out_dir / FIGURES_DIR)
+        records = make_figures(data, out_dir / FIGURES_DIR, svg=svg)
         page = render_report(data, records)
         atomic_write(path, page)  # temporary file without following links, then rename
     return path

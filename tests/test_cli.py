@@ -366,8 +366,11 @@ def test_report_command_calls_the_report_builder(capsys, tmp_path, monkeypatch):
     report = pytest.importorskip("orcscreen.report")
     calls = []
 
+    svg_asked = []
+
     def fake(out_dir, *a, **k):
         calls.append(Path(out_dir))
+        svg_asked.append(bool(k.get("svg")))
         return Path(out_dir) / "report.html"
 
     monkeypatch.setattr(report, "build_report", fake)
@@ -376,6 +379,9 @@ def test_report_command_calls_the_report_builder(capsys, tmp_path, monkeypatch):
     assert code == 0, err
     assert calls == [tmp_path]
     assert "report.html" in out and "not a design" in out
+    code, _, err = run(capsys, "report", str(tmp_path), "--svg")
+    assert code == 0, err
+    assert calls[-1] == tmp_path and svg_asked == [False, True]
 
 
 def test_version(capsys):

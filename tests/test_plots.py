@@ -106,7 +106,8 @@ def test_axis_label_carries_the_unit_of_the_column_name(column, expected):
 def test_ranking_bars_best_first_with_class_and_gwp(run):
     df, _ = run
     ax = plots.ranking_chart(df)
-    ok = df[df["status"] == "ok"].sort_values("net_power_kW", ascending=False)
+    # a layout whose recuperator takes no heat is one bar, its simpler layout's
+    ok = rank.fold_inactive(df[df["status"] == "ok"]).sort_values("net_power_kW", ascending=False)
     bars = sorted((p for p in ax.patches if (p.get_gid() or "").startswith("bar-")),
                   key=lambda p: p.get_y())
     # the y axis is inverted: the bar nearest y = 0 is drawn on top
@@ -114,7 +115,8 @@ def test_ranking_bars_best_first_with_class_and_gwp(run):
     assert len(bars) == len(ok)
     np.testing.assert_allclose([b.get_width() for b in bars], ok["net_power_kW"], rtol=1e-12)
     labels = [t.get_text() for t in ax.get_yticklabels()]
-    assert labels == [plots.case_label(r) for _, r in ok.iterrows()]
+    assert labels == [plots.case_label(r) + (f" ({r[rank.FOLDED]}: no gain)" if r[rank.FOLDED] else "")
+                      for _, r in ok.iterrows()]
     for i, (_, r) in enumerate(ok.iterrows()):
         note = _by_gid(ax.texts, f"bar-note-{i}").get_text()
         assert f"{r['net_power_kW']:.1f} kW" in note
@@ -126,6 +128,32 @@ def test_ranking_bars_best_first_with_class_and_gwp(run):
     # temperature: 31 °C, NIST Chemistry WebBook, from memory) have no bar
     assert not any("CarbonDioxide" in l or "carbon dioxide" in l.lower() for l in labels)
     _assert_units(ax)
+
+
+def test_ranking_axis_starts_near_the_smallest_bar_and_says_so(run):
+    df, _ = run
+    ax = plots.ranking_chart(df)
+    widths = [p.get_width() for p in ax.patches if (p.get_gid() or "").startswith("bar-")]
+    lo, hi = ax.get_xlim()
+    # not at zero: below the smallest bar by at most a fifth of the spread of the bars
+    # (at least 5 % of the largest), so the smallest bar stays visible
+    spread = max(max(widths) - min(widths), 0.05 * max(widths))
+    assert 0.0 < lo < min(widths)
+    assert min(widths) - lo <= 0.2 * spread
+    assert f"axis from {lo:g} kW, not zero" in ax.get_xlabel()
+    _assert_units(ax)
+
+
+@pytest.mark.parametrize("power, start", [
+    ([245.6, 150.2], 140.0),    # spread 95.4: 150.2 - 9.54 = 140.66, floored to a step of 1 kW
+    ([220.0, 219.0], 217.0),    # spread below 5 % of 220: 11 kW; 219 - 1.1 = 217.9, step 1 kW
+    ([50.0, 3.0], 0.0),         # the step down would reach zero: drawn from zero
+    ([10.0, -2.0], -2.1),       # a bar below zero: the usual axis through zero
+])
+def test_ranking_axis_start_by_hand(power, start):
+    """Worked by hand from the rule of plots.ranking_axis_start (a tenth of the spread below the
+    smallest bar, rounded down to a step of 10**floor(log10(spread / 10)))."""
+    assert plots.ranking_axis_start(power) == pytest.approx(start)
 
 
 def test_ranking_chart_cuts_to_max_bars_and_says_so(run):
@@ -156,7 +184,12 @@ def test_tq_pinch_marks_equal_the_detail_and_the_study_setting(run, layout):
         hx = exchangers.get(name)
         if hx is None:
             continue
-        text = _by_gid(ax.texts, f"pinch-{name}").get_text()
+        # a narrow exchanger (the recuperator) has its pinch labelled in its enlarged inset
+        inset = [a for a in ax.child_axes if a.get_gid() == f"inset-{name}"]
+        texts = inset[0].texts if inset else ax.texts
+        assert inset or hx["duty_kW"] >= plots.TQ_NARROW_SHARE * sum(
+            h["duty_kW"] for h in exchangers.values())
+        text = _by_gid(texts, f"pinch-{name}").get_text()
         shown = float(re.search(r"pinch ([0-9.]+) K", text).group(1))
         assert shown == pytest.approx(hx["pinch_K"], abs=0.05)
         # the marked bar spans the two streams at the pinch
@@ -251,9 +284,33 @@ def test_best_per_point_hand_made_table():
     assert best["source.inlet_temperature_C"].tolist() == [120, 140]
 
 
+def test_tradeoff_names_only_the_strongest_pareto_cases():
+    """Hand-made table of 12 cases all on the front (power and size both rising, a label's
+    height apart): only the max_labels cases of most power are named; cases crowded next to a
+    named one are not."""
+    n = 12
+    df = pd.DataFrame({"fluid": [f"f{k}" for k in range(n)], "display_name": [f"f{k}" for k in range(n)],
+                       "layout": "basic", "status": "ok",
+                       "net_power_kW": np.linspace(100.0, 200.0, n), "ua_total_kW_K": np.linspace(10.0, 50.0, n)})
+    assert rank.pareto_front(df, minimise="ua_total_kW_K").all()
+    for k in (8, 3):
+        ax = plots.tradeoff_chart(df, x="ua_total_kW_K", max_labels=k)
+        named = [t.get_text() for t in ax.texts if t.get_gid() == "pareto-label"]
+        assert sorted(named) == sorted(f"f{i} · basic" for i in range(n - k, n))
+    ax = plots.tradeoff_chart(df, x="ua_total_kW_K")
+    assert len([t for t in ax.texts if t.get_gid() == "pareto-label"]) == plots.TRADEOFF_LABELS == 8
+    # the same front crowded into a corner by a far, dominated case: one name, the strongest
+    far = pd.DataFrame({"fluid": ["far"], "display_name": ["far"], "layout": ["basic"], "status": ["ok"],
+                        "net_power_kW": [0.0], "ua_total_kW_K": [200.0]})   # linear axis (span below 30x)
+    crowded = pd.concat([df.assign(net_power_kW=np.linspace(199.0, 200.0, n)), far], ignore_index=True)
+    ax = plots.tradeoff_chart(crowded, x="ua_total_kW_K")
+    named = [t.get_text() for t in ax.texts if t.get_gid() == "pareto-label"]
+    assert named == [f"f{n - 1} · basic"]
+
+
 def test_tradeoff_marks_exactly_the_pareto_cases(run):
     df, _ = run
-    ok = df[df["status"] == "ok"]
+    ok = rank.fold_inactive(df[df["status"] == "ok"])
     for x in ("size_parameter_m", "ua_total_kW_K"):
         ax = plots.tradeoff_chart(df, x=x)
         marked = _by_gid(ax.collections, "pareto").get_offsets()
@@ -275,7 +332,7 @@ def test_tradeoff_marks_exactly_the_pareto_cases(run):
 
 def test_turbine_map_plots_every_feasible_case_and_rings_the_best(run):
     df, _ = run
-    ok = df[df["status"] == "ok"]
+    ok = rank.fold_inactive(df[df["status"] == "ok"])
     top = ok.assign(rank=ok["net_power_kW"].rank(ascending=False)).nsmallest(3, "rank")
     ax = plots.turbine_map(df, top)
     drawn = np.vstack([c.get_offsets() for c in ax.collections if str(c.get_gid()).startswith("turbine-")])
@@ -365,7 +422,8 @@ def test_save_figure_writes_png_and_svg_that_are_not_blank(run, tmp_path):
     df, details = run
     row = _best_ok(df)
     ax = plots.tq_diagram(details[row["case_key"]], row)
-    paths = plots.save_figure(ax.figure, tmp_path / "figures", "tq")
+    assert [p.name for p in plots.save_figure(ax.figure, tmp_path / "png", "tq")] == ["tq.png"]
+    paths = plots.save_figure(ax.figure, tmp_path / "figures", "tq", formats=("png", "svg"))
     assert [p.name for p in paths] == ["tq.png", "tq.svg"]
     assert paths[0].read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
     assert paths[1].read_text(encoding="utf-8").lstrip().startswith("<?xml")

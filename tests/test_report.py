@@ -18,7 +18,7 @@ from pathlib import Path
 import pandas as pd
 import pytest
 
-from orcscreen import plots, report
+from orcscreen import plots, rank, report
 from orcscreen.batch import failed_row, run_study
 from orcscreen.fluids import CAUTIONS
 from orcscreen.outputs import ranking_table
@@ -172,22 +172,58 @@ def test_ranking_table_follows_ranking_csv(built):
     page = _parse(text)
     table = page.tables["ranking-table"]
     csv = pd.read_csv(out / "ranking.csv")
-    ok = csv[csv["status"] == "ok"].sort_values("rank")
+    # a layout whose recuperator takes no heat is one row, its simpler layout's (rank.fold_inactive)
+    ok = rank.fold_inactive(csv[csv["status"] == "ok"]).sort_values("rank")
     head = table["head"]
-    assert head[:5] == ["rank", "fluid", "layout", "warnings", "net power [kW]"]
+    assert head[:4] == ["rank", "fluid", "layout", "net power [kW]"]
+    for wanted in ("cond. p [bar]", "high p [bar]", "SP [m]", "VR [-]", "stages", "turbine eff. [-]",
+                   "safety class", "GWP100", "caution", "evaporator pinch", "warnings"):
+        assert wanted in head
     assert [int(r[0]) for r in table["rows"]] == ok["rank"].astype(int).tolist()
     assert [r[1] for r in table["rows"]] == ok["display_name"].tolist()
-    assert [r[2] for r in table["rows"]] == ok["layout"].tolist()
-    # the warnings next to the fluid, as in ranking.csv (the sub-atmospheric condensers here)
-    assert [r[3] for r in table["rows"]] == ok["warnings"].fillna("").tolist()
-    assert any("below atmospheric pressure" in r[3] for r in table["rows"])
-    shown = [float(r[4]) for r in table["rows"]]
+    assert [r[2].split(" (")[0] for r in table["rows"]] == ok["layout"].tolist()
+    # the warnings, as in ranking.csv (the sub-atmospheric condensers here)
+    col = head.index("warnings")
+    assert [r[col] for r in table["rows"]] == ok["warnings"].fillna("").tolist()
+    assert any("below atmospheric pressure" in r[col] for r in table["rows"])
+    shown = [float(r[3]) for r in table["rows"]]
     assert shown == pytest.approx(ok["net_power_kW"].tolist(), abs=0.051)
     # the sort keys carry full precision (ranking.csv holds 6 significant digits)
-    keys = [float(k[4]) for k in table["keys"]]
+    keys = [float(k[3]) for k in table["keys"]]
     assert keys == pytest.approx(ok["net_power_kW"].tolist(), rel=1e-5)
+    for column, header, spec in (("condensing_pressure_bar", "cond. p [bar]", ".3f"),
+                                 ("turbine_inlet_pressure_bar", "high p [bar]", ".2f")):
+        col = head.index(header)
+        assert [r[col] for r in table["rows"]] == [format(v, spec) for v in ok[column]]
+    col = head.index("evaporator pinch")
+    assert [r[col] for r in table["rows"]] == ok["pinch_location"].fillna("").tolist()
     col = head.index("safety class")
     assert [r[col] for r in table["rows"]] == ok["safety_class"].fillna("").tolist()
+    # a plain-words caution from the ASHRAE 34 class (ANSI/ASHRAE 34: 3 = higher flammability)
+    col = head.index("caution")
+    for r, (_, row) in zip(table["rows"], ok.iterrows()):
+        if row["safety_class"] == "A3":
+            assert "highly flammable" in r[col]
+
+
+def test_the_answer_comes_first(built):
+    """The study line, the candidates and the ranking come before the charts, the cards and the
+    inputs, metadata and method."""
+    out, _, text = built
+    page = _parse(text)
+    at = {name: text.index(marker) for name, marker in (
+        ("line", 'id="study-line"'), ("candidates", 'id="candidates"'), ("ranking", 'id="ranking-table"'),
+        ("charts", 'id="charts"'), ("cards", 'id="top"'), ("summary", 'id="summary"'),
+        ("method", 'id="method"'), ("cautions", 'id="cautions"'))}
+    assert list(at) == sorted(at, key=at.get)
+    line = re.search(r'id="study-line">([^<]*)<', text).group(1)
+    assert "water source 130 °C, 10 kg/s" in line and "9 cases (6 ok, 2 infeasible, 1 failed)" in line
+    assert "ranked by net power" in line
+    csv = pd.read_csv(out / "ranking.csv")
+    best = csv[csv["rank"] == 1].iloc[0]
+    candidates = re.sub(r"\s+", " ", re.sub(r"<[^>]+>", "", text[at["candidates"]:at["ranking"]]))
+    assert f"1. {best['display_name']}" in candidates or f"{best['display_name']} ·" in candidates
+    assert f"{best['net_power_kW']:.1f} kW net" in candidates
 
 
 def test_detail_cards_show_the_stored_detail(built):
@@ -195,7 +231,7 @@ def test_detail_cards_show_the_stored_detail(built):
     page = _parse(text)
     with RunStore(out, create=False) as store:
         table = ranking_table(store.rows(), store.meta())
-        top = (table[table["status"] == "ok"].sort_values("rank")
+        top = (rank.fold_inactive(table[table["status"] == "ok"]).sort_values("rank")
                .drop_duplicates("fluid").head(3))           # best layout of the 3 best fluids
         assert top["fluid"].nunique() == 3
         details = [store.detail(k) for k in top["case_key"]]
@@ -253,12 +289,18 @@ def test_cautions_section_carries_the_catalogue_cautions(built):
     assert "Preliminary screening, not a design" in text
 
 
-def test_every_chart_has_its_png_and_svg(built):
+def test_every_chart_has_its_png_and_svg_only_on_request(built, tmp_path):
     out, _, text = built
     figures = out / "figures"
     pngs = sorted(p.stem for p in figures.glob("*.png"))
-    svgs = sorted(p.stem for p in figures.glob("*.svg"))
-    assert pngs == svgs
+    assert not list(figures.glob("*.svg"))          # PNG only by default
+    other = tmp_path / "copy"
+    other.mkdir()
+    (other / "run.sqlite").write_bytes((out / "run.sqlite").read_bytes())
+    report.build_report(other, top_n=3, svg=True)
+    assert sorted(p.stem for p in (other / "figures").glob("*.svg")) == pngs
+    report.build_report(other, top_n=3)             # a rebuild without SVG leaves none behind
+    assert not list((other / "figures").glob("*.svg"))
     for stem in ("ranking", "tradeoff_size_parameter", "tradeoff_ua", "landscape", "turbine_map"):
         assert stem in pngs
     assert len([s for s in pngs if s.startswith("tq_")]) == 3
@@ -284,7 +326,9 @@ def test_a_failing_chart_is_reported_and_the_rest_is_kept(built, monkeypatch, tm
     problems = _section(page, "chart-problems")
     assert "RuntimeError: the T-Q plotter broke (raised on purpose)" in problems
     assert problems.count("T-Q diagram") == 2
-    assert len(page.tables["ranking-table"]["rows"]) == 6       # results all there
+    csv = pd.read_csv(out / "ranking.csv")
+    shown = rank.fold_inactive(csv[csv["status"] == "ok"])
+    assert len(page.tables["ranking-table"]["rows"]) == len(shown)   # results all there
     assert not list((other / "figures").glob("tq_*"))
     assert len(list((other / "figures").glob("ts_*.png"))) == 2
 
