@@ -10,7 +10,7 @@ from __future__ import annotations
 
 import math
 
-from . import areas, economics, streams
+from . import areas, economics, fluids, streams
 from .annual import YEAR_COLUMNS, design_year_columns
 from .economics import ECONOMIC_COLUMNS
 from .cycles import LAYOUTS, CycleResult, Layout, saturation_dome
@@ -24,7 +24,7 @@ AREA_COLUMNS = tuple(f"area_{e}_m2" for e in areas.EXCHANGERS)
 #: Columns every layout fills (DESIGN section 5). evaporation_* are NaN for a supercritical
 #: heater; turbine_inlet_pressure_bar is the highest cycle pressure in every layout.
 COMMON_COLUMNS = (
-    "fluid", "display_name", "layout", "status", "reason", "warnings",
+    "fluid", "display_name", "layout", "status", "reason", "warnings", "caution",
     "net_power_kW", "turbine_power_kW", "pump_power_kW", "aux_power_kW", "heat_input_kW",
     "heat_rejected_kW", "recuperator_duty_kW", "thermal_efficiency", "exergy_efficiency",
     "carnot_efficiency", "heat_recovery_factor", "total_efficiency", "source_exergy_kW",
@@ -68,10 +68,15 @@ def empty_row(fluid: str, layout: str, info, status: str, reason: str, elapsed: 
     return row
 
 
-def _add_fluid_columns(row: dict, info) -> None:
+def _add_fluid_columns(row: dict, info, flag_condensing_below_Pa: float | None = None) -> None:
+    """The fluid's catalogue facts, its caution (orcscreen.fluids.caution_text, from the facts
+    and the row's condensing pressure) and, for an ozone-depleting fluid, its warning."""
+    flag_bar = None if flag_condensing_below_Pa is None else flag_condensing_below_Pa / 1e5
+    row["caution"] = fluids.caution_text(info, row, flag_bar)
     if info is None:
         row.update(family="", safety_class="", gwp100=math.nan, odp=math.nan, curve_type="")
         return
+    row["warnings"] = "; ".join(w for w in (row["warnings"], fluids.ozone_depleting_warning(info)) if w)
     row.update(
         family=info.family,
         safety_class=info.safety_class,
@@ -163,7 +168,7 @@ def result_row(fluid_name: str, layout: Layout, info, fluid, source, sink, r: Cy
     row.update(economics.areas_and_costs(r, source, sink, settings, notes)[0])
     row.update(design_year_columns(getattr(settings, "economics", None)))
     row["warnings"] = "; ".join(notes)
-    _add_fluid_columns(row, info)
+    _add_fluid_columns(row, info, getattr(settings, "flag_condensing_pressure_below_Pa", None))
     return {k: row[k] for k in ROW_COLUMNS}
 
 

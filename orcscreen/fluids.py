@@ -26,6 +26,13 @@ fluid whose value is unknown (conservative), and :func:`selection` returns every
 with its reason, for the check, the run summary, run-info.json and the report.
 Displays write a missing catalogue value as :data:`UNKNOWN` and the class "none" as
 :data:`NOT_CLASSIFIED` (:func:`safety_class_text`, :func:`gwp_text`).
+
+Regulatory flags: the ozone-depleting families (:data:`MONTREAL_FAMILIES`, CFCs and HCFCs, which
+the Montreal Protocol phases out) are left out of "all" and reported as left out; named
+explicitly (by fluid or family) they are screened with :data:`OZONE_DEPLETING_WARNING`
+(:func:`regulatory_warnings`). :func:`caution_text` is the one short caution of a case
+(flammable, toxic, high GWP, ozone-depleting, vacuum condenser) that the console, ranking.csv
+and ranking.xlsx show.
 """
 
 from __future__ import annotations
@@ -52,7 +59,11 @@ __all__ = [
     "CURVE_REDUCED_TEMPERATURE",
     "FAMILIES",
     "GWP_REPORTS",
+    "GWP_HIGH",
+    "GWP_VERY_HIGH",
     "ISENTROPIC_BAND",
+    "MONTREAL_FAMILIES",
+    "OZONE_DEPLETING_WARNING",
     "NOT_CLASSIFIED",
     "SAFETY_CLASSES",
     "UNKNOWN",
@@ -63,12 +74,15 @@ __all__ = [
     "UnknownFluidError",
     "catalogue_frame",
     "catalogue_path",
+    "caution_text",
     "classify_curve",
     "close_matches",
     "get_info",
     "gwp_text",
     "left_out_of",
     "load_catalogue",
+    "ozone_depleting_warning",
+    "regulatory_warnings",
     "safety_class_text",
     "select",
     "selection",
@@ -117,6 +131,25 @@ ISENTROPIC_BAND = 1.0  # |sigma| <= band -> "isentropic" (orcscreen's choice, se
 R_UNIVERSAL_J_molK = 8.314462618  # molar gas constant, CODATA 2018 (exact in the 2019 SI)
 P_NORMAL_Pa = 101325.0  # pressure of the normal boiling point
 GWP_FGAS_NOTICE = 150.0  # GWP100 from which F-gas restrictions commonly start (common practice)
+#: "high GWP" in a case's caution: GWP100 >= 150, the lowest of the thresholds at which
+#: Regulation (EU) 2024/573 (F-gas Regulation, Annex IV) prohibits placing new equipment of
+#: several kinds on the market (thresholds 150, 750 and 2500 by kind; from memory, not read).
+GWP_HIGH = GWP_FGAS_NOTICE
+#: "very high GWP": GWP100 >= 2500, the threshold of the EU F-gas bans on the most potent
+#: fluids (Regulation (EU) 517/2014 and 2024/573; from memory, not read).
+GWP_VERY_HIGH = 2500.0
+#: Families the Montreal Protocol phases out as ozone-depleting substances: CFCs (Annex A) and
+#: HCFCs (Annex C) (common knowledge of the trade). Left out of "all" (see :func:`selection`).
+MONTREAL_FAMILIES = ("cfc", "hcfc")
+_OZONE_DEPLETING = "ozone-depleting: phased out under the Montreal Protocol"  # a caution's words
+OZONE_DEPLETING_WARNING = ("ozone-depleting: phased out under the Montreal Protocol, "
+                           "screened for comparison only (not for a new plant)")
+#: Families whose members are flammable by their safety data sheets (alkanes, alkenes and
+#: cycloalkanes, aromatics, alcohols, ethers, methylsiloxanes: flammable gases or liquids;
+#: common practice, from memory). Used only for a fluid without an ASHRAE 34 class; other
+#: unclassified fluids (e.g. a fluoroketone, a fluorinated blend) are treated as flammable.
+FLAMMABLE_FAMILIES = ("hydrocarbon", "aromatic", "alcohol", "ether", "siloxane")
+P_ATM_BAR = 1.01325  # a condenser below it runs under vacuum
 
 _COLUMNS = (
     "coolprop_name", "display_name", "family", "safety_class", "safety_class_source",
@@ -189,6 +222,11 @@ class FluidInfo:
         if not self.classified:
             return True
         return self.safety_class[1:] in _FLAMMABLE_SUBCLASSES
+
+    @property
+    def ozone_depleting(self) -> bool:
+        """True for the families the Montreal Protocol phases out (:data:`MONTREAL_FAMILIES`)."""
+        return self.family in MONTREAL_FAMILIES
 
     @property
     def toxicity(self) -> str:
@@ -455,6 +493,8 @@ def get_info(name: str) -> FluidInfo:
 
 
 def _resolve(item: str) -> set[str]:
+    """Catalogue names an include/exclude item stands for ("all": every fluid, the
+    ozone-depleting ones too; :func:`selection` takes those out of "all" itself)."""
     key = str(item).strip().lower()
     infos = load_catalogue()
     if key == "all":
@@ -517,6 +557,12 @@ def _class_reason(info: FluidInfo, allowed: set[str]) -> str | None:
     return f"safety class {info.safety_class} not in safety_classes {', '.join(sorted(allowed))}"
 
 
+def _all_reason(info: FluidInfo) -> str:
+    """Why "all" leaves an ozone-depleting fluid out, and how to screen it anyway."""
+    return (f"{_OZONE_DEPLETING} ({info.family.upper()}): left out of \"all\"; "
+            f"name it or its family ({info.family}) in fluids.include to screen it")
+
+
 def _odp_reason(info: FluidInfo) -> str | None:
     if info.odp is None:
         return f"ODP {UNKNOWN}: left out by zero_odp"
@@ -526,7 +572,10 @@ def _odp_reason(info: FluidInfo) -> str | None:
 def selection(include=("all",), exclude=(), max_gwp=None, safety_classes=None, zero_odp=False) -> Selection:
     """Catalogue fluids chosen by names/families and filters, with the ones the filters left out.
 
-    include, exclude: fluid names (CoolProp or display), family names or "all".
+    include, exclude: fluid names (CoolProp or display), family names or "all". "all" leaves
+    out the ozone-depleting families (:data:`MONTREAL_FAMILIES`): they are listed in
+    ``left_out`` with the reason; named by fluid or family they are chosen (and
+    :func:`regulatory_warnings` says what they are).
     max_gwp: keep GWP100 <= max_gwp; fluids with unknown GWP are left out (conservative).
     safety_classes: keep only these ASHRAE 34 groups; unclassified fluids are left out.
     zero_odp: keep only ODP == 0; fluids with unknown ODP are left out.
@@ -535,8 +584,12 @@ def selection(include=("all",), exclude=(), max_gwp=None, safety_classes=None, z
     filter value.
     """
     chosen: set[str] = set()
+    named: set[str] = set()  # chosen by a fluid or family name, not only by "all"
     for item in _as_list(include):
-        chosen |= _resolve(item)
+        names = _resolve(item)
+        chosen |= names
+        if str(item).strip().lower() != "all":
+            named |= names
     for item in _as_list(exclude):
         chosen -= _resolve(item)
     if max_gwp is not None and (not isinstance(max_gwp, (int, float)) or not max_gwp >= 0):
@@ -552,6 +605,7 @@ def selection(include=("all",), exclude=(), max_gwp=None, safety_classes=None, z
         if info.coolprop_name not in chosen:
             continue
         reasons = [
+            info.ozone_depleting and info.coolprop_name not in named and _all_reason(info),
             max_gwp is not None and _gwp_reason(info, max_gwp),
             allowed is not None and _class_reason(info, allowed),
             zero_odp and _odp_reason(info),
@@ -574,6 +628,83 @@ def left_out_of(filters) -> tuple[LeftOut, ...]:
     include, exclude, max_gwp, safety_classes, zero_odp; others are ignored) leaves out."""
     keys = ("include", "exclude", "max_gwp", "safety_classes", "zero_odp")
     return selection(**{k: filters[k] for k in keys if k in filters}).left_out
+
+
+def regulatory_warnings(names) -> list[str]:
+    """One line per chosen fluid (CoolProp or display names, or FluidInfo) that the Montreal
+    Protocol phases out: "<display name>: ozone-depleting: phased out under the Montreal
+    Protocol, ...". For `check` and the run console."""
+    infos = [n if isinstance(n, FluidInfo) else get_info(n) for n in _as_list(names)]
+    return [f"{i.display_name}: {ozone_depleting_warning(i)}" for i in infos if i.ozone_depleting]
+
+
+def ozone_depleting_warning(info: FluidInfo | None) -> str | None:
+    """:data:`OZONE_DEPLETING_WARNING` for a fluid the Montreal Protocol phases out, else None
+    (a case's warnings: no "; ", which separates the warnings of a row)."""
+    return OZONE_DEPLETING_WARNING if info is not None and info.ozone_depleting else None
+
+
+# -- cautions ------------------------------------------------------------------------------
+def _flammability_words(info: FluidInfo) -> str | None:
+    """Flammability in words: from the ASHRAE 34 subclass, else from the family
+    (:data:`FLAMMABLE_FAMILIES`), else "treat as flammable"; None for subclass 1."""
+    if info.classified:
+        return {"2L": "lower flammability", "2": "flammable", "3": "highly flammable"}.get(info.safety_class[1:])
+    if info.family in FLAMMABLE_FAMILIES:
+        return "flammable"
+    return "flammability not established: treat as flammable"
+
+
+def _class_caution(info: FluidInfo) -> str:
+    """Safety part of a caution: "highly flammable (ASHRAE 34 class A3)", "not classified by
+    ASHRAE 34; flammable", "ASHRAE 34 class A1"..."""
+    flammability = _flammability_words(info)
+    if not info.classified:
+        head = "not classified by ASHRAE 34" if info.safety_class == "none" else f"ASHRAE 34 class {UNKNOWN}"
+        return f"{head}; {flammability}"
+    words = (["higher toxicity"] if info.toxicity == "higher" else []) + ([flammability] if flammability else [])
+    label = f"ASHRAE 34 class {info.safety_class}"
+    return f"{', '.join(words)} ({label})" if words else label
+
+
+def _condenser_caution(row, flag_below_bar: float | None) -> str | None:
+    """"vacuum condenser (0.45 bar)" below 1 atm; "deep vacuum condenser" below the study's
+    limits.flag_condensing_pressure_below_bar; None otherwise or without a pressure."""
+    try:
+        p_bar = float(row.get("condensing_pressure_bar"))
+    except (AttributeError, TypeError, ValueError):
+        return None
+    if not math.isfinite(p_bar):
+        return None
+    if flag_below_bar is not None and p_bar < flag_below_bar:
+        deep = "deep vacuum condenser" if p_bar < P_ATM_BAR else "condenser"
+        return f"{deep} ({p_bar:.3g} bar, below the flag of {flag_below_bar:g} bar)"
+    if p_bar < P_ATM_BAR:
+        return f"vacuum condenser ({p_bar:.3g} bar): air ingress, large condenser"
+    return None
+
+
+def caution_text(info: FluidInfo | None, row=None, flag_below_bar: float | None = None) -> str:
+    """The short caution of one case in plain words, parts joined by "; ": safety class and
+    flammability (never blank: an unclassified fluid reads "not classified by ASHRAE 34;
+    flammable" or "...; flammability not established: treat as flammable"), higher toxicity,
+    ozone-depleting (:data:`MONTREAL_FAMILIES`), high GWP (>= :data:`GWP_HIGH`, very high >=
+    :data:`GWP_VERY_HIGH`), and from the case's row (a mapping with condensing_pressure_bar)
+    a vacuum condenser (below 1 atm, or below flag_below_bar [bar], the study's
+    limits.flag_condensing_pressure_below_bar). The one function behind the console's top
+    list, ranking.csv's and ranking.xlsx's ``caution`` column."""
+    if info is None:
+        return f"fluid not in the catalogue: safety class, flammability and GWP {UNKNOWN}; treat as flammable"
+    parts = [_class_caution(info)]
+    if info.ozone_depleting:
+        parts.append(_OZONE_DEPLETING)
+    if info.gwp100 is not None and info.gwp100 >= GWP_HIGH:
+        tier, limit = ("very high GWP", GWP_VERY_HIGH) if info.gwp100 >= GWP_VERY_HIGH else ("high GWP", GWP_HIGH)
+        parts.append(f"{tier} {info.gwp100:g} (EU F-gas rules restrict GWP >= {limit:g})")
+    condenser = _condenser_caution(row, flag_below_bar) if row is not None else None
+    if condenser:
+        parts.append(condenser)
+    return "; ".join(parts)
 
 
 # -- display -------------------------------------------------------------------------------

@@ -606,6 +606,21 @@ def _name(r) -> str:
     return r.get("display_name") if isinstance(r.get("display_name"), str) else r["fluid"]
 
 
+def _caution_lines(best) -> list[str]:
+    """One line per fluid of the listed cases with its caution (the rows' ``caution`` column,
+    orcscreen.fluids.caution_text): "  fluid: caution"; a fluid whose cases differ (e.g. one
+    condenses under vacuum) gets a line per distinct caution."""
+    if "caution" not in best:
+        return []
+    lines = []
+    for _, r in best.iterrows():
+        text = r["caution"]
+        line = f"  {_name(r)}: {text}" if isinstance(text, str) and text else None
+        if line and line not in lines:
+            lines.append(line)
+    return lines
+
+
 def _top_text(summary: RankingSummary, n: int) -> str:
     import pandas as pd
 
@@ -652,6 +667,9 @@ def _top_text(summary: RankingSummary, n: int) -> str:
         if col in best:
             columns[title] = best[col].map(shown)
     text = pd.DataFrame(columns).to_string(index=False)
+    cautions = _caution_lines(best)
+    if cautions:
+        text += "\ncautions (catalogue data and each case's condenser; screening, not design):\n" + "\n".join(cautions)
     notes = _warning_lines(best)
     if notes:
         text += "\nwarnings (soft limits passed; the results stand):\n" + "\n".join(notes)

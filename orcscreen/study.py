@@ -633,7 +633,8 @@ class Study(BaseModel):
     @property
     def warnings(self) -> tuple[str, ...]:
         """Lines about things allowed but probably unintended (a sweep that overrides a value
-        written in its section); `check` and `run` print them."""
+        written in its section, an ozone-depleting fluid named in [fluids]); `check` and `run`
+        print them."""
         return self._warnings
 
     @property
@@ -1393,6 +1394,14 @@ def _resolve_fluids(section: FluidsSection, origin: str, errors: list[str]) -> t
     return names
 
 
+def _fluid_warnings(names: tuple[str, ...], origin: str) -> tuple[str, ...]:
+    """A line for each chosen fluid that the Montreal Protocol phases out (only named ones can
+    be chosen: "all" leaves them out, orcscreen.fluids.selection)."""
+    from orcscreen import fluids
+
+    return tuple(f"{origin}: fluids: {line}" for line in fluids.regulatory_warnings(names))
+
+
 # ---------------------------------------------------------------------------------------------
 # Entry points
 # ---------------------------------------------------------------------------------------------
@@ -1653,7 +1662,7 @@ def study_from_dict(d: Mapping[str, Any], origin: str = "<dict>", *, allow_huge:
     study._origin = origin
     study._fluids = fluids
     study._sweep = specs
-    study._warnings = _sweep_override_warnings(raw, flat, specs, origin)
+    study._warnings = _sweep_override_warnings(raw, flat, specs, origin) + _fluid_warnings(fluids, origin)
     if not errors and not allow_huge and study.n_cases > MAX_CASES:
         sizes = " x ".join(f"{n} {p}" for p, n in study.sweep_sizes.items())
         sizes = f"{sizes} x " if sizes else ""

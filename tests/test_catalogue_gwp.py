@@ -133,7 +133,9 @@ def test_zero_odp_reason_and_no_filter_leaves_nothing_out():
     """R123 ODP 0.02 (Montreal Protocol Annex C, from memory)."""
     left = F.selection(include=["R123", "R245fa"], zero_odp=True).left_out
     assert [x.line for x in left] == ["R123: ODP 0.02 not zero: left out by zero_odp"]
-    assert F.selection().left_out == ()
+    # without filters only the ozone-depleting families are left out (of "all"; Montreal Protocol)
+    assert {x.info.family for x in F.selection().left_out} == {"cfc", "hcfc"}
+    assert F.selection(include=["all", "cfc", "hcfc"]).left_out == ()
 
 
 def test_run_info_and_report_list_the_left_out_fluids():
