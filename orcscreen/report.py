@@ -97,7 +97,7 @@ class _RunData:
 #: is built with these only, from the store in chunks. Every column named in this module,
 #: orcscreen.plots, orcscreen.rank and the cautions must be here.
 REPORT_COLUMNS = (
-    "fluid", "display_name", "layout", "status", "reason", "net_power_kW", "turbine_power_kW",
+    "fluid", "display_name", "coolprop_name", "layout", "status", "reason", "net_power_kW", "turbine_power_kW",
     "pump_power_kW", "aux_power_kW", "heat_input_kW", "thermal_efficiency", "exergy_efficiency",
     "evaporation_pressure_bar", "evaporation_temperature_C", "condensing_pressure_bar",
     "condensing_temperature_C", "superheat_K", "turbine_inlet_pressure_bar", "turbine_inlet_temperature_C",
@@ -347,7 +347,7 @@ def fluid_cautions(row: Mapping) -> list[str]:
             out.append("Higher toxicity: exposure limits, detection and ventilation govern the "
                        "plant room.")
     else:
-        words = (f"{NOT_CLASSIFIED.capitalize()} in ASHRAE 34" if cls == "NONE"
+        words = (f"{NOT_CLASSIFIED.capitalize()} in ASHRAE 34" if cls in ("NONE", NOT_CLASSIFIED.upper())
                  else f"ASHRAE 34 safety class {UNKNOWN}")
         out.append(f"{words}: treat the fluid as flammable and toxic until its safety data sheet "
                    "says otherwise.")
@@ -638,7 +638,7 @@ def _ranking_section(data: _RunData, overview: list[FigureRecord]) -> str:
         for col, _, fmt in _RANK_COLUMNS:
             value = r.get(col)
             if col == "display_name":
-                value = value or r.get("fluid")
+                value = value if isinstance(value, str) and value else r.get("fluid")  # old stores: display_name
             if col in _CATALOGUE_SHOWN:
                 cells.append((_CATALOGUE_SHOWN[col](value), _sort_key(value)))
             elif fmt == "":
@@ -664,7 +664,7 @@ def _card(n: int, row: Mapping, detail: Mapping | None, figs: list[FigureRecord]
     parts = [f'<article class="card" id="card-{n}"><h3>{n}. {_e(label)} '
              f'<span class="power">{_fmt(row.get("net_power_kW"), ".1f")} kW net</span></h3>']
     facts = [
-        ("CoolProp name", row.get("fluid")), ("family", row.get("family")),
+        ("CoolProp name", row.get("coolprop_name") or row.get("fluid")), ("family", row.get("family")),
         ("curve type", row.get("curve_type")),
         ("safety class (ASHRAE 34)", safety_class_text(row.get("safety_class"))),
         ("GWP100", gwp_text(row.get("gwp100"))),

@@ -176,7 +176,7 @@ def test_ranking_table_follows_ranking_csv(built):
     head = table["head"]
     assert head[:5] == ["rank", "fluid", "layout", "warnings", "net power [kW]"]
     assert [int(r[0]) for r in table["rows"]] == ok["rank"].astype(int).tolist()
-    assert [r[1] for r in table["rows"]] == ok["display_name"].tolist()
+    assert [r[1] for r in table["rows"]] == ok["fluid"].tolist()
     assert [r[2] for r in table["rows"]] == ok["layout"].tolist()
     # the warnings next to the fluid, as in ranking.csv (the sub-atmospheric condensers here)
     assert [r[3] for r in table["rows"]] == ok["warnings"].fillna("").tolist()
