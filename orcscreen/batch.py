@@ -164,15 +164,16 @@ def failed_row(case, reason: str, elapsed_s: float | None = None) -> dict:
     """A contract row (section 2) for a case that could not be computed."""
     row = dict.fromkeys(ROW_COLUMNS)
     case = _plain(case)
-    row.update(fluid=case.get("fluid"), layout=case.get("layout"), status="failed",
+    row.update(fluid=case.get("fluid"), coolprop_name=case.get("fluid"), layout=case.get("layout"), status="failed",
                reason=reason, elapsed_s=elapsed_s)
     try:  # the catalogue facts of the fluid, so that a failed row still shows them
-        from orcscreen.fluids import get_info
+        from orcscreen.figures import fluid_names
+        from orcscreen.fluids import caution_text, get_info, safety_class_text
 
         info = get_info(str(case.get("fluid")))
-        row.update(display_name=info.display_name, family=info.family,
-                   safety_class=info.safety_class, gwp100=info.gwp100, odp=info.odp,
-                   curve_type=info.curve_type)
+        row.update(fluid_names(str(case.get("fluid")), info))
+        row.update(family=info.family, safety_class=safety_class_text(info.safety_class), gwp100=info.gwp100,
+                   odp=info.odp, curve_type=info.curve_type, caution=caution_text(info))
     except Exception:  # noqa: BLE001 - an unknown fluid keeps the bare row
         pass
     return row

@@ -119,7 +119,7 @@ def read_run(directory: str | os.PathLike[str]) -> RunFolder:
 
     ranking = path / RANKING_FILE
     try:
-        table = pd.read_csv(ranking, dtype={c: str for c in ("case_key", "fluid", "display_name", "layout",
+        table = pd.read_csv(ranking, dtype={c: str for c in ("case_key", "fluid", "coolprop_name", "display_name", "layout",
                                                               "status", "reason", "safety_class")},
                             keep_default_na=False, na_values=[""])
     except (pd.errors.ParserError, pd.errors.EmptyDataError, UnicodeDecodeError, ValueError) as exc:
@@ -130,6 +130,9 @@ def read_run(directory: str | os.PathLike[str]) -> RunFolder:
         shown = ", ".join(missing) if missing else "case_key as the first column"
         raise CompareError(f"{ranking}: no {shown}; allowed: the {RANKING_FILE} an `orcscreen run` writes "
                            f"(columns case_key, the swept values, rank, fluid, layout, status, ...)")
+    if "coolprop_name" in table:  # runs that name fluids for people: match on the CoolProp name
+        table["display_name"] = table["fluid"]
+        table["fluid"] = table["coolprop_name"].astype(str)
     table["rank"] = pd.to_numeric(table["rank"], errors="coerce").astype("Int64")
     for col in ("reason", "display_name"):
         if col in table:

@@ -15,16 +15,25 @@ from .annual import YEAR_COLUMNS, design_year_columns
 from .economics import ECONOMIC_COLUMNS
 from .cycles import LAYOUTS, CycleResult, Layout, saturation_dome
 from .cycles.base import P_ATM_PA, CycleSettings
+from .fluids import UNKNOWN, safety_class_text
 
-__all__ = ["ROW_COLUMNS", "COMMON_COLUMNS", "LAYOUT_COLUMNS", "result_row", "empty_row", "energy_figures", "case_detail"]
+__all__ = ["ROW_COLUMNS", "COMMON_COLUMNS", "LAYOUT_COLUMNS", "APPROACH_COLUMNS", "result_row", "empty_row", "fluid_names",
+           "energy_figures", "case_detail"]
 
 #: Area of each exchanger [m2], from its UA zone by zone (orcscreen.areas).
 AREA_COLUMNS = tuple(f"area_{e}_m2" for e in areas.EXCHANGERS)
 
-#: Columns every layout fills (DESIGN section 5). evaporation_* are NaN for a supercritical
+#: The approach each exchanger reached [K] (its smallest hot-minus-cold temperature difference),
+#: by exchanger: at least the study's pinch setting (exchangers.pinch_*_K), larger where another
+#: limit holds the exchanger back (a source outlet limit, a pressure limit, a recuperator's
+#: effectiveness).
+APPROACH_COLUMNS = {e: f"approach_{e}_K" for e in ("evaporator", "condenser", "recuperator")}
+
+#: Columns every layout fills (DESIGN section 5). fluid is the catalogue's display name (what a
+#: person reads), coolprop_name the name CoolProp and the study's case keys use. evaporation_* are NaN for a supercritical
 #: heater; turbine_inlet_pressure_bar is the highest cycle pressure in every layout.
 COMMON_COLUMNS = (
-    "fluid", "display_name", "layout", "status", "reason", "warnings", "caution",
+    "fluid", "coolprop_name", "layout", "status", "reason", "warnings", "caution",
     "net_power_kW", "turbine_power_kW", "pump_power_kW", "aux_power_kW", "heat_input_kW",
     "heat_rejected_kW", "recuperator_duty_kW", "thermal_efficiency", "exergy_efficiency",
     "carnot_efficiency", "heat_recovery_factor", "total_efficiency", "source_exergy_kW",
@@ -32,7 +41,7 @@ COMMON_COLUMNS = (
     "condensing_pressure_bar", "condensing_temperature_C", "superheat_K",
     "turbine_inlet_pressure_bar", "turbine_inlet_temperature_C", "turbine_outlet_temperature_C",
     "turbine_outlet_quality", "wf_mass_flow_kg_s", "sink_mass_flow_kg_s", "source_outlet_temperature_C",
-    "sink_temperature_rise_K", "pinch_location", "pinch_evaporator_K", "pinch_condenser_K", "pinch_recuperator_K", "ua_evaporator_kW_K",
+    "sink_temperature_rise_K", "pinch_location", *APPROACH_COLUMNS.values(), "ua_evaporator_kW_K",
     "ua_condenser_kW_K", "ua_recuperator_kW_K", "ua_total_kW_K", "size_parameter_m",
     "volume_ratio", "turbine_model", "turbine_stages", "volume_ratio_per_stage", "turbine_efficiency",
     *AREA_COLUMNS, "condenser_area_basis", *ECONOMIC_COLUMNS, *YEAR_COLUMNS,
@@ -47,12 +56,18 @@ LAYOUT_COLUMNS = tuple(dict.fromkeys(c for layout in LAYOUTS.values() for c in l
 ROW_COLUMNS = COMMON_COLUMNS + LAYOUT_COLUMNS + _TAIL_COLUMNS
 
 
+def fluid_names(fluid: str, info) -> dict:
+    """The row's fluid columns: the display name (fluid) and the CoolProp name (coolprop_name)
+    from the catalogue entry info; the case's own name for both when there is no entry."""
+    return {"fluid": getattr(info, "display_name", fluid), "coolprop_name": getattr(info, "coolprop_name", fluid)}
+
+
 def empty_row(fluid: str, layout: str, info, status: str, reason: str, elapsed: float, evaluations: int = 0) -> dict:
-    """A row without figures (infeasible or failed case), with the fluid's catalogue facts."""
+    """A row without figures (infeasible or failed case), with the fluid's catalogue facts
+    (fluid: the case's CoolProp name)."""
     row = {k: math.nan for k in ROW_COLUMNS}
     row.update(
-        fluid=fluid,
-        display_name=getattr(info, "display_name", fluid),
+        **fluid_names(fluid, info),
         layout=layout,
         status=status,
         reason=reason,
@@ -69,17 +84,20 @@ def empty_row(fluid: str, layout: str, info, status: str, reason: str, elapsed: 
 
 
 def _add_fluid_columns(row: dict, info, flag_condensing_below_Pa: float | None = None) -> None:
-    """The fluid's catalogue facts, its caution (orcscreen.fluids.caution_text, from the facts
-    and the row's condensing pressure) and, for an ozone-depleting fluid, its warning."""
+    """The fluid's catalogue facts (words as the catalogue displays them: one spelling of
+    "unknown" and "not classified", orcscreen.fluids.safety_class_text; numbers NaN when
+    unknown), its caution (orcscreen.fluids.caution_text, from the facts and the row's
+    condensing pressure) and, for an ozone-depleting fluid, its warning."""
     flag_bar = None if flag_condensing_below_Pa is None else flag_condensing_below_Pa / 1e5
     row["caution"] = fluids.caution_text(info, row, flag_bar)
     if info is None:
-        row.update(family="", safety_class="", gwp100=math.nan, odp=math.nan, curve_type="")
+        row.update(family=UNKNOWN, safety_class=safety_class_text(None), gwp100=math.nan, odp=math.nan,
+                   curve_type=UNKNOWN)
         return
     row["warnings"] = "; ".join(w for w in (row["warnings"], fluids.ozone_depleting_warning(info)) if w)
     row.update(
         family=info.family,
-        safety_class=info.safety_class,
+        safety_class=safety_class_text(info.safety_class),
         gwp100=math.nan if info.gwp100 is None else info.gwp100,
         odp=math.nan if info.odp is None else info.odp,
         curve_type=info.curve_type,
@@ -118,8 +136,7 @@ def result_row(fluid_name: str, layout: Layout, info, fluid, source, sink, r: Cy
     approach = {k: p.min_approach_K for k, p in prof.items()}
     row = {k: math.nan for k in ROW_COLUMNS}
     row.update({
-        "fluid": fluid_name,
-        "display_name": info.display_name,
+        **fluid_names(fluid_name, info),
         "layout": layout.name,
         "status": "ok",
         "reason": "",
@@ -145,9 +162,7 @@ def result_row(fluid_name: str, layout: Layout, info, fluid, source, sink, r: Cy
         "source_outlet_temperature_C": r.T_source_out_K - 273.15,
         "sink_temperature_rise_K": r.variables.get("sink_temperature_rise_K", getattr(sink, "rise_K", math.nan)),
         "pinch_location": r.pinch_location,
-        "pinch_evaporator_K": approach.get("evaporator", math.nan),
-        "pinch_condenser_K": approach.get("condenser", math.nan),
-        "pinch_recuperator_K": approach.get("recuperator", math.nan),
+        **{col: approach.get(e, math.nan) for e, col in APPROACH_COLUMNS.items()},
         "ua_evaporator_kW_K": ua.get("evaporator", math.nan),
         "ua_condenser_kW_K": ua.get("condenser", math.nan),
         "ua_recuperator_kW_K": ua.get("recuperator", math.nan),

@@ -38,7 +38,7 @@ from .cycles import CycleContext, CycleResult, Layout, Variable, Window, reset_g
 from .case_variables import with_case_variables
 from .objectives import score
 
-__all__ = ["Optimum", "optimise", "COND_TOL_SEARCH_K"]
+__all__ = ["Optimum", "optimise", "COND_TOL_SEARCH_K", "INTERIOR", "SOURCE_OUTLET_LIMIT"]
 
 #: Tolerance on the condensing temperature during the scan and the search [K]: it moves the net
 #: power by a few 1e-5 at most, which shifts the located optimum by far less than the variables'
@@ -55,14 +55,24 @@ EXACT_REFINE_RTOL = 2e-5
 #: SEARCH_ZONE_SEGMENTS per zone, against the reported ones; measured 1e-7 to 2e-4 apart except
 #: close to the critical point, where the search is then redone on the reported model.
 SCORE_REFINE_RTOL = 2e-4
+#: The binding limit of an optimum whose free variables sit on no bound and no edge.
+INTERIOR = "none (interior optimum)"
+#: Name of the source outlet limit as a binding limit (the heater's pinch location says the same).
+SOURCE_OUTLET_LIMIT = "source outlet limit"
+#: The source leaves at its minimum outlet temperature when it is this close to it [K]: the
+#: flow closure meets the limit to round-off, and an optimum at the kink between the limit and
+#: the pinch is located to 2e-3 K of evaporation temperature (common practice: a tolerance
+#: well above the solver's and well below anything an engineer would read as a margin).
+SOURCE_OUTLET_TOL_K = 1e-2
 
 
 @dataclass
 class Optimum:
     """Result of one fluid-layout optimisation.
 
-    cycle: the optimum, evaluated on the discretised profiles; binding_limit: the limit the
-    optimum sits on, in words; evaluations: cycle evaluations spent. scan_*: the bracketing scan
+    cycle: the optimum, evaluated on the discretised profiles; binding_limit: the limits the
+    optimum sits on, in words, joined by "; " (a variable's bound or feasible edge, the source
+    outlet limit), INTERIOR when none; evaluations: cycle evaluations spent. scan_*: the bracketing scan
     of the innermost variable at the optimum's outer values (SI values, net power [W], limit).
     """
 
@@ -247,16 +257,17 @@ def _scan_and_refine(obj: _Objective, w: Window, n_scan: int):
         x_far = _refine(obj.power, lo, hi, xatol)
         if obj.power(x_far) > obj.power(x_opt):
             x_opt, a, b, lower_edge, upper_edge = x_far, lo, hi, "turbine stage count", "turbine stage count"
-    if upper_edge is not None and x_opt >= b - 10 * xatol:
+    sits = lambda end: _sits_on(obj.power, x_opt, end, xatol)  # noqa: E731
+    if upper_edge is not None and sits(b):
         limit = upper_edge
-    elif lower_edge is not None and x_opt <= a + 10 * xatol:
+    elif lower_edge is not None and sits(a):
         limit = lower_edge
-    elif x_opt >= w.hi - 10 * xatol:
+    elif sits(w.hi):
         limit = w.hi_name
-    elif x_opt <= w.lo + 10 * xatol:
+    elif sits(w.lo):
         limit = w.lo_name
     else:
-        limit = "none (interior optimum)"
+        limit = INTERIOR
     return x_opt, limit, scan
 
 
@@ -401,16 +412,17 @@ def _optimise_nested(layout: Layout, ctx: CycleContext, variables: tuple[Variabl
         total += obj.n
         if (x - a < 10 * tol and not edge_a and a > wi.lo) or (b - x < 10 * tol and not edge_b and b < wi.hi):
             return inner(v)
-        if edge_b and b - x < 10 * tol:
+        sits = lambda end: _sits_on(obj.power, x, end, tol)  # noqa: E731
+        if edge_b and sits(b):
             limit = name_b
-        elif edge_a and x - a < 10 * tol:
+        elif edge_a and sits(a):
             limit = name_a
-        elif x >= wi.hi - 10 * tol:
+        elif sits(wi.hi):
             limit = wi.hi_name
-        elif x <= wi.lo + 10 * tol:
+        elif sits(wi.lo):
             limit = wi.lo_name
         else:
-            limit = "none (interior optimum)"
+            limit = INTERIOR
         memo[v] = (obj(x), limit, obj.n, ([], [], []))
         return memo[v]
 
@@ -442,9 +454,9 @@ def _optimise_nested(layout: Layout, ctx: CycleContext, variables: tuple[Variabl
         return None, inner(float(grid[0]))[1], total, ([], [], [])
     i = int(np.argmax(W))
     best = float(grid[i])
+    near_power = lambda v: power(v, near=True)  # noqa: E731
     if len(grid) > 1:
         a, b = float(grid[max(i - 1, 0)]), float(grid[min(i + 1, len(grid) - 1)])
-        near_power = lambda v: power(v, near=True)  # noqa: E731
         x = _at_bound(near_power, grid, i, outer.xatol) if outer.scan_from_top else None
         if x is None:
             x = _refine_across_regimes(near_power, lambda v: inner_near(v)[0], a, best, b, outer.xatol)
@@ -469,7 +481,7 @@ def _optimise_nested(layout: Layout, ctx: CycleContext, variables: tuple[Variabl
         total += n
     if r is None:
         return None, limit, total, scan
-    return r, _with_bound(limit, outer, w, best), total, scan
+    return r, _with_bound(limit, outer, w, best, near_power), total, scan
 
 
 def _refine_across_regimes(power, result_at, a: float, x_best: float, b: float, xatol: float) -> float:
@@ -511,13 +523,38 @@ def _at_bound(power, grid, i: int, xatol: float) -> float | None:
     return None
 
 
-def _with_bound(limit: str, var: Variable, w: Window, x: float) -> str:
-    """The binding limit of an inner optimum, with the outer variable's bound if it sits on one."""
+def _sits_on(power, x: float, end: float, xatol: float) -> bool:
+    """True when the optimum x sits on the bound or edge ``end``: within 10 xatol of it and the
+    objective there at least as good as at x. An optimum the search found strictly better than
+    the bound close by is an interior one (the bound does not hold it back)."""
+    return x == end or (abs(x - end) <= 10 * xatol and power(end) >= power(x))
+
+
+def _joined(*limits: str) -> str:
+    """Binding limits joined with "; " (each once, in order); INTERIOR when none binds."""
+    named = [p for limit in limits for p in limit.split("; ") if p and p != INTERIOR]
+    return "; ".join(dict.fromkeys(named)) or INTERIOR
+
+
+def _with_bound(limit: str, var: Variable, w: Window, x: float, power) -> str:
+    """The binding limit of an inner optimum, with the outer variable's bound if it sits on one
+    (power: the objective of the outer variable, larger is better)."""
     if w.hi > w.lo:
-        bound = w.hi_name if x >= w.hi - 10 * var.xatol else w.lo_name if x <= w.lo + 10 * var.xatol else ""
+        bound = w.hi_name if _sits_on(power, x, w.hi, var.xatol) else w.lo_name if _sits_on(power, x, w.lo, var.xatol) else ""
         if bound:
-            return bound if limit.startswith("none") else f"{limit}; {bound}"
+            return _joined(limit, bound)
     return limit
+
+
+def _source_outlet_binding(r: CycleResult, ctx: CycleContext, limit: str) -> str:
+    """The binding limit with the source outlet limit in front when the source leaves at its
+    minimum outlet temperature (within SOURCE_OUTLET_TOL_K): the heater's flow is then held by
+    that limit (alone, or with the pinch at the optimum's kink), whatever the free variables."""
+    T_min = getattr(ctx.source, "T_out_min_K", None)
+    T_out = getattr(r, "T_source_out_K", math.nan)
+    if T_min is None or not T_out <= T_min + SOURCE_OUTLET_TOL_K:
+        return limit
+    return _joined(SOURCE_OUTLET_LIMIT, limit)
 
 
 def optimise(layout: Layout, ctx: CycleContext) -> Optimum | tuple[None, str, int]:
@@ -538,7 +575,7 @@ def optimise(layout: Layout, ctx: CycleContext) -> Optimum | tuple[None, str, in
     if r is None:
         return None, limit, n
     r, limit, n, scan = _stages_for_cost(layout, ctx, variables, (r, limit, n, scan))
-    return Optimum(r, limit, n, variables[0], *scan)
+    return Optimum(r, _source_outlet_binding(r, ctx, limit), n, variables[0], *scan)
 
 
 def _stages_for_cost(layout: Layout, ctx: CycleContext, variables, found: tuple) -> tuple:
@@ -563,5 +600,5 @@ def _stages_for_cost(layout: Layout, ctx: CycleContext, variables, found: tuple)
         r_k, limit_k, n_k, scan_k = _optimise_nested(layout, at_k, variables, {}, polish=True)
         n += n_k
         if r_k is not None and score(r_k, at_k) > score(best[0], ctx):
-            best = (r_k, f"{limit_k}; {k} turbine stages pay for themselves", n, scan_k)
+            best = (r_k, _joined(limit_k, f"{k} turbine stages pay for themselves"), n, scan_k)
     return best[0], best[1], n, best[3]

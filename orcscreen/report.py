@@ -104,7 +104,7 @@ class _RunData:
 #: is built with these only, from the store in chunks. Every column named in this module,
 #: orcscreen.plots, orcscreen.rank and the cautions must be here.
 REPORT_COLUMNS = (
-    "fluid", "display_name", "layout", "status", "reason", "net_power_kW", "turbine_power_kW",
+    "fluid", "display_name", "coolprop_name", "layout", "status", "reason", "net_power_kW", "turbine_power_kW",
     "pump_power_kW", "aux_power_kW", "heat_input_kW", "thermal_efficiency", "exergy_efficiency",
     "evaporation_pressure_bar", "evaporation_temperature_C", "condensing_pressure_bar",
     "condensing_temperature_C", "superheat_K", "turbine_inlet_pressure_bar", "turbine_inlet_temperature_C",
@@ -369,7 +369,7 @@ def fluid_cautions(row: Mapping) -> list[str]:
             out.append("Higher toxicity: exposure limits, detection and ventilation govern the "
                        "plant room.")
     else:
-        words = (f"{NOT_CLASSIFIED.capitalize()} in ASHRAE 34" if cls == "NONE"
+        words = (f"{NOT_CLASSIFIED.capitalize()} in ASHRAE 34" if cls in ("NONE", NOT_CLASSIFIED.upper())
                  else f"ASHRAE 34 safety class {UNKNOWN}")
         out.append(f"{words}: treat the fluid as flammable and toxic until its safety data sheet "
                    "says otherwise.")
@@ -736,37 +736,20 @@ def _ranking_section(data: _RunData, overview: list[FigureRecord]) -> str:
                             if figs else ""))
 
 
-#: Flammability and toxicity of the ASHRAE 34 class in the fewest words, for the table.
-_FLAMMABILITY_SHORT = {"1": "", "2L": "mildly flammable", "2": "flammable", "3": "highly flammable"}
-#: GWP100 above which the table says "high GWP": the limit of the EU F-gas Regulation (EU)
-#: No 517/2014, Annex III, for several kinds of new equipment (from memory).
-HIGH_GWP = 150.0
-
-
 def short_caution(row: Mapping) -> str:
-    """A case's caution in a few plain words, for the ranking table: the row's ``caution``
-    column when the catalogue gives one, else from the ASHRAE 34 class (ANSI/ASHRAE 34), the
-    GWP100, the ODP and a vacuum condenser. "" when none applies."""
+    """A case's caution in plain words: the row's ``caution`` column (orcscreen.fluids.caution_text,
+    the one rule), or for a run stored before that column the same function on the catalogue's
+    facts of the row's fluid."""
     given = row.get("caution")
     if isinstance(given, str) and given.strip():
         return given.strip()
-    words = []
-    cls = str(row.get("safety_class") or "").strip().upper()
-    if cls and cls[0] in _TOXICITY and cls[1:] in _FLAMMABILITY:
-        if _FLAMMABILITY_SHORT[cls[1:]]:
-            words.append(_FLAMMABILITY_SHORT[cls[1:]])
-        if cls[0] == "B":
-            words.append("toxic")
-    else:
-        words.append("safety class unknown: treat as flammable and toxic")
-    gwp = _num(row.get("gwp100"))
-    if math.isfinite(gwp) and gwp > HIGH_GWP:
-        words.append("high GWP")
-    if math.isfinite(_num(row.get("odp"))) and _num(row.get("odp")) > 0:
-        words.append("ozone-depleting")
-    if _truthy(row.get("sub_atmospheric_condenser")):
-        words.append("vacuum condenser")
-    return ", ".join(words)
+    from orcscreen import fluids
+
+    try:
+        info = fluids.get_info(str(row.get("coolprop_name") or row.get("fluid")))
+    except ValueError:
+        info = None
+    return fluids.caution_text(info, row)
 
 
 def _study_line(data: _RunData) -> str:
@@ -826,7 +809,7 @@ def _card(n: int, row: Mapping, detail: Mapping | None, figs: list[FigureRecord]
     parts = [f'<article class="card" id="card-{n}"><h3>{n}. {_e(label)} '
              f'<span class="power">{_fmt(row.get("net_power_kW"), ".1f")} kW net</span></h3>']
     facts = [
-        ("CoolProp name", row.get("fluid")), ("family", row.get("family")),
+        ("CoolProp name", row.get("coolprop_name") or row.get("fluid")), ("family", row.get("family")),
         ("curve type", row.get("curve_type")),
         ("safety class (ASHRAE 34)", safety_class_text(row.get("safety_class"))),
         ("GWP100", gwp_text(row.get("gwp100"))),

@@ -58,5 +58,5 @@ def test_a_cost_optimum_has_a_small_evaporator_pinch_and_a_large_condenser_pinch
     free = _row({"kind": "water"}, fluid, exchangers={"pinch_evaporator_K": "optimise", "pinch_condenser_K": "optimise"},
                 **econ)
     fixed = _row({"kind": "water"}, fluid, **econ)
-    assert free["pinch_evaporator_K"] < free["pinch_condenser_K"]
+    assert free["approach_evaporator_K"] < free["approach_condenser_K"]
     assert free["lcoe_per_MWh"] <= fixed["lcoe_per_MWh"] * (1 + 5e-4)

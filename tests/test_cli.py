@@ -324,7 +324,7 @@ def test_run_end_to_end_and_resume(capsys, tmp_path):
     assert (out_dir / "ranking.csv").is_file() and (out_dir / "run.sqlite").is_file()
     rows = list(csv.DictReader(io.StringIO((out_dir / "ranking.csv").read_text())))
     assert len(rows) == 4
-    assert {r["fluid"] for r in rows} == {"R245fa", "n-Pentane"}
+    assert {r["coolprop_name"] for r in rows} == {"R245fa", "n-Pentane"}
     assert {r["sink.inlet_temperature_C"] for r in rows} == {"15", "25"}
     assert "Preliminary screening, not a design" in out
     assert "ok" in out

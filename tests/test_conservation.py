@@ -106,6 +106,8 @@ def test_pinch_respected_on_engine_profiles(demo_results):
         for name, prof in ex.items():
             dT = np.array(prof["T_hot_C"]) - np.array(prof["T_cold_C"])
             assert dT.min() >= wanted[name] - 1e-6, (row["fluid"], row["layout"], name, dT.min())
+            # the row reports the approach reached, under its own name (not the setting's)
+            assert row[f"approach_{name}_K"] == pytest.approx(dT.min(), abs=1e-9), (row["fluid"], name)
         T_out_min = case["source"].get("min_outlet_temperature_C")
         if T_out_min is not None:
             assert row["source_outlet_temperature_C"] >= T_out_min - 1e-6
@@ -120,7 +122,7 @@ def test_evaporator_pinch_on_independent_fine_profile(demo_results):
     """
     for case, row, detail in demo_results:
         st = _states(detail)
-        fluid = get_fluid(row["fluid"])
+        fluid = get_fluid(row["coolprop_name"])  # the row's fluid is the catalogue's display name
         src = streams.source_from_settings(case["source"])
         p = st["3"]["p_bar"] * 1e5
         h_in = st.get("2r", st["2"])["h_kJ_kg"] * 1e3

@@ -146,5 +146,5 @@ def test_screen_api_returns_ranked_frame():
     })
     ok = df[df["status"] == "ok"]
     assert list(ok["net_power_kW"]) == sorted(ok["net_power_kW"], reverse=True)
-    assert set(df["fluid"]) == {"R245fa", "IsoButane", "Water"}
+    assert set(df["coolprop_name"]) == {"R245fa", "IsoButane", "Water"}
     assert all(df.loc[df["status"] != "ok", "reason"].str.len() > 0)

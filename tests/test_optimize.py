@@ -157,3 +157,81 @@ def test_a_case_does_not_depend_on_what_ran_before():
     again = run_case(cases[5])["row"]
     first.pop("elapsed_s"), again.pop("elapsed_s")
     assert repr(first) == repr(again)
+
+
+# -- binding limit: the column names the limit the optimum sits on ----------------------------
+# Reference: direct evaluations of the same (discretised) model a little inside and outside each
+# bound; no published value is involved. A limit is named when relaxing it would raise the net
+# power, and an optimum is "interior" when moving any variable a little either way lowers it.
+
+def _oil_cases(fluids_, layouts=("basic",)):
+    raw = tomllib.loads((STUDIES / "thermal-oil-loop.toml").read_text(encoding="utf-8"))
+    raw["fluids"] = {"include": list(fluids_)}
+    raw["cycle"]["layouts"] = list(layouts)
+    return list(study_from_dict(raw).cases())
+
+
+def _net_W(ctx, layout, x):
+    r = layout.evaluate(ctx, x, exact=True)
+    assert r.ok, r.reason
+    return r.W_net_W
+
+
+def test_binding_limit_names_the_superheat_cap_and_the_source_outlet_minimum():
+    """studies/thermal-oil-loop.toml, isobutane basic: the optimum sits at the 40 K superheat cap
+    and the oil leaves at its 160 °C minimum. Both limits are named, and both bind: at the
+    optimum's evaporation temperature 1 K more superheat gives more net power and 1 K less gives
+    less; the same cycle with the oil allowed 1 K colder (more flow) gives more net power."""
+    (case,) = _oil_cases(["IsoButane"])
+    ctx, layout = _case_objects(case)
+    opt = optimise(layout, ctx)
+    x = dict(opt.cycle.variables)
+    assert x["superheat_K"] == ctx.settings.max_superheat_K == 40.0
+    assert "max superheat" in opt.binding_limit.split("; "), opt.binding_limit
+    assert "source outlet limit" in opt.binding_limit.split("; "), opt.binding_limit
+    assert abs(opt.cycle.T_source_out_K - ctx.source.T_out_min_K) < 1e-2
+    W = _net_W(ctx, layout, x)
+    assert _net_W(ctx, layout, {**x, "superheat_K": 41.0}) > W > _net_W(ctx, layout, {**x, "superheat_K": 39.0})
+    looser = case.as_dict()
+    looser["source"]["min_outlet_temperature_C"] = 159.0
+    ctx_looser = case_context(type(case).from_dict(looser), fluids.get_info(case.fluid))
+    assert _net_W(ctx_looser, layout, x) > W
+
+
+def test_binding_limit_says_a_bound_only_where_the_variable_sits_on_it():
+    """studies/thermal-oil-loop.toml, basic layout, four fluids (two on the superheat cap or at
+    no superheat, two with the superheat in between): a bound of the superheat is named exactly
+    when the optimum's superheat is that bound, and the source outlet limit exactly when the oil
+    leaves within 0.01 K of its minimum. (n-hexane once read "no superheat" at 0.71 K: an optimum
+    strictly better than the bound 0.7 K away is an interior one for that variable.)"""
+    for case in _oil_cases(["n-Hexane", "IsoButane", "Cyclopentane", "Toluene"]):
+        ctx, layout = _case_objects(case)
+        opt = optimise(layout, ctx)
+        named = opt.binding_limit.split("; ")
+        sh = opt.cycle.variables["superheat_K"]
+        assert ("max superheat" in named) == (sh == ctx.settings.max_superheat_K), (case.fluid, sh, named)
+        assert ("no superheat" in named) == (sh == 0.0), (case.fluid, sh, named)
+        at_min = opt.cycle.T_source_out_K - ctx.source.T_out_min_K < 1e-2
+        assert ("source outlet limit" in named) == at_min, (case.fluid, opt.cycle.T_source_out_K, named)
+
+
+def test_binding_limit_says_interior_for_an_interior_optimum():
+    """Water at 120 °C without an outlet limit, R245fa basic with no superheat: the evaporation
+    temperature's optimum lies inside its window (a classic optimum of heat recovered against
+    cycle efficiency, common practice) and the column says so; checked by evaluating 0.5 K either
+    side, both lower."""
+    study = study_from_dict({
+        "source": {"kind": "water", "inlet_temperature_C": 120.0, "mass_flow_kg_s": 10.0, "pressure_bar": 5.0},
+        "sink": {"kind": "water", "inlet_temperature_C": 20.0, "temperature_rise_K": 8.0},
+        "cycle": {"layouts": ["basic"], "superheat_K": 0.0},
+        "fluids": {"include": ["R245fa"]},
+    })
+    (case,) = study.cases()
+    ctx, layout = _case_objects(case)
+    opt = optimise(layout, ctx)
+    assert opt.binding_limit == "none (interior optimum)", opt.binding_limit
+    x = dict(opt.cycle.variables)
+    T = x["evaporation_temperature_K"]
+    W = _net_W(ctx, layout, x)
+    for dT in (-0.5, 0.5):
+        assert _net_W(ctx, layout, {**x, "evaporation_temperature_K": T + dT}) < W

@@ -217,5 +217,5 @@ def test_installed_wheel_lists_fluids_and_runs_a_study_outside_the_checkout(buil
     assert run_cmd.returncode == 0, run_cmd.stderr
     with open(run_dir / "out" / "ranking.csv", newline="", encoding="utf-8") as f:
         rows = list(csv.DictReader(f))
-    assert sorted((r["fluid"], r["layout"], r["status"]) for r in rows) == sorted(
+    assert sorted((r["coolprop_name"], r["layout"], r["status"]) for r in rows) == sorted(
         (fluid, layout, "ok") for fluid in ("R245fa", "n-Pentane") for layout in ("basic", "recuperated"))

@@ -344,7 +344,7 @@ def test_turbine_map_plots_every_feasible_case_and_rings_the_best(run):
     rings = [tuple(c.get_offsets()[0]) for c in ax.collections if c.get_gid() == "top-case"]
     np.testing.assert_allclose(sorted(rings), sorted(zip(top["size_parameter_m"], top["turbine_efficiency"])))
     labels = [t.get_text() for t in ax.texts if t.get_gid() == "top-label"]
-    assert sorted(labels) == sorted(f"{int(r['rank'])} {r['display_name']}" for _, r in top.iterrows())
+    assert sorted(labels) == sorted(f"{int(r['rank'])} {r['fluid']}" for _, r in top.iterrows())
     assert ax.get_xscale() == "log"
     _assert_units(ax)
 
@@ -411,7 +411,7 @@ def test_best_fluid_map_names_the_best_case_in_each_cell(sweep_run):
                 assert text == "none\nfeasible"
                 continue
             best = point.loc[point["net_power_kW"].idxmax()]
-            assert text.splitlines()[0] == best["display_name"]
+            assert text.splitlines()[0] == best["fluid"]
             assert text.splitlines()[-1] == f"{best['net_power_kW']:.0f} kW"
     _assert_units(ax)
 

@@ -180,7 +180,7 @@ def test_ranking_table_follows_ranking_csv(built):
                    "safety class", "GWP100", "caution", "evaporator pinch", "warnings"):
         assert wanted in head
     assert [int(r[0]) for r in table["rows"]] == ok["rank"].astype(int).tolist()
-    assert [r[1] for r in table["rows"]] == ok["display_name"].tolist()
+    assert [r[1] for r in table["rows"]] == ok["fluid"].tolist()
     assert [r[2].split(" (")[0] for r in table["rows"]] == ok["layout"].tolist()
     # the warnings, as in ranking.csv (the sub-atmospheric condensers here)
     col = head.index("warnings")

@@ -45,7 +45,7 @@ T_IN = "source.inlet_temperature_C"
 def make_result(fluid, layout="basic", status="ok", power=None, reason="", **extra):
     """A result shaped like run_case's: every contract row column, most of them None."""
     row = dict.fromkeys(ROW_COLUMNS)
-    row.update(fluid=fluid, display_name=fluid.upper(), layout=layout, status=status,
+    row.update(fluid=fluid, coolprop_name=fluid.upper(), layout=layout, status=status,
                reason=reason if status != "ok" else "", net_power_kW=power, evaluations=7,
                elapsed_s=0.01)
     row.update(extra)
@@ -304,7 +304,8 @@ def test_top_table_lists_best_cases(tmp_path):
     table = summary.table()
     lines = text.splitlines()
     assert lines[0] == "best 3 of 12 cases by net power over 2 operating points"
-    assert "R245FA" in lines[2] and "71.5" in lines[2]  # overall best first
+    # overall best first, by the name a person reads (fluid), not the CoolProp name (coolprop_name)
+    assert "R245fa" in lines[2] and "R245FA" not in lines[2] and "71.5" in lines[2]
     assert lines[-1] == "ok 10, infeasible 1, failed 1"
     one = top_table(table[table[T_IN] == 120.0].reset_index(drop=True), n=10)
     assert one.splitlines()[0] == "best 4 of 6 cases by net power"
@@ -318,8 +319,8 @@ def test_top_table_shows_the_warnings_of_the_listed_cases_next_to_them(tmp_path)
     text = top_table(write_outputs(tmp_path), n=2)
     lines = text.splitlines()
     at = lines.index("warnings (soft limits passed; the results stand):")
-    assert lines[at + 1:at + 3] == ["  #2 R134A · basic: first note", "  #2 R134A · basic: second note"]
-    assert "not listed" not in text and "R1234YF · basic:" not in text
+    assert lines[at + 1:at + 3] == ["  #2 R134a · basic: first note", "  #2 R134a · basic: second note"]
+    assert "not listed" not in text and "R1234yf · basic:" not in text
 
 
 def test_write_outputs_needs_a_store(tmp_path):
