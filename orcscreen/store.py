@@ -303,7 +303,7 @@ def encode_case(key: str, index: int | None, result: Mapping[str, Any],
         elapsed_s = result.get("elapsed_s", row.get("elapsed_s"))
     if elapsed_s is not None and not math.isfinite(float(elapsed_s)):
         elapsed_s = None
-    return EncodedCase(key, index, row.get("fluid"), row.get("layout"), to_json(dict(sweep)),
+    return EncodedCase(key, index, row.get("coolprop_name") or row.get("fluid"), row.get("layout"), to_json(dict(sweep)),
                        _status_of(row), str(row.get("reason") or ""), to_json(row),
                        to_json(result.get("detail")),
                        None if elapsed_s is None else float(elapsed_s), _now())

@@ -187,7 +187,7 @@ def test_raising_and_hanging_cases_are_recorded_and_the_batch_goes_on(reference,
     summary = run_study(study, tmp_path, jobs=1, progress=False)  # serial: the double is used
     assert summary.failed == 4 and summary.computed == 8
     with RunStore(tmp_path) as store:
-        rows = store.rows().set_index("fluid")
+        rows = store.rows().set_index("coolprop_name")
     iso, pentane = rows.loc["IsoButane"], rows.loc["n-Pentane"]
     assert (iso["status"] == "failed").all()
     assert (iso["safety_class"] == "A3").all()  # catalogue facts kept (ASHRAE 34: R600a is A3)
@@ -394,7 +394,7 @@ def test_forked_workers_isolate_failures_and_time_limits(tmp_path, monkeypatch):
     summary = run_study(study, tmp_path, jobs=2, progress=False)
     assert summary.workers == "forked"
     assert (summary.failed, summary.computed) == (4, 8)
-    rows = store_rows(tmp_path).set_index("fluid")
+    rows = store_rows(tmp_path).set_index("coolprop_name")
     assert (rows.loc["IsoButane", "reason"] == "RuntimeError: deliberate failure for the test").all()
     assert (rows.loc["n-Pentane", "reason"] == "time limit of 0.3 s exceeded").all()
     assert set(rows.loc[["R245fa", "R134a"], "status"]) <= {"ok", "infeasible"}

@@ -199,4 +199,4 @@ def test_run_writes_a_caution_for_every_case_and_prints_one_per_fluid(capsys, tm
     block = out.split("cautions (", 1)[1].split("\n\n", 1)[0]
     for row in rows:
         if row["status"] == "ok":
-            assert f"  {row['display_name']}: {row['caution']}" in block, (row["display_name"], block)
+            assert f"  {row['fluid']}: {row['caution']}" in block, (row["fluid"], block)

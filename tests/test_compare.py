@@ -70,9 +70,10 @@ def runs(tmp_path_factory):
 
 
 def _rows(directory: Path) -> dict[tuple[str, str, str], dict]:
-    """ranking.csv by (swept value as written, fluid, layout), read with the csv module."""
+    """ranking.csv by (swept value as written, fluid, layout), read with the csv module; the fluid
+    by its CoolProp name, on which compare matches runs."""
     with open(directory / "ranking.csv", newline="", encoding="utf-8") as f:
-        return {(r[SWEPT], r["fluid"], r["layout"]): r for r in csv.DictReader(f)}
+        return {(r[SWEPT], r.get("coolprop_name") or r["fluid"], r["layout"]): r for r in csv.DictReader(f)}
 
 
 def _key(r) -> tuple[str, str, str]:

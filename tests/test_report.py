@@ -222,7 +222,7 @@ def test_the_answer_comes_first(built):
     csv = pd.read_csv(out / "ranking.csv")
     best = csv[csv["rank"] == 1].iloc[0]
     candidates = re.sub(r"\s+", " ", re.sub(r"<[^>]+>", "", text[at["candidates"]:at["ranking"]]))
-    assert f"1. {best['display_name']}" in candidates or f"{best['display_name']} ·" in candidates
+    assert f"1. {best['fluid']}" in candidates or f"{best['fluid']} ·" in candidates
     assert f"{best['net_power_kW']:.1f} kW net" in candidates
 
 

@@ -157,7 +157,7 @@ def test_a_worker_killed_inside_a_case_fails_that_case_and_the_batch_completes(r
         with RunStore(tmp_path / f"out{jobs}") as store:
             rows = store.rows()
         failed = rows[rows["status"] == "failed"]
-        assert set(zip(failed["fluid"], failed["layout"])) == {("IsoButane", "basic")}
+        assert set(zip(failed["coolprop_name"], failed["layout"])) == {("IsoButane", "basic")}
         assert failed["reason"].str.contains("worker process died").all()
         assert failed["reason"].str.contains("SIGKILL").all()
         assert set(rows.loc[rows["status"] != "failed", "status"]) <= {"ok", "infeasible"}
