@@ -46,6 +46,8 @@ def _cmd_run(args: argparse.Namespace) -> int:
     from orcscreen.study import load_study
 
     study = load_study(args.study, allow_huge=args.yes)
+    if args.rank_by is not None:
+        study = _with_rank_by(study, args.rank_by, args.study)
     _print_warnings(study)
     from orcscreen import batch, outputs  # after validation: batch loads the engine
 
@@ -62,6 +64,40 @@ def _cmd_run(args: argparse.Namespace) -> int:
         _build_report_quietly(out_dir)
     print(CAUTION_LINE)
     return EXIT_OK
+
+
+def _rank_by_names(text: str) -> list[str]:
+    """``--rank-by a,b,c``: criterion names (orcscreen.objectives.CRITERIA), in order."""
+    from orcscreen.objectives import CRITERIA
+
+    names = [n.strip() for n in text.split(",") if n.strip()]
+    unknown = [n for n in names if n not in CRITERIA]
+    if unknown or not names:
+        shown = ", ".join(repr(n) for n in unknown) or repr(text)
+        raise argparse.ArgumentTypeError(
+            f"{shown}: not a ranking criterion; allowed: criterion names separated by commas, from "
+            + ", ".join(CRITERIA))
+    return names
+
+
+def _rank_by_problems(names: list[str], study: dict, origin: str) -> None:
+    """Refuse (exit 2) criteria of ``--rank-by`` whose study keys are unset (a year, a price)."""
+    from orcscreen.objectives import DEFAULT_OBJECTIVE
+    from orcscreen.study import StudyError, criterion_problems
+
+    objective = ((study.get("study") or {}).get("objective")) or DEFAULT_OBJECTIVE
+    lines = criterion_problems({f"--rank-by[{i}]": n for i, n in enumerate(names) if n != objective},
+                               study, origin)
+    if lines:
+        raise StudyError(lines)
+
+
+def _with_rank_by(study: Any, names: list[str], origin: str) -> Any:
+    """The study with ``study.rank_by`` replaced by ``--rank-by`` (outputs only: no case is
+    computed again), after checking that the criteria have what they need."""
+    _rank_by_problems(names, study.model_dump(mode="python", by_alias=True), origin)
+    section = study.study.model_copy(update={"rank_by": list(names)})
+    return study.model_copy(update={"study": section})
 
 
 def _print_warnings(study: Any) -> None:
@@ -188,7 +224,15 @@ def _cmd_report(args: argparse.Namespace) -> int:
             raise UsageError("this orcscreen has no report module yet; ranking.csv in the run "
                              "directory holds the results") from None
         raise
-    path = report.build_report(out_dir, svg=args.svg) if args.svg else report.build_report(out_dir)
+    options: dict[str, Any] = {"svg": True} if args.svg else {}
+    if args.rank_by is not None:
+        from orcscreen.store import RunStore
+
+        with RunStore(out_dir, create=False) as run_store:
+            stored = run_store.meta().get("study") or {}
+        _rank_by_problems(args.rank_by, stored, str(store))
+        options["rank_by"] = args.rank_by
+    path = report.build_report(out_dir, **options)
     print(f"report: {path if path else out_dir / 'report.html'} "
           f"(store read {getattr(report, 'READ_MODE', 'as found')})")
     print(CAUTION_LINE)
@@ -277,7 +321,8 @@ def build_parser() -> argparse.ArgumentParser:
         "run", help="run a study and write ranking.csv, the run store, charts and report",
         description="Run every case of a study (resuming from DIR/run.sqlite), write the outputs and "
         "print the top of the ranking.",
-        epilog="example:\n  orcscreen run studies/geothermal-brine.toml --out out/brine --jobs 2\n\n"
+        epilog="example:\n  orcscreen run studies/geothermal-brine.toml --out out/brine --jobs 2\n"
+        "  orcscreen run studies/demo.toml --rank-by exergy_efficiency,size_parameter\n\n"
         "Running the same command again resumes: ok and infeasible cases are not computed again,\n"
         "failed ones are retried (--keep-failed keeps them as they are).",
         formatter_class=fmt,
@@ -290,6 +335,10 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--yes", action="store_true", help="allow a study of more than 1,000,000 cases")
     p.add_argument("--no-report", action="store_true", help="skip the charts and report.html")
     p.add_argument("--top", type=_positive_int, default=10, metavar="N", help="rows of the ranking to print (default 10)")
+    p.add_argument("--rank-by", type=_rank_by_names, metavar="A,B,C",
+                   help="criteria the outputs rank by after the study's objective, instead of "
+                   "study.rank_by (e.g. net_power,exergy_efficiency,size_parameter); computes no "
+                   "case again")
     p.add_argument("--keep-failed", action="store_true",
                    help="do not compute again the cases stored as failed by an earlier run into DIR "
                    "(by default they are retried; ok and infeasible cases are never recomputed)")
@@ -336,12 +385,17 @@ def build_parser() -> argparse.ArgumentParser:
     p = sub.add_parser(
         "report", help="rebuild the charts and report.html of a finished run",
         description="Rebuild DIR/figures/*.png and DIR/report.html from the run store DIR/run.sqlite.",
-        epilog="example:\n  orcscreen report out/demo\n  orcscreen report out/demo --svg    # SVG files too",
+        epilog="example:\n  orcscreen report out/demo\n  orcscreen report out/demo --svg    # SVG files too\n"
+        "  orcscreen report out/demo --rank-by lcoe,size_parameter",
         formatter_class=fmt,
     )
     p.add_argument("dir", metavar="DIR", help="output directory of an `orcscreen run`")
     p.add_argument("--svg", action="store_true",
                    help="also write every chart as SVG (vector files for print or editing); PNG only by default")
+    p.add_argument("--rank-by", type=_rank_by_names, metavar="A,B,C",
+                   help="criteria the report and charts rank by after the study's objective, instead "
+                   "of the run's (ranking.csv keeps the run's; `orcscreen run STUDY --rank-by` rewrites "
+                   "it without computing again)")
     p.set_defaults(func=_cmd_report)
 
     p = sub.add_parser(

@@ -2,7 +2,10 @@
 and the plain-text top table printed after a run.
 
 ranking.csv has one row per case of the current study: ``case_key``, the swept values (one
-column per dotted study path), ``rank``, the engine's row columns (contract section 2, in that
+column per dotted study path), ``rank``, one ``rank_<criterion>`` per ranking criterion (the
+study's objective first, then ``study.rank_by``; orcscreen.objectives.CRITERIA), ``pareto_optimal``
+(no other case at the operating point is at least as good in every criterion and better in one,
+compared at the file's 6 significant digits), the engine's row columns (contract section 2, in that
 order, without the timing column ``elapsed_s`` so that two runs give byte-identical files), then
 the constant columns ``orcscreen_version``, ``coolprop_version`` and ``study_hash`` that keep the
 file self-describing. Rows are sorted by operating point (the swept values, in case order), then
@@ -33,7 +36,16 @@ from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
 from orcscreen import store as _store
-from orcscreen.objectives import DEFAULT_OBJECTIVE, OBJECTIVES, Objective
+from orcscreen.objectives import (
+    CRITERIA,
+    DEFAULT_OBJECTIVE,
+    OBJECTIVES,
+    PARETO_COLUMN,
+    Criterion,
+    Objective,
+    criteria_for,
+    rank_column,
+)
 from orcscreen.safe_files import atomic_write, atomic_writer
 from orcscreen.store import (
     ColumnKinds,
@@ -57,6 +69,9 @@ __all__ = [
     "ranking_sweep_columns",
     "write_outputs",
     "top_table",
+    "objective_of",
+    "criteria_of",
+    "by_criterion",
 ]
 
 RANKING_FILE = "ranking.csv"
@@ -75,7 +90,9 @@ _VERSION_COLUMNS = ("orcscreen_version", "coolprop_version", "study_hash")
 _STORE_ONLY = ("case_key", "case_index", "case_elapsed_s", "finished_at")
 #: Row columns the ranking order needs, and with the integer columns the first pass of
 #: write_outputs.
-_RANK_KEYS = ("status", *dict.fromkeys(o.column for o in OBJECTIVES.values()), "fluid", "layout")
+_RANK_KEYS = ("status", *dict.fromkeys(c.column for c in CRITERIA.values()), "fluid", "layout")
+#: Significant digits of ranking.csv's floats (FLOAT_FORMAT): the Pareto marks compare values so.
+WRITTEN_DIGITS = 6
 _RANKING_INPUTS = (*_RANK_KEYS, *_INTEGER_COLUMNS)
 
 
@@ -114,8 +131,18 @@ def objective_of(meta: dict | None) -> Objective:
     return OBJECTIVES.get(name) or OBJECTIVES[DEFAULT_OBJECTIVE]
 
 
-def _objective_key(df: pd.DataFrame, objective: Objective):
-    """Sort key of the objective's column: smaller first (negated when larger is better); a
+def criteria_of(meta: dict | None, rank_by: list[str] | tuple[str, ...] | None = None) -> tuple[Criterion, ...]:
+    """The criteria of the ranking (orcscreen.objectives.criteria_for): the study's objective
+    first, then ``rank_by`` when given (an override, e.g. ``--rank-by``), else the stored study's
+    ``study.rank_by`` (the default criteria for a store written before that key)."""
+    section = ((meta or {}).get("study") or {}).get("study") or {}
+    if rank_by is None:
+        rank_by = section.get("rank_by")
+    return criteria_for(objective_of(meta).name, rank_by)
+
+
+def _objective_key(df: pd.DataFrame, objective: Criterion):
+    """Sort key of a criterion's column: smaller first (negated when larger is better); a
     missing value last."""
     import numpy as np
     import pandas as pd
@@ -126,13 +153,16 @@ def _objective_key(df: pd.DataFrame, objective: Objective):
     return key.where(np.isfinite(key), np.inf)
 
 
-def _ranked_order(df: pd.DataFrame, sweep_cols: list[str], objective: Objective | None = None) -> pd.DataFrame:
-    """``df`` sorted into ranking order with its ``rank`` (Int64, <NA> when not ranked) and its
-    operating point number ``_point`` (see :func:`ranking_table`); by the objective's column
-    (net power by default)."""
+def _ranked_order(df: pd.DataFrame, sweep_cols: list[str],
+                  criteria: tuple[Criterion, ...] | None = None) -> pd.DataFrame:
+    """``df`` sorted into ranking order with its ``rank`` (Int64, <NA> when not ranked), one
+    ``rank_<criterion>`` per criterion, ``pareto_optimal`` and its operating point number
+    ``_point`` (see :func:`ranking_table`); ``rank`` by the first criterion (the objective; net
+    power by default)."""
     import numpy as np
     import pandas as pd
 
+    criteria = criteria or (OBJECTIVES[DEFAULT_OBJECTIVE],)
     df = df.reset_index(drop=True).copy()
     # Operating point = identical swept values, numbered in order of first appearance (case order).
     if df.empty:
@@ -146,15 +176,38 @@ def _ranked_order(df: pd.DataFrame, sweep_cols: list[str], objective: Objective 
     ranked = (df["status"] == "ok") & np.isfinite(power)
     df["_point"] = point
     df["_ranked"] = ~ranked  # False sorts first
-    df["_power"] = _objective_key(df, objective or OBJECTIVES[DEFAULT_OBJECTIVE]).where(ranked, 0.0)
     df["_fluid"] = df["fluid"].astype(str)
     df["_layout"] = df["layout"].astype(str)
     df["_order"] = df["case_index"] if "case_index" in df else df.index
+    df["_power"] = _objective_key(df, criteria[0]).where(ranked, 0.0)
     df = df.sort_values(["_point", "_ranked", "_power", "_fluid", "_layout", "_order"],
                         kind="mergesort").reset_index(drop=True)
-    rank = df.groupby("_point").cumcount() + 1
-    df["rank"] = pd.array(rank.where(~df["_ranked"]), dtype="Int64")
+    df["rank"] = _ranks(df, "_power")
+    for criterion in criteria:
+        df["_key"] = _objective_key(df, criterion).where(~df["_ranked"], 0.0)
+        df[rank_column(criterion)] = _ranks(df, "_key")
+    df = df.drop(columns="_key")
+    pareto = np.zeros(len(df), dtype=bool)
+    if len(criteria) and len(df):
+        from orcscreen.rank import pareto_optimal
+
+        ok = df[~df["_ranked"]]
+        cols = [(c.column, c.maximise) for c in criteria]
+        for _, rows in ok.groupby("_point", sort=False):
+            pareto[rows.index.to_numpy()] = pareto_optimal(rows, cols, significant=WRITTEN_DIGITS).to_numpy()
+    df[PARETO_COLUMN] = pareto
     return df
+
+
+def _ranks(df: pd.DataFrame, key: str) -> pd.Series:
+    """1, 2, ... within each operating point by ``key`` (smaller first), ties by fluid, layout
+    and case order, as the ranking's ``rank``; <NA> for the rows not ranked."""
+    import pandas as pd
+
+    order = df.sort_values(["_point", "_ranked", key, "_fluid", "_layout", "_order"], kind="mergesort")
+    rank = order.groupby("_point").cumcount() + 1
+    rank = rank.where(~order["_ranked"]).reindex(df.index)
+    return pd.array(rank, dtype="Int64")
 
 
 def _whole_numbers(values: pd.Series) -> bool:
@@ -169,8 +222,9 @@ def _whole_numbers(values: pd.Series) -> bool:
 
 
 def _finish(df: pd.DataFrame, sweep_cols: list[str], row_cols: list[str], meta: dict,
-            whole: dict[str, bool]) -> pd.DataFrame:
-    """The ranking.csv columns of rows in ranking order that carry their ``rank``."""
+            whole: dict[str, bool], rank_cols: list[str]) -> pd.DataFrame:
+    """The ranking.csv columns of rows in ranking order that carry their ``rank``, their
+    ``rank_cols`` (one per criterion) and their Pareto mark."""
     import numpy as np
     import pandas as pd
 
@@ -182,18 +236,20 @@ def _finish(df: pd.DataFrame, sweep_cols: list[str], row_cols: list[str], meta: 
         df["reason"] = df["reason"].fillna("")
     for col in _VERSION_COLUMNS:
         df[col] = meta.get(col, "")
-    return df[["case_key", *sweep_cols, "rank", *row_cols, *_VERSION_COLUMNS]]
+    return df[["case_key", *sweep_cols, "rank", *rank_cols, PARETO_COLUMN, *row_cols, *_VERSION_COLUMNS]]
 
 
 def ranking_table(rows: pd.DataFrame, meta: dict | None = None, *,
-                  all_columns: bool = True) -> pd.DataFrame:
+                  all_columns: bool = True, rank_by: list[str] | None = None) -> pd.DataFrame:
     """The ranking table (see module docstring) from :meth:`RunStore.rows`' table.
 
     ``rank`` is 1, 2, ... within each operating point (identical swept values) over the rows
     with status "ok" and a finite net_power_kW, by net_power_kW descending, ties broken by fluid
     then layout (names ascending); empty (<NA>) for the other rows. ``all_columns=False`` keeps
     only the row columns present in ``rows`` (a table read with ``RunStore.rows(columns=...)``)
-    instead of adding the missing ones empty.
+    instead of adding the missing ones empty. ``rank_by``: the criteria after the objective,
+    instead of the stored study's (:func:`criteria_of`); ``rank_<criterion>`` are ranked the
+    same way, by each criterion's column (a missing value last).
     """
     meta = meta or {}
     df = rows.reset_index(drop=True).copy()
@@ -205,7 +261,9 @@ def ranking_table(rows: pd.DataFrame, meta: dict | None = None, *,
     if not all_columns:
         row_cols = [c for c in row_cols if c in df]
     whole = {c: _whole_numbers(df[c]) for c in _INTEGER_COLUMNS if c in df}
-    return _finish(_ranked_order(df, sweep_cols, objective_of(meta)), sweep_cols, row_cols, meta, whole)
+    criteria = criteria_of(meta, rank_by)
+    return _finish(_ranked_order(df, sweep_cols, criteria), sweep_cols, row_cols, meta, whole,
+                   [rank_column(c) for c in criteria])
 
 
 @dataclass
@@ -233,6 +291,10 @@ class RankingSummary:
     best: Any = None
     #: the objective the rows are ranked by (orcscreen.objectives.Objective)
     objective: Any = None
+    #: the ranking's criteria (orcscreen.objectives.Criterion), the objective first
+    criteria: tuple = ()
+    #: criterion name -> its best ranked rows over all points (up to ``kept``), best first
+    tops: dict = field(default_factory=dict)
 
     @property
     def empty(self) -> bool:
@@ -244,7 +306,8 @@ class RankingSummary:
     def table(self) -> pd.DataFrame:
         """The whole ranking table, read from the store (small runs and tests)."""
         with RunStore(self.store_path, create=False) as store:
-            return ranking_table(store.rows(), store.meta())
+            return ranking_table(store.rows(), store.meta(),
+                                 rank_by=[c.name for c in self.criteria[1:]] if self.criteria else None)
 
 
 _NAN = object()  # one stand-in for every NaN swept value (NaN != NaN, drop_duplicates: equal)
@@ -253,9 +316,11 @@ _NAN = object()  # one stand-in for every NaN swept value (NaN != NaN, drop_dupl
 class _Tally:
     """Running figures of the rows written, for a :class:`RankingSummary`."""
 
-    def __init__(self, sweep_cols: list[str], keep: int, objective: Objective | None = None) -> None:
+    def __init__(self, sweep_cols: list[str], keep: int, criteria: tuple[Criterion, ...] = ()) -> None:
         self.sweep_cols, self.keep = sweep_cols, keep
-        self.objective = objective or OBJECTIVES[DEFAULT_OBJECTIVE]
+        self.criteria = tuple(criteria) or (OBJECTIVES[DEFAULT_OBJECTIVE],)
+        self.objective = self.criteria[0]
+        self.tops: dict[str, Any] = {}
         self.cases = 0
         self.status: dict[str, int] = {}
         self.values: dict[str, set] = {c: set() for c in sweep_cols}
@@ -282,7 +347,11 @@ class _Tally:
             more = ok.head(self.keep - (0 if self.leaders is None else len(self.leaders)))
             self.leaders = more if self.leaders is None else pd.concat([self.leaders, more])
         both = ok if self.best is None else pd.concat([self.best, ok])
-        self.best = _by_objective(both, self.objective).head(self.keep)
+        self.best = by_criterion(both, self.objective).head(self.keep)
+        for c in self.criteria[1:]:
+            kept = self.tops.get(c.name)
+            both = ok if kept is None else pd.concat([kept, ok])
+            self.tops[c.name] = by_criterion(both, c).head(self.keep)
 
     def summary(self, path: Path, store_path: Path, columns: list[str]) -> RankingSummary:
         varying = [c for c in self.sweep_cols if self.cases and len(self.values[c]) > 1]
@@ -295,11 +364,12 @@ class _Tally:
                               columns=columns, status_counts=dict(self.status),
                               sweep_columns=list(self.sweep_cols), varying=varying,
                               points=points, ranked=self.ranked, kept=self.keep,
-                              leaders=self.leaders, best=self.best, objective=self.objective)
+                              leaders=self.leaders, best=self.best, objective=self.objective,
+                              criteria=self.criteria, tops=dict(self.tops))
 
 
-def _by_objective(ok: pd.DataFrame, objective: Objective) -> pd.DataFrame:
-    """Ranked rows by the objective (best first), then fluid, then layout; stable (file order)."""
+def by_criterion(ok: pd.DataFrame, objective: Criterion) -> pd.DataFrame:
+    """Ranked rows by a criterion (best first), then fluid, then layout; stable (file order)."""
     return (ok.assign(_p=_objective_key(ok, objective))
             .sort_values(["_p", "fluid", "layout"], kind="mergesort").drop(columns="_p"))
 
@@ -313,7 +383,7 @@ def _records_frame(records: list[tuple], columns: list[str]) -> pd.DataFrame:
 
 
 def _stream_ranking(store: RunStore, meta: dict, target: Path | None,
-                    keep: int | None = None) -> RankingSummary:
+                    keep: int | None = None, rank_by: list[str] | None = None) -> RankingSummary:
     """Write ranking.csv to ``target`` (None: write nothing) from the store in two passes (module
     docstring); return its summary. A store of at most :data:`DECODE_ONCE_ROWS` current cases
     is decoded once: its rows are kept from the first pass to the second (object tables, about
@@ -349,24 +419,26 @@ def _stream_ranking(store: RunStore, meta: dict, target: Path | None,
     names = [c for c in columns if c == "case_index" or c in _RANKING_INPUTS or c in sweep_seen]
     if any(c not in names for c in sweep_cols):  # row keys before "fluid": not a usual store
         del light, kept
-        return _whole_ranking(store, meta, target, keep)
+        return _whole_ranking(store, meta, target, keep, rank_by)
+    criteria = criteria_of(meta, rank_by)
+    rank_cols = [rank_column(c) for c in criteria]
     missing = [c for c in _engine_row_columns() if c not in columns]
     row_cols = _row_columns_of(columns + missing, sweep_cols)
-    out_columns = ["case_key", *sweep_cols, "rank", *row_cols, *_VERSION_COLUMNS]
+    out_columns = ["case_key", *sweep_cols, "rank", *rank_cols, PARETO_COLUMN, *row_cols, *_VERSION_COLUMNS]
     small = kinds.typed(pd.concat(light, ignore_index=True).reindex(columns=names))
     del light
     for col in _RANKING_INPUTS:
         if col not in small:
             small[col] = None
     whole = {c: _whole_numbers(small[c]) for c in _INTEGER_COLUMNS}
-    order = _ranked_order(small, sweep_cols, objective_of(meta))[["case_index", "_point", "rank"]]
+    order = _ranked_order(small, sweep_cols, criteria)[["case_index", "_point", "rank", *rank_cols, PARETO_COLUMN]]
     del small
     if kept is not None:
         kept = pd.concat(kept, ignore_index=True).reindex(columns=columns)
         kept_index = kept["case_index"].to_numpy(dtype="int64")  # ascending: case order
 
     # Pass 2: whole operating points, about ROWS_CHUNK rows at a time, in ranking order.
-    tally = _Tally(sweep_cols, keep, objective_of(meta))
+    tally = _Tally(sweep_cols, keep, criteria)
     with contextlib.ExitStack() as stack:
         # written to a temporary file created without following links, renamed at the end
         out = None if target is None else stack.enter_context(atomic_writer(target))
@@ -389,8 +461,9 @@ def _stream_ranking(store: RunStore, meta: dict, target: Path | None,
             del frame
             for col in missing:
                 table[col] = None
-            table["rank"] = part["rank"].array
-            table = _finish(table, sweep_cols, row_cols, meta, whole)
+            for col in ("rank", *rank_cols, PARETO_COLUMN):
+                table[col] = part[col].array
+            table = _finish(table, sweep_cols, row_cols, meta, whole, rank_cols)
             if out is not None:
                 table.to_csv(out, index=False, header=first, float_format=FLOAT_FORMAT,
                              lineterminator="\n")
@@ -400,14 +473,15 @@ def _stream_ranking(store: RunStore, meta: dict, target: Path | None,
 
 
 def _whole_ranking(store: RunStore, meta: dict, target: Path | None,
-                   keep: int | None = None) -> RankingSummary:
+                   keep: int | None = None, rank_by: list[str] | None = None) -> RankingSummary:
     """ranking.csv from the whole table in memory (an empty store, or an unusual one)."""
     keep = keep or TOP_KEPT
-    table = ranking_table(store.rows(), meta)
+    table = ranking_table(store.rows(), meta, rank_by=rank_by)
     if target is not None:
         _atomic_write(target, table.to_csv(index=False, float_format=FLOAT_FORMAT,
                                            lineterminator="\n"))
-    return _small_summary(table, target or store.directory / RANKING_FILE, store.path, keep, objective_of(meta))
+    return _small_summary(table, target or store.directory / RANKING_FILE, store.path, keep,
+                          criteria_of(meta, rank_by))
 
 
 def _point_slices(order: pd.DataFrame):
@@ -437,14 +511,16 @@ def _stamps(*paths: Path) -> tuple:
 
 
 def write_outputs(out_dir: str | os.PathLike[str],
-                  store: RunStore | None = None) -> RankingSummary:
+                  store: RunStore | None = None, rank_by: list[str] | None = None) -> RankingSummary:
     """Regenerate ``out_dir/ranking.csv`` and ``out_dir/run-info.json`` from the run store.
 
     Returns a :class:`RankingSummary` (for :func:`top_table`; ``.table()`` reads the whole
     table). ``store`` may be an open store of ``out_dir`` (e.g. the one a run holds the lock of);
-    otherwise the store is opened read-only-style (no lock, no creation). Both files are written
-    atomically (temporary file, then rename). When this process wrote both files from the same
-    store revision and they are untouched since, nothing is rewritten.
+    otherwise the store is opened read-only-style (no lock, no creation). ``rank_by``: the
+    criteria after the objective, instead of the stored study's ``study.rank_by``. Both files are
+    written atomically (temporary file, then rename). When this process wrote both files from
+    the same store revision with the same criteria and they are untouched since, nothing is
+    rewritten.
     """
     out_dir = Path(out_dir)
     own = store is None
@@ -452,15 +528,17 @@ def write_outputs(out_dir: str | os.PathLike[str],
     ranking_path, info_path = out_dir / RANKING_FILE, out_dir / RUN_INFO_FILE
     try:
         revision = store.revision()
-        done = _WRITTEN.get(store.path.resolve())
-        if done and done[0] == revision and done[1] and done[1] == _stamps(ranking_path, info_path):
-            return done[2]
         meta = store.meta()
+        names = tuple(c.name for c in criteria_of(meta, rank_by))
+        done = _WRITTEN.get(store.path.resolve())
+        if done and done[0] == revision and done[1] and done[1] == _stamps(ranking_path, info_path) \
+                and tuple(c.name for c in done[2].criteria) == names:
+            return done[2]
         counts = store.counts()
         if len(store):
-            summary = _stream_ranking(store, meta, ranking_path)
+            summary = _stream_ranking(store, meta, ranking_path, rank_by=rank_by)
         else:
-            summary = _whole_ranking(store, meta, ranking_path)
+            summary = _whole_ranking(store, meta, ranking_path, rank_by=rank_by)
     except sqlite3.DatabaseError as exc:  # a damaged file: say so, with what to do
         raise store.error_for(exc) from None
     finally:
@@ -471,6 +549,8 @@ def write_outputs(out_dir: str | os.PathLike[str],
         "coolprop_version": meta.get("coolprop_version"),
         "study_hash": meta.get("study_hash"),
         "study_name": meta.get("study_name"),
+        "ranked_by": [{"criterion": c.name, "column": c.column, "rank_column": rank_column(c),
+                       "direction": c.direction} for c in summary.criteria],
         "cases": int(summary.cases),
         "counts": {s: int(counts.get(s, 0)) for s in ("ok", "infeasible", "failed")}
         | {s: int(n) for s, n in counts.items() if s not in ("ok", "infeasible", "failed")},
@@ -533,10 +613,10 @@ def _money_info(economics: dict | None) -> dict | None:
 
 
 def _small_summary(table: pd.DataFrame, path: Path, store_path: Path,
-                   keep: int | None = None, objective: Objective | None = None) -> RankingSummary:
+                   keep: int | None = None, criteria: tuple[Criterion, ...] = ()) -> RankingSummary:
     """The summary of a ranking table held in memory."""
     keep = keep or TOP_KEPT
-    tally = _Tally(ranking_sweep_columns(table), keep, objective)
+    tally = _Tally(ranking_sweep_columns(table), keep, criteria)
     if len(table):
         tally.add(table)
     summary = tally.summary(path, store_path, list(table.columns))
@@ -544,6 +624,13 @@ def _small_summary(table: pd.DataFrame, path: Path, store_path: Path,
         summary.leaders = table.iloc[0:0]
         summary.best = table.iloc[0:0]
     return summary
+
+
+def criteria_in(table: pd.DataFrame) -> tuple[Criterion, ...]:
+    """The criteria a ranking table was ranked by, read from its ``rank_<criterion>`` columns
+    (in order; the first is the objective); () for a table without them."""
+    by_column = {rank_column(c): c for c in CRITERIA.values()}
+    return tuple(by_column[col] for col in table.columns if col in by_column)
 
 
 def ranking_sweep_columns(table: pd.DataFrame) -> list[str]:
@@ -569,16 +656,64 @@ def top_table(table: pd.DataFrame | RankingSummary, n: int = 10) -> str:
     :class:`RankingSummary` that :func:`write_outputs` returns), for the terminal.
 
     One operating point: its ``n`` best cases. Several: the ``n`` best cases over all points
-    (by the study's objective), with the swept values shown. Ends with a line of status counts.
+    (by the study's objective), with the swept values shown. A column marks the cases that are
+    Pareto-optimal over the ranking's criteria; then, for each criterion after the objective, its
+    best :data:`CRITERION_TOP` cases. Ends with a line of status counts.
     """
     if isinstance(table, RankingSummary):
         summary = table
         if n > summary.kept and summary.ranked > summary.kept:  # more than kept: read again
             with RunStore(summary.store_path, create=False) as store:
-                summary = _stream_ranking(store, store.meta(), None, keep=n)
+                summary = _stream_ranking(store, store.meta(), None, keep=n,
+                                          rank_by=[c.name for c in summary.criteria[1:]] or None)
     else:
-        summary = _small_summary(table, Path(RANKING_FILE), Path(), keep=max(n, TOP_KEPT))
+        summary = _small_summary(table, Path(RANKING_FILE), Path(), keep=max(n, TOP_KEPT),
+                                 criteria=criteria_in(table))
     return _top_text(summary, n)
+
+
+#: Cases listed per criterion after the main table (console and report).
+CRITERION_TOP = 5
+
+
+def _is_true(value) -> bool:
+    return str(value).strip().lower() in ("true", "1", "yes")
+
+
+def criterion_value_text(criterion: Criterion, value) -> str:
+    """A criterion's value as the console and the report show it (its format; "%": per cent)."""
+    if criterion.fmt == "%":
+        return _fmt(100.0 * float(value), ".2f") if _fmt(value, "g") else ""
+    return _fmt(value, criterion.fmt)
+
+
+def _criterion_tops(summary: RankingSummary, sweep_cols: list[str]) -> str:
+    """For each criterion after the objective: its best :data:`CRITERION_TOP` cases (over all
+    points when there are several, the swept values shown), folded as the main table is."""
+    import pandas as pd
+
+    from orcscreen.rank import fold_inactive
+
+    blocks = []
+    for c in summary.criteria[1:]:
+        pool = summary.tops.get(c.name)
+        if pool is None or pool.empty:
+            continue
+        best = fold_inactive(pool, summary.objective.column).head(CRITERION_TOP)
+        columns = {"#": best[rank_column(c)].astype(str) if rank_column(c) in best else ""}
+        for col in sweep_cols:
+            columns[col] = best[col].map(lambda v: _fmt(v, ".4g") or str(v))
+        columns["fluid"] = best.apply(_name, axis=1)
+        columns["layout"] = [f"{lay} ({f}: no gain)" if isinstance(f, str) and f else str(lay)
+                             for lay, f in zip(best["layout"], best.get("folded_layouts", [""] * len(best)))]
+        columns[c.short or c.column] = best[c.column].map(lambda v, c=c: criterion_value_text(c, v))
+        if c.column != "net_power_kW":
+            columns["net kW"] = best["net_power_kW"].map(lambda v: _fmt(v, ".1f"))
+        if PARETO_COLUMN in best:
+            columns["Pareto"] = best[PARETO_COLUMN].map(lambda v: "yes" if _is_true(v) else "")
+        head = f"top {len(best)} by {c.label} ({c.direction}; # = {rank_column(c)}):"
+        blocks.append(head + "\n" + pd.DataFrame(columns).to_string(index=False))
+    return "\n".join(blocks)
 
 
 def _warning_lines(best) -> list[str]:
@@ -666,7 +801,13 @@ def _top_text(summary: RankingSummary, n: int) -> str:
     for title, col, shown in (("class", "safety_class", safety_class_text), ("GWP100", "gwp100", gwp_text)):
         if col in best:
             columns[title] = best[col].map(shown)
+    criteria = summary.criteria or (objective,)
+    if PARETO_COLUMN in best and len(criteria) > 1:
+        columns["Pareto"] = best[PARETO_COLUMN].map(lambda v: "yes" if _is_true(v) else "")
     text = pd.DataFrame(columns).to_string(index=False)
+    if PARETO_COLUMN in best and len(criteria) > 1:
+        text += (f"\nPareto: optimal over {', '.join(c.label for c in criteria)} (no other case at its "
+                 "operating point is as good in all and better in one)")
     cautions = _caution_lines(best)
     if cautions:
         text += "\ncautions (catalogue data and each case's condenser; screening, not design):\n" + "\n".join(cautions)
@@ -676,6 +817,9 @@ def _top_text(summary: RankingSummary, n: int) -> str:
     folded = _fold_lines(best)
     if folded:
         text += "\nshown once (the same result in a layout whose extra component does nothing):\n" + "\n".join(folded)
+    tops = _criterion_tops(summary, sweep_cols if n_points > 1 else [])
+    if tops:
+        text += "\n" + tops
     by = f" by {objective.label}"
     if n_points > 1:
         head = f"best {len(best)} of {summary.cases} cases{by} over {n_points} operating points"

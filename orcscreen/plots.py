@@ -45,6 +45,7 @@ __all__ = [
     "axis_label",
     "case_label",
     "ranking_chart",
+    "criteria_chart",
     "tq_diagram",
     "ts_diagram",
     "tradeoff_chart",
@@ -226,6 +227,78 @@ def ranking_chart(df: pd.DataFrame, ax: Axes | None = None, max_bars: int = 40,
     _finish(ax, label, "", title)
     ax.grid(False, axis="y")
     return ax
+
+
+#: Cases shown per criterion in :func:`criteria_chart`.
+CRITERIA_BARS = 5
+
+
+def criteria_chart(df: pd.DataFrame, criteria: Sequence, n: int = CRITERIA_BARS,
+                   title: str | None = "Best cases by each ranking criterion", money: str | None = None) -> Axes:
+    """One panel per ranking criterion (orcscreen.objectives.Criterion: column, direction,
+    label): horizontal bars of its best ``n`` feasible cases, best on top, the value beside each
+    bar; a black diamond at the end of a bar marks a Pareto-optimal case (column
+    ``pareto_optimal``). Cases are ordered by the criterion's ``rank_<name>`` column when the
+    table has it (else by the column's value in the criterion's direction); layouts without gain
+    are folded (:func:`orcscreen.rank.fold_inactive`). The value axis starts just below the
+    smallest bar, as the ranking chart's does (:func:`ranking_axis_start`). ``money``: the unit
+    of the cost criteria's values (e.g. "EUR of 2023"). Returns the first panel (its figure
+    holds them all)."""
+    from orcscreen.objectives import PARETO_COLUMN, rank_column
+
+    criteria = list(criteria)
+    if not criteria:
+        raise ValueError("criteria chart: no criterion given")
+    ok = rank.fold_inactive(rank.feasible(df), criteria[0].column)
+    if ok.empty:
+        raise ValueError("criteria chart: no feasible case to plot")
+    fig = Figure(figsize=(WIDTH_IN, 0.6 + len(criteria) * (0.5 + 0.22 * n)), layout="constrained")
+    FigureCanvasAgg(fig)
+    axes = fig.subplots(len(criteria), 1, squeeze=False)[:, 0]
+    for ax, c in zip(axes, criteria):
+        values = pd.to_numeric(ok[c.column], errors="coerce") if c.column in ok else pd.Series(np.nan, index=ok.index)
+        rows = ok.assign(_v=values)[np.isfinite(values)]
+        col = rank_column(c)
+        if col in rows:
+            rows = rows.assign(_r=pd.to_numeric(rows[col], errors="coerce")).sort_values("_r", kind="stable")
+        else:
+            rows = rows.sort_values("_v", ascending=not c.maximise, kind="stable")
+        rows = rows.head(n)
+        if rows.empty:
+            ax.text(0.5, 0.5, f"no case has a value of {c.column}", transform=ax.transAxes, ha="center")
+            ax.set_axis_off()
+            continue
+        v = rows["_v"].to_numpy(dtype=float)
+        start = ranking_axis_start(v)
+        top = float(np.nanmax(v))
+        for i, (_, row) in enumerate(rows.iterrows()):
+            style = _layout_style(row.get("layout"))
+            ax.barh(i, row["_v"], height=0.7, color=style["color"], hatch=style["hatch"],
+                    edgecolor="white" if not style["hatch"] else "#333333", linewidth=0.4,
+                    gid=f"criterion-{c.name}-bar-{i}")
+            ax.text(row["_v"] + 0.03 * (top - start or 1.0), i, f"{row['_v']:.4g}", va="center", ha="left",
+                    fontsize=NOTE_PT, gid=f"criterion-{c.name}-note-{i}")
+            if str(row.get(PARETO_COLUMN)).strip().lower() in ("true", "1"):
+                ax.plot([row["_v"]], [i], marker="D", color="black", markersize=4, zorder=3,
+                        gid=f"criterion-{c.name}-pareto-{i}")
+        labels = [case_label(r) + (f" ({r[rank.FOLDED]}: no gain)" if r.get(rank.FOLDED) else "")
+                  for _, r in rows.iterrows()]
+        ax.set_yticks(np.arange(len(rows)), labels, fontsize=TICK_PT)
+        ax.set_ylim(len(rows) - 0.5, -0.5)
+        ax.set_xlim(start, top + 0.25 * (top - start or abs(top) or 1.0))
+        label = axis_label(c.column)
+        if c.needs_costs and money:  # money columns: the study's currency (per kW, per MWh)
+            per = c.column.rsplit("_per_", 1)[1] if "_per_" in c.column else ""
+            label = f"{c.label} [{money}{' per ' + per if per else ''}]"
+        if start != 0.0:
+            name, _, unit = label.partition(" [")
+            label = f"{name}, axis from {start:g}, not zero [{unit}"
+        _finish(ax, label, "", f"{c.label} ({c.direction})")
+        ax.title.set_fontsize(LABEL_PT)
+        ax.grid(False, axis="y")
+    if title:
+        fig.suptitle(title, fontsize=TITLE_PT, x=0.0, ha="left")
+    return axes[0]
 
 
 def ranking_axis_start(power: Sequence[float]) -> float:

@@ -14,14 +14,20 @@ simpler one of which, and what its extra exchangers are, is read from the layout
 
 from __future__ import annotations
 
+from collections.abc import Sequence
+
 import numpy as np
 import pandas as pd
+
+from orcscreen.objectives import PARETO_COLUMN
 
 __all__ = [
     "sweep_columns",
     "feasible",
     "best_per_point",
     "pareto_front",
+    "pareto_optimal",
+    "dominance_front",
     "FOLD_NOTE",
     "FOLDED",
     "FOLD_RTOL",
@@ -90,24 +96,59 @@ def pareto_front(
     maximise: str = "net_power_kW",
     minimise: str = "size_parameter_m",
 ) -> pd.Series:
-    """Boolean Series (index of ``df``): True where the row is Pareto-optimal.
+    """Boolean Series (index of ``df``): True where the row is Pareto-optimal for ``maximise``
+    against ``minimise`` (:func:`pareto_optimal` over these two columns). Status is not looked
+    at: pass the feasible rows."""
+    return pareto_optimal(df, [(maximise, True), (minimise, False)]).rename("pareto")
 
-    A row is Pareto-optimal when no other row has ``maximise`` >= and ``minimise`` <= its own with
-    at least one of the two strictly better (weak dominance, the usual definition). Rows with a
-    missing or non-finite value in either column are never on the front. Identical rows are all
-    kept. Status is not looked at: pass the feasible rows.
+
+def pareto_optimal(df: pd.DataFrame, columns: Sequence[tuple[str, bool]],
+                   significant: int | None = None) -> pd.Series:
+    """Boolean Series (index of ``df``): True where the row is Pareto-optimal over ``columns``,
+    pairs (column, larger is better).
+
+    A row is Pareto-optimal when no other row is at least as good in every column and strictly
+    better in one (weak dominance, the usual definition: Deb, *Multi-Objective Optimization
+    Using Evolutionary Algorithms*, Wiley 2001, section 2.4). ``significant``: values are
+    compared rounded to that many significant digits (ranking.csv's precision, so that the marks
+    can be checked from the file); None compares them as they are. Rows with a missing or
+    non-finite value in any column are never on the front; identical rows are all kept. Status
+    is not looked at: pass the feasible rows of one operating point.
     """
-    gain = pd.to_numeric(df[maximise], errors="coerce").to_numpy(dtype=float)
-    cost = pd.to_numeric(df[minimise], errors="coerce").to_numpy(dtype=float)
-    valid = np.isfinite(gain) & np.isfinite(cost)
-    on_front = np.zeros(len(df), dtype=bool)
-    idx = np.flatnonzero(valid)
-    g, c = gain[idx], cost[idx]
+    values = np.empty((len(df), len(columns)), dtype=float)
+    for j, (col, larger_better) in enumerate(columns):
+        v = pd.to_numeric(df[col], errors="coerce").to_numpy(dtype=float) if col in df else \
+            np.full(len(df), np.nan)
+        if significant is not None:
+            v = np.array([float(f"{x:.{significant}g}") for x in v], dtype=float)
+        values[:, j] = v if larger_better else -v
+    return pd.Series(dominance_front(values), index=df.index, name=PARETO_COLUMN)
+
+
+#: Largest number of rows compared all at once by :func:`dominance_front` (rows x rows x columns
+#: booleans); more are compared a row at a time.
+_BROADCAST_ROWS = 1500
+
+
+def dominance_front(values: np.ndarray) -> np.ndarray:
+    """Boolean array: True for the rows of ``values`` (n x k, larger is better in every column)
+    that no other row dominates (at least as good in every column, better in one). A row with
+    a non-finite value is never on the front."""
+    values = np.asarray(values, dtype=float)
+    n = values.shape[0]
+    on_front = np.zeros(n, dtype=bool)
+    idx = np.flatnonzero(np.isfinite(values).all(axis=1)) if n else np.array([], dtype=int)
+    v = values[idx]
+    if len(idx) <= _BROADCAST_ROWS:
+        # dominated[i] = some row r with v[r] >= v[i] everywhere and v[r] > v[i] somewhere
+        geq = (v[:, None, :] >= v[None, :, :]).all(axis=2)
+        gt = (v[:, None, :] > v[None, :, :]).any(axis=2)
+        on_front[idx] = ~(geq & gt).any(axis=0)
+        return on_front
     for k, i in enumerate(idx):
-        at_least_as_good = (g >= g[k]) & (c <= c[k])
-        strictly_better = (g > g[k]) | (c < c[k])
-        on_front[i] = not np.any(at_least_as_good & strictly_better)
-    return pd.Series(on_front, index=df.index, name="pareto")
+        dominated = (v >= v[k]).all(axis=1) & (v > v[k]).any(axis=1)
+        on_front[i] = not dominated.any()
+    return on_front
 
 
 # --------------------------------------------------------------------------- folding
@@ -167,7 +208,8 @@ def _close(a: pd.Series, b: pd.Series, rtol: float) -> np.ndarray:
 def fold_inactive(df: pd.DataFrame, objective: str = "net_power_kW",
                   rtol: float = FOLD_RTOL) -> pd.DataFrame:
     """``df`` without the rows whose layout's extra component does nothing, marked on the rows
-    kept in their place.
+    kept in their place (a kept row is marked :data:`~orcscreen.objectives.PARETO_COLUMN` when
+    a row folded into it is: it stands for both).
 
     A row is folded when (1) its layout has a simpler layout in the registry
     (:func:`simpler_layouts`), (2) every exchanger it adds has a duty column that is zero or
@@ -190,6 +232,7 @@ def fold_inactive(df: pd.DataFrame, objective: str = "net_power_kW",
     keys = [*sweep_columns(df), "fluid"]
     compared = [c for c in dict.fromkeys(["net_power_kW", objective]) if c in df]
     drop: list = []
+    into: dict = {}  # folded row -> the row kept in its place
     notes: dict = {}
     folded: dict = {}
     for layout, (simpler, extra) in simpler_layouts().items():
@@ -207,6 +250,7 @@ def fold_inactive(df: pd.DataFrame, objective: str = "net_power_kW",
         words = " and ".join(extra)
         for _, p in pairs[same].iterrows():
             drop.append(p["_i"])
+            into[p["_i"]] = p["_j"]
             rank = p.get("rank")
             where = f" (rank {int(rank)})" if rank is not None and pd.notna(rank) else ""
             note = f"{layout}{where} gives the same result: the {words} gives no gain here"
@@ -215,4 +259,13 @@ def fold_inactive(df: pd.DataFrame, objective: str = "net_power_kW",
     for j, note in notes.items():
         out.at[j, FOLD_NOTE] = note
         out.at[j, FOLDED] = folded[j]
+    if PARETO_COLUMN in out:  # the kept row stands for the folded ones: marked when one of them is
+        for i, j in into.items():
+            if _truthy(out.at[i, PARETO_COLUMN]):
+                out.at[j, PARETO_COLUMN] = True
     return out.drop(index=drop)
+
+
+def _truthy(value) -> bool:
+    """A Pareto mark read from a table: True, "True" (a CSV read as text), 1."""
+    return str(value).strip().lower() in ("true", "1", "yes")

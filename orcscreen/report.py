@@ -9,7 +9,9 @@ drawn in its own ``try``: a chart that fails is named in the report with its err
 of the report is written.
 
 The page answers first: the study in one line, the recommended candidates and the ranking table
-fill the first screen; charts, detail cards, then inputs, metadata and method follow. A layout
+fill the first screen; the best cases by each further ranking criterion (``study.rank_by``, or
+``rank_by`` given to :func:`build_report`) follow the table, then charts, detail cards, inputs,
+metadata and method. A layout
 whose extra component does nothing (a recuperator that takes no heat) is shown once, folded into
 its simpler layout's row (:func:`orcscreen.rank.fold_inactive`); ranking.csv keeps every case.
 
@@ -39,7 +41,8 @@ from orcscreen import plots, rank
 from orcscreen.controls import CONTROLS
 from orcscreen.figures import LAYOUT_COLUMNS
 from orcscreen.fluids import NOT_CLASSIFIED, UNKNOWN, gwp_text, safety_class_text
-from orcscreen.outputs import left_out_fluids, objective_of, ranking_table
+from orcscreen.objectives import CRITERIA, PARETO_COLUMN, rank_column
+from orcscreen.outputs import CRITERION_TOP, by_criterion, criteria_of, criterion_value_text, left_out_fluids, objective_of, ranking_table
 from orcscreen.safe_files import atomic_write, refuse_link
 from orcscreen.store import RunStore, StoreError
 
@@ -98,6 +101,7 @@ class _RunData:
     point: dict                      # reference operating point (swept values), {} without sweep
     top: pd.DataFrame                # best row of each of the top N fluids at the reference point
     details: dict[str, dict | None] = field(default_factory=dict)
+    criteria: tuple = ()             # the ranking's criteria (orcscreen.objectives), objective first
 
 
 #: The row columns the report reads (charts, tables, cards, cautions): the table of all cases
@@ -116,18 +120,20 @@ REPORT_COLUMNS = (
     "sink_temperature_rise_K", "area_evaporator_m2", "area_condenser_m2", "area_recuperator_m2",
     "condenser_area_basis", "investment_total", "specific_investment_per_kW", "annual_energy_MWh", "lcoe_per_MWh",
     "net_present_value", "capacity_factor", "hours_not_running", "caution",
-) + LAYOUT_COLUMNS + rank.fold_columns()
+) + tuple(c.column for c in CRITERIA.values()) + LAYOUT_COLUMNS + rank.fold_columns()
 
 
 def _load(out_dir: Path, top_n: int,
           columns: Sequence[str] | None = REPORT_COLUMNS,
-          store: RunStore | None = None) -> _RunData:
+          store: RunStore | None = None, rank_by: Sequence[str] | None = None) -> _RunData:
     """The report's data from the store (``store``, or the store of ``out_dir`` opened for
-    reading); ``columns`` None reads every row column."""
+    reading); ``columns`` None reads every row column; ``rank_by``: the criteria after the
+    objective instead of the stored study's."""
     with (RunStore(out_dir, create=False) if store is None
           else contextlib.nullcontext(store)) as store:
         meta, counts = store.meta(), store.counts()
-        table = ranking_table(store.rows(columns=columns), meta, all_columns=columns is None)
+        rank_by = list(rank_by) if rank_by is not None else None
+        table = ranking_table(store.rows(columns=columns), meta, all_columns=columns is None, rank_by=rank_by)
         sweep_cols = rank.sweep_columns(table)
         ok = rank.fold_inactive(rank.feasible(table), objective_of(meta).column)
         point: dict = {}
@@ -140,7 +146,7 @@ def _load(out_dir: Path, top_n: int,
         top = (at_point.sort_values("rank", kind="stable")
                .drop_duplicates("fluid", keep="first").head(top_n))
         details = dict(store.iter_details(list(top["case_key"])))
-    return _RunData(out_dir, meta, counts, table, sweep_cols, point, top, details)
+    return _RunData(out_dir, meta, counts, table, sweep_cols, point, top, details, criteria_of(meta, rank_by))
 
 
 def _at_point(df: pd.DataFrame, point: Mapping) -> pd.DataFrame:
@@ -211,6 +217,13 @@ def make_figures(data: _RunData, fig_dir: Path, svg: bool = False) -> list[Figur
           "whose extra component does nothing (a recuperator that takes no heat) is one bar, its "
           "simpler layout's, marked \"no gain\"." + (f" At the {note}." if note else ""),
           lambda: plots.ranking_chart(at_point))
+    if len(data.criteria) > 1:
+        draw(records, fig_dir, "criteria", "Best cases by each ranking criterion",
+              f"For each ranking criterion ({', '.join(c.name for c in data.criteria)}), its best "
+              f"{plots.CRITERIA_BARS} feasible cases, best on top, with the value; a black diamond marks a case "
+              "that is Pareto-optimal over all the criteria. A layout without gain is folded into its simpler "
+              "layout's bar." + (f" At the {note}." if note else ""),
+              lambda: plots.criteria_chart(at_point, data.criteria, money=_money(data.meta)))
     draw(records, fig_dir, "tradeoff_size_parameter", "Net power against turbine size",
           "Each point is a feasible case; filled diamonds are Pareto-optimal (no other case has "
           "more net power with a smaller size parameter); at most "
@@ -450,6 +463,8 @@ _RANK_COLUMNS = [
     ("display_name", "fluid", "", "working fluid"),
     ("layout", "layout", "", "cycle layout (a layout without gain is folded into it, see the note)"),
     ("net_power_kW", "net power [kW]", ".1f", "net electrical power"),
+    (PARETO_COLUMN, "Pareto", "", "Pareto-optimal over the ranking's criteria: no other case at the operating "
+     "point is at least as good in every criterion and better in one"),
     ("thermal_efficiency", "thermal eff. [%]", "%", "thermal efficiency: net power / heat input"),
     ("turbine_inlet_pressure_bar", "high p [bar]", ".2f",
      "highest cycle pressure: evaporation pressure, or the supercritical heater's"),
@@ -544,7 +559,7 @@ def _summary(data: _RunData) -> str:
         ("cases", f"{len(table)} (" + ", ".join(f"{n} {s}" for s, n in counts.items()) + ")"),
         ("fluids", table["fluid"].nunique() if "fluid" in table else 0),
         ("layouts", ", ".join(map(str, pd.unique(table["layout"]))) if "layout" in table else ""),
-        ("ranked by", objective_of(meta).label),
+        ("ranked by", "; ".join(f"{c.label} ({c.direction})" for c in (data.criteria or (objective_of(meta),)))),
         ("costs", _cost_basis(meta)),
     ]
     for c in data.sweep_cols:
@@ -696,6 +711,9 @@ def _cell(row: Mapping, col: str, fmt: str) -> tuple:
     if col == "caution":
         text = short_caution(row)
         return (text, text)
+    if col == PARETO_COLUMN:
+        text = "yes" if _truthy(value) else ""
+        return (text, text)
     if col in _CATALOGUE_SHOWN:
         return (_CATALOGUE_SHOWN[col](value), _sort_key(value))
     if fmt == "":
@@ -726,14 +744,58 @@ def _ranking_section(data: _RunData, overview: list[FigureRecord]) -> str:
                 "whose extra component does nothing (marked \"no gain\": the same result as the simpler "
                 "layout); ranking.csv has both rows." if folded else "") +
                (f" The first {len(shown)} of {len(ok)} rows; all are in ranking.csv." if cut > 0 else ""))
+    if data.criteria and len(data.criteria) > 1:
+        caption += (" Pareto: optimal over " + ", ".join(c.label for c in data.criteria) + " (compared at the "
+                    "6 significant digits of ranking.csv).")
     figs = "".join(_figure_html(r) for r in overview)
     empty = "<p>No case is feasible.</p>" if ok.empty else ""
     names = [c for c, _, _, _ in columns]
     wrap = tuple(len(data.sweep_cols) + names.index(c) for c in _WRAP_COLUMNS if c in names)
     return ('<section id="ranking"><h2>Ranking</h2>' + empty +
             (_table(headers, rows, "ranking-table", caption, wrap=wrap) if not ok.empty else "") +
-            "</section>" + (f'<section id="charts"><h2>Charts</h2><div class="charts">{figs}</div></section>'
+            "</section>" + _criteria_section(data, ok) + (f'<section id="charts"><h2>Charts</h2><div class="charts">{figs}</div></section>'
                             if figs else ""))
+
+
+def _criteria_section(data: _RunData, ok: pd.DataFrame) -> str:
+    """For each criterion after the objective, a small table of its best cases (folded as the
+    ranking table; the best over all operating points, the swept values shown, as the console
+    lists them): rank by that criterion within its point,
+    fluid, layout, value, net power, Pareto mark. Empty with the objective alone."""
+    if ok.empty or len(data.criteria) < 2:
+        return ""
+    blocks = []
+    for c in data.criteria[1:]:
+        col = rank_column(c)
+        if col not in ok or c.column not in ok:
+            continue
+        values = pd.to_numeric(ok[c.column], errors="coerce")
+        best = by_criterion(ok[np.isfinite(values)], c).head(CRITERION_TOP)  # as the console's
+        unit = plots.axis_label(c.column).partition(" [")[2].rstrip("]")
+        if c.needs_costs:  # money columns: the study's currency (per kW, per MWh)
+            per = c.column.rsplit("_per_", 1)[1] if "_per_" in c.column else ""
+            unit = _money(data.meta) + (f" per {per}" if per else "")
+        unit = "%" if c.fmt == "%" else unit
+        header = f"{c.label} [{unit}]" if unit not in ("", "-") else c.label
+        headers = [(f"rank by {c.name}", True, f"{col} in ranking.csv")]
+        headers += [(plots.axis_label(s), True, "swept study value") for s in data.sweep_cols]
+        headers += [("fluid", False), ("layout", False), (header, True, c.label),
+                    ("net power [kW]", True), ("Pareto", False)]
+        rows = []
+        for _, r in best.iterrows():
+            cells = [(_fmt(r[col], ".0f"), _sort_key(r[col]))]
+            cells += [(_fmt(r[s], "g"), _sort_key(r[s])) for s in data.sweep_cols]
+            cells += [_cell(r, "display_name", ""), _cell(r, "layout", ""),
+                      (criterion_value_text(c, r[c.column]), _sort_key(r[c.column])),
+                      _cell(r, "net_power_kW", ".1f"), _cell(r, PARETO_COLUMN, "")]
+            rows.append(cells)
+        caption = f"Best {len(best)} by {c.label} ({c.direction})."
+        blocks.append(f'<div class="criterion" data-criterion="{_e(c.name)}">'
+                      + _table(headers, rows, f"top-{c.name}", caption) + "</div>")
+    if not blocks:
+        return ""
+    return ('<section id="criteria"><h2>Best by each criterion</h2><div class="criteria">'
+            + "".join(blocks) + "</div></section>")
 
 
 def short_caution(row: Mapping) -> str:
@@ -955,6 +1017,8 @@ figure.failed{border:1px dashed #D55E00;padding:.5rem}
 figcaption{font-size:.85rem;color:var(--muted)}.files{font-family:monospace;font-size:.75rem}
 code{font-size:.85em}
 table.sortable td{white-space:nowrap}table.sortable td.wrap{white-space:normal;overflow-wrap:anywhere;min-width:7rem;max-width:22rem}
+.criteria{display:flex;flex-wrap:wrap;gap:0 1.2rem}.criteria table{font-size:.78rem}
+#criteria h2{font-size:1.1rem;margin:.6rem 0 .2rem}
 #ranking-table{font-size:.78rem;width:100%}#ranking-table thead th{white-space:normal;vertical-align:bottom}
 #ranking-table th,#ranking-table td{padding:.2rem .3rem}
 .input-grid{display:flex;flex-wrap:wrap;gap:.4rem 1.6rem;align-items:flex-start}
@@ -1042,6 +1106,7 @@ def render_report(data: _RunData, records: list[FigureRecord]) -> str:
         '<div class="banner">Preliminary screening, not a design: see the '
         '<a href="#cautions">cautions</a> before acting on any result.</div></header>'
         '<nav class="note"><a href="#ranking">ranking</a> · '
+        + ('<a href="#criteria">by criterion</a> · ' if len(data.criteria) > 1 else "")
         + ('<a href="#charts">charts</a> · ' if overview else "") +
         '<a href="#top">top fluids</a> · ' + ('<a href="#sweeps">sweeps</a> · ' if sweeps else "") +
         '<a href="#summary">inputs and method</a> · '
@@ -1057,7 +1122,8 @@ def render_report(data: _RunData, records: list[FigureRecord]) -> str:
     )
 
 
-def build_report(out_dir: str | os.PathLike[str], top_n: int = 5, svg: bool = False) -> Path:
+def build_report(out_dir: str | os.PathLike[str], top_n: int = 5, svg: bool = False,
+                 rank_by: Sequence[str] | None = None) -> Path:
     """Draw the charts and write ``out_dir/report.html`` from the run store; return its path.
 
     Recomputes nothing. Raises :class:`orcscreen.store.StoreNotFoundError` when ``out_dir`` has
@@ -1066,7 +1132,9 @@ def build_report(out_dir: str | os.PathLike[str], top_n: int = 5, svg: bool = Fa
     written. ``top_n``: number of best fluids (each in its best layout, at the operating point of
     the best case) that get a detail card with T-Q and T-s diagrams and appear in the landscape
     chart. ``svg``: write every chart as SVG too (vector files for print or editing; PNG alone
-    is what the page needs, and about half the time of a report).
+    is what the page needs, and about half the time of a report). ``rank_by``: the criteria
+    after the study's objective for this report (names of orcscreen.objectives.CRITERIA), instead
+    of the run's ``study.rank_by``; nothing is computed again.
     """
     out_dir = Path(out_dir)
     path = out_dir / REPORT_FILE
@@ -1080,7 +1148,7 @@ def build_report(out_dir: str | os.PathLike[str], top_n: int = 5, svg: bool = Fa
     with RunStore(out_dir, create=False, lock=True, purpose="report",
                   wait_s=REPORT_LOCK_WAIT_S) as store, store.snapshot():
         try:
-            data = _load(out_dir, max(0, int(top_n)), store=store)
+            data = _load(out_dir, max(0, int(top_n)), store=store, rank_by=rank_by)
         except sqlite3.DatabaseError as exc:  # a damaged file: say so, with what to do
             raise store.error_for(exc) from None
         records = make_figures(data, out_dir / FIGURES_DIR, svg=svg)

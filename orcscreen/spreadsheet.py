@@ -81,7 +81,8 @@ NAMES: dict[str, tuple[str, str]] = {
     "net_present_value": ("{currency}", "#,##0"),
 }
 #: Beginnings of names with their unit and format (checked after the whole names).
-PREFIXES: tuple[tuple[str, str, str], ...] = (("investment_", "{currency}", "#,##0"),)
+PREFIXES: tuple[tuple[str, str, str], ...] = (("investment_", "{currency}", "#,##0"),
+                                               ("rank_", "", "0"))  # rank_<criterion>: an integer
 
 #: Rows of a worksheet at most (Microsoft, "Excel specifications and limits": 1,048,576 rows by
 #: 16,384 columns); rows of ranking.csv beyond it are left out of the sheet, and the inputs sheet

@@ -72,7 +72,8 @@ SINK_KINDS = tuple(_streams.SINK_KINDS)
 #: Turbine efficiency models, from the turbine-model registry (orcscreen.turbine).
 TURBINE_MODELS = tuple(_turbine.TURBINE_MODELS)
 OBJECTIVE_NAMES = tuple(_objectives.OBJECTIVES)
-_ANNUAL_OBJECTIVES = tuple(o.name for o in _objectives.OBJECTIVES.values() if o.needs_year)
+#: Ranking criteria, from the criterion registry (orcscreen.objectives.CRITERIA).
+CRITERION_NAMES = tuple(_objectives.CRITERIA)
 SAFETY_CLASSES = ("A1", "A2L", "A2", "A3", "B1", "B2L", "B2", "B3")
 FLUE_GAS_SPECIES = tuple(_streams.GAS_SPECIES)
 MAX_CASES = 1_000_000
@@ -179,7 +180,18 @@ class StudySection(_Section):
         "sorts by: " + "; ".join(f'"{o.name}" ({o.label}, {"largest" if o.maximise else "smallest"} first)'
                                  for o in _objectives.OBJECTIVES.values()) + ".", _choices(OBJECTIVE_NAMES)
     )
+    rank_by: list[Literal[CRITERION_NAMES]] = _f(
+        list(_objectives.DEFAULT_RANK_BY), "Criteria the outputs rank by besides the objective, which always comes "
+        "first (each gets a rank_<criterion> column; the cases Pareto-optimal over them all are marked): "
+        + "; ".join(f'"{c.name}" ({c.label}, {c.direction})' for c in _objectives.CRITERIA.values())
+        + ". Outputs only: the cases computed do not depend on it.", f"a list of {_choices(CRITERION_NAMES)}"
+    )
     case_time_limit_s: float = _f(60.0, "Time limit of one case [s].", "a number > 0", gt=0)
+
+    @field_validator("rank_by", mode="before")
+    @classmethod
+    def _rank_by_list(cls, v: Any) -> Any:
+        return _as_list(v)
 
 
 class SourceSection(_Section):
@@ -1564,9 +1576,6 @@ def _check_year(study: Study, raw: Mapping[str, Any], specs: Mapping[str, Any], 
         if key in given:
             errors.append(f"{origin}: year.{key}: set by orcscreen on loading; allowed: leave it out")
     if section.file is None:
-        if study.study.objective in _ANNUAL_OBJECTIVES:
-            errors.append(f'{origin}: study.objective = "{study.study.objective}": needs a year; allowed: give '
-                          f"year.file, or another objective")
         return study
     if "sink.inlet_temperature_C" in specs:
         errors.append(f"{origin}: sweep.\"sink.inlet_temperature_C\": the year gives the sink temperatures; "
@@ -1593,13 +1602,28 @@ def _check_year(study: Study, raw: Mapping[str, Any], specs: Mapping[str, Any], 
                                     "sink": study.sink.model_copy(update={"inlet_temperature_C": T_design})})
 
 
+def criterion_problems(names: Mapping[str, str], study: Mapping[str, Any], origin: str) -> list[str]:
+    """One line per criterion (``names``: where it was given, e.g. ``study.rank_by[2]`` -> its
+    name) whose required study keys (``Criterion.requires``: a year, the price of the electricity)
+    the study (a mapping of sections) leaves unset."""
+    lines = []
+    for where, name in names.items():
+        criterion = _objectives.CRITERIA[name]
+        other = "another objective" if where == "study.objective" else "another criterion"
+        for key, what in _objectives.unmet(criterion, study):
+            lines.append(f'{origin}: {where} = "{name}": needs {what}; allowed: give {key}, or {other}')
+    return lines
+
+
 def _objective_problems(study: Study, origin: str, errors: list[str]) -> None:
-    """An objective that needs a price of the electricity must have one; a pinch is optimised only
-    for a cost (for the net power its lowest value always wins)."""
+    """The objective and the ranking criteria have the study keys they need (a year, the price
+    of the electricity); a pinch is optimised only for a cost (for the net power its lowest value
+    always wins)."""
     objective = _objectives.OBJECTIVES[study.study.objective]
-    if study.study.objective == "net_present_value" and study.economics.electricity_price_per_MWh is None:
-        errors.append(f'{origin}: study.objective = "net_present_value": needs the price of the electricity sold; '
-                      f"allowed: give economics.electricity_price_per_MWh, or another objective")
+    names = {"study.objective": objective.name}
+    names.update({f"study.rank_by[{i}]": n for i, n in enumerate(study.study.rank_by)
+                  if n != objective.name})
+    errors.extend(criterion_problems(names, study.model_dump(mode="python", by_alias=True), origin))
     for key in ("pinch_evaporator_K", "pinch_condenser_K"):
         if getattr(study.exchangers, key) == "optimise" and not objective.needs_costs:
             errors.append(f'{origin}: exchangers.{key} = "optimise": with study.objective = "{objective.name}" the '
@@ -1696,15 +1720,16 @@ def _canonical(obj: Any) -> str:
 def case_key(case: Case | Mapping[str, Any]) -> str:
     """Stable key of a case: first 16 hex digits of sha256 over its canonical JSON and versions.
 
-    Every input is covered except the study name and the case time limit (neither changes the
-    physics), so renaming a study or giving cases more time recomputes nothing. The
+    Every input is covered except the study name, the case time limit and the ranking criteria
+    (none changes the physics), so renaming a study, giving cases more time or ranking by other
+    criteria recomputes nothing. The
     "sweep" entry is covered too: the store keeps each row's swept values, and a case reused
     under another sweep shape would carry stale sweep columns. Extending a sweep axis keeps the
     keys of the points already computed.
     """
     body = dict(case.as_dict() if isinstance(case, Case) else case)
     if isinstance(body.get("study"), Mapping):
-        body["study"] = {k: v for k, v in body["study"].items() if k not in ("name", "case_time_limit_s")}
+        body["study"] = {k: v for k, v in body["study"].items() if k not in ("name", "case_time_limit_s", "rank_by")}
     text = _canonical({"case": body, "versions": _versions()})
     return hashlib.sha256(text.encode("ascii")).hexdigest()[:16]
 

@@ -23,6 +23,7 @@ import numpy as np
 import pandas as pd
 import pytest
 
+from orcscreen.objectives import PARETO_COLUMN, criteria_for, rank_column
 from orcscreen.outputs import (
     RANKING_FILE,
     ROW_COLUMNS,
@@ -240,7 +241,11 @@ def test_ranking_ranks_within_operating_point_with_tie_break(tmp_path):
     assert cols[:4] == ["case_key", T_IN, "sink.inlet_temperature_C", "rank"]
     assert cols[-3:] == ["orcscreen_version", "coolprop_version", "study_hash"]
     assert "elapsed_s" not in cols  # run timing is not part of a reproducible ranking
-    assert cols[4:-3] == [c for c in ROW_COLUMNS if c != "elapsed_s"]
+    # one rank per ranking criterion (the default ones: the store's meta holds no study), the
+    # Pareto mark, then the row columns
+    criteria = [rank_column(c) for c in criteria_for(None)]
+    assert cols[4:4 + len(criteria) + 1] == [*criteria, PARETO_COLUMN]
+    assert cols[5 + len(criteria):-3] == [c for c in ROW_COLUMNS if c != "elapsed_s"]
     first = table[table[T_IN] == 120.0]
     # 52 first; the 50 kW tie is broken by fluid name: R245fa < isobutane (ASCII order)
     ranks = [None if pd.isna(r) else int(r) for r in first["rank"]]
