@@ -30,6 +30,11 @@ EXIT_INTERRUPTED = 130
 SECONDS_PER_CASE_PER_CORE = 0.010
 SUPERHEAT_SEARCH_FACTOR = 25
 START_UP_S = 2.0
+#: Charts and report of a run [s] (the demo study's, 4-6 s on this project's 2-core machine,
+#: 2026-12-02: mostly fixed, a few charts of the top cases) and the tables per case [s]
+#: (ranking.csv and ranking.xlsx: about 1.3 ms a row at 20,000 rows)
+REPORT_S = 5.0
+TABLES_S_PER_CASE = 0.0015
 
 CAUTION_LINE = "Preliminary screening, not a design: see README Cautions."
 
@@ -162,10 +167,11 @@ def _cmd_check(args: argparse.Namespace) -> int:
     per_case = SECONDS_PER_CASE_PER_CORE * sum(LAYOUTS[n].cost_factor for n in study.layouts) / len(study.layouts)
     if study.cycle.superheat_K == "optimise":
         per_case *= SUPERHEAT_SEARCH_FACTOR
-    seconds = START_UP_S + study.n_cases * per_case / cores
+    outputs_s = REPORT_S + TABLES_S_PER_CASE * study.n_cases
+    seconds = START_UP_S + study.n_cases * per_case / cores + outputs_s
     print(f"  time: about {_duration(seconds)} on {cores} core{'s' if cores != 1 else ''} "
-          f"(a rough estimate at {per_case * 1000:.3g} ms per case per core, the layouts' measured costs, plus {START_UP_S:g} s start-up; "
-          f"real cases vary with fluid and layout)")
+          f"(a rough estimate at {per_case * 1000:.3g} ms per case per core, the layouts' measured costs, plus {START_UP_S:g} s start-up "
+          f"and about {_duration(outputs_s)} for the tables, charts and report; real cases vary with fluid and layout)")
     print("nothing was run or written.")
     return EXIT_OK
 

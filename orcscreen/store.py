@@ -163,6 +163,16 @@ def orcscreen_version() -> str:
         return "unknown"
 
 
+def _is_the_file_at(fd: int, path: Path) -> bool:
+    """True when the open file fd is the file at path (same device and inode; a link at path is
+    never followed), False when path is gone or is another file."""
+    try:
+        here, there = os.fstat(fd), os.stat(path, follow_symlinks=False)
+    except OSError:
+        return False
+    return (here.st_dev, here.st_ino) == (there.st_dev, there.st_ino)
+
+
 def _now() -> str:
     return datetime.now(timezone.utc).isoformat(timespec="seconds")
 
@@ -481,7 +491,12 @@ class RunStore:
         while True:
             try:
                 fcntl.flock(fd, fcntl.LOCK_EX | fcntl.LOCK_NB)
-                break
+                if _is_the_file_at(fd, lock_path):
+                    break
+                # the holder removed the file as it finished: lock the one now there instead
+                os.close(fd)
+                fd = open_lock_file(lock_path)
+                continue
             except BlockingIOError:
                 holder = os.pread(fd, 200, 0).decode("utf-8", "replace").strip()
                 if (not holder or holder.endswith(", report")) and time.monotonic() < deadline:
@@ -509,11 +524,17 @@ class RunStore:
         self._lock_fd = fd
 
     def close(self) -> None:
-        """Close the database and release the run lock (both idempotent)."""
+        """Close the database and release the run lock (both idempotent); the lock file is
+        removed first, while still held (a waiter that then gets the lock on the removed file
+        sees that it is gone and locks the path's new file: :meth:`_acquire_lock`)."""
         if self._conn is not None:
             self._conn.close()
             self._conn = None
         if self._lock_fd is not None:
+            lock_path = self.directory / LOCK_FILE
+            if _is_the_file_at(self._lock_fd, lock_path):
+                with contextlib.suppress(OSError):
+                    os.unlink(lock_path)
             os.close(self._lock_fd)  # closing the descriptor releases the flock
             self._lock_fd = None
 

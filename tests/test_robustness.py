@@ -337,6 +337,37 @@ def test_a_second_report_waits_for_the_first(reference, tmp_path, capsys):
     assert (out / "report.html").is_file()
 
 
+def test_a_waiting_report_follows_a_lock_file_removed_by_its_holder(reference, tmp_path, capsys):
+    """The holder removes run.lock as it finishes (as every orcscreen run and report does): the
+    waiting report, which opened the removed file, finds its lock on a file no longer at the
+    path, takes the lock of the path's new file instead (flock(2) locks files, not names: two
+    holders must never meet), builds the report and removes that file in turn."""
+    out = tmp_path / "out"
+    shutil.copytree(reference, out)
+    fd = os.open(out / LOCK_FILE, os.O_RDWR | os.O_CREAT)
+    fcntl.flock(fd, fcntl.LOCK_EX)
+    os.ftruncate(fd, 0)
+    os.write(fd, b"pid 1, started 2026-01-01T00:00:00+00:00, report\n")
+
+    def finish():
+        os.unlink(out / LOCK_FILE)
+        os.close(fd)
+
+    release = threading.Timer(0.5, finish)
+    release.start()
+    try:
+        code, _, err = run_cli(capsys, "report", out)
+    finally:
+        release.join()
+    assert code == 0, err
+    assert (out / "report.html").is_file() and not (out / LOCK_FILE).exists()
+
+
+def test_the_run_lock_file_is_gone_after_a_run(reference):
+    """README, Reliability: run.lock exists only while a run or a report holds the folder."""
+    assert (reference / "ranking.csv").is_file() and not (reference / LOCK_FILE).exists()
+
+
 # -- study messages ---------------------------------------------------------------------------
 
 def test_a_sweep_overriding_a_written_value_warns_in_check_and_run(tmp_path, capsys):
