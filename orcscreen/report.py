@@ -253,12 +253,16 @@ def make_figures(data: _RunData, fig_dir: Path, svg: bool = False) -> list[Figur
           lambda: plots.turbine_map(at_point, data.top))
     cases = [(r, data.details.get(r["case_key"])) for _, r in data.top.iterrows()]
     if any((d or {}).get("year") for _, d in cases):
-        year_control = ((data.meta.get("study") or {}).get("year") or {}).get("control") or "sliding-pressure"
+        year = (data.meta.get("study") or {}).get("year") or {}
+        year_control = year.get("control") or "sliding-pressure"
+        chosen_for = ("each design chosen for the most energy over the year (design_for = \"year\"; the case's "
+                      "warnings say how far from the design point's optimum)" if year.get("design_for") == "year"
+                      else "each design the study's optimum at the design condition")
         draw(records, fig_dir, "year_power", "Net power over the year",
-              "Each top case's fixed design rated at the sink temperatures of the year's bins (the turbine's "
-              "swallowing capacity sets the evaporation pressure; exchanger areas fixed, their coefficients scaled "
-              f"with the flows; control \"{year_control}\": {CONTROLS[year_control].description}). "
-              "A bin at zero does not run.",
+              f"Each top case's fixed design rated at the sink temperatures of the year's bins ({chosen_for}; the "
+              "turbine's swallowing capacity sets the heater pressure, a Stodola law per turbine section; exchanger "
+              f"areas fixed, their coefficients scaled with the flows; control \"{year_control}\": "
+              f"{CONTROLS[year_control].description}). A bin at zero does not run; its reason is in the case's warnings.",
               lambda: plots.year_chart(cases))
         draw(records, fig_dir, "rank_change", "Design-point ranking against the year",
               "Where the best case at the design point is not the best over the year, the two are drawn in colour.",
