@@ -182,19 +182,78 @@ def _cmd_fluids(args: argparse.Namespace) -> int:
     include = list(args.family) if args.family else ["all"]
     infos = fluids.select(include=include, exclude=[], max_gwp=args.max_gwp,
                           safety_classes=args.safety_class or None, zero_odp=args.zero_odp)
-    frame = fluids.catalogue_frame(infos)
+    columns = fluids.CATALOGUE_COLUMNS
+    rows = fluids.catalogue_rows(infos)
     if args.format == "csv":
-        sys.stdout.write(frame.to_csv(index=False, lineterminator="\n"))
+        sys.stdout.write(_fluids_csv(rows, columns))
     elif args.format == "json":
-        print(json.dumps(json.loads(frame.to_json(orient="records")), indent=2, ensure_ascii=False))
+        print(json.dumps(_fluids_records(rows, columns), indent=2, ensure_ascii=False))
     else:
-        unknown = {c: frame[c].map(lambda v: "-" if v is None else v) for c in frame.columns if frame[c].dtype == object}
-        with_units = frame.assign(**unknown).rename(columns=_TABLE_HEADERS)
-        print(with_units.to_string(index=False, na_rep="-", float_format=lambda x: f"{x:.5g}")
-              if len(frame) else "no fluid matches these filters")
-        print(f"\n{len(frame)} fluids.")
+        print(_fluids_table(rows, columns) if rows else "no fluid matches these filters")
+        print(f"\n{len(rows)} fluids.")
         print(_cautions_text(fluids))
     return EXIT_OK
+
+
+# The catalogue table without pandas (its import is most of the command's time): each column
+# typed as a table library types it (a number column with a gap or a fraction holds floats;
+# tests/test_packaging.py compares the three formats with pandas' own output).
+
+def _column_kind(values: list) -> str:
+    """"bool", "int", "float" or "text": the type a column of these values takes."""
+    present = [v for v in values if v is not None]
+    if present and all(isinstance(v, bool) for v in present):
+        return "bool" if len(present) == len(values) else "text"
+    if present and all(isinstance(v, (int, float)) and not isinstance(v, bool) for v in present):
+        gaps = len(present) < len(values)
+        return "float" if gaps or any(isinstance(v, float) for v in present) else "int"
+    return "text"
+
+
+def _typed_columns(rows: list[dict], columns: Sequence[str]) -> list[tuple[str, str, list]]:
+    """(name, kind, values) per column; a float column's values are floats, gaps NaN."""
+    out = []
+    for c in columns:
+        values = [r[c] for r in rows]
+        kind = _column_kind(values)
+        if kind == "float":
+            values = [math.nan if v is None else float(v) for v in values]
+        out.append((c, kind, values))
+    return out
+
+
+def _fluids_csv(rows: list[dict], columns: Sequence[str]) -> str:
+    """CSV with a header line; numbers in full (repr), gaps empty."""
+    import csv
+    import io
+
+    buffer = io.StringIO()
+    writer = csv.writer(buffer, lineterminator="\n")
+    typed = _typed_columns(rows, columns)
+    writer.writerow(columns)
+    for i in range(len(rows)):
+        writer.writerow(["" if v is None or (kind == "float" and math.isnan(v)) else repr(v) if kind == "float" else v
+                         for _, kind, values in typed for v in (values[i],)])
+    return buffer.getvalue()
+
+
+def _fluids_records(rows: list[dict], columns: Sequence[str]) -> list[dict]:
+    """One record a fluid; floats to 10 decimals, gaps null."""
+    typed = _typed_columns(rows, columns)
+    return [{name: (None if math.isnan(values[i]) else round(values[i], 10)) if kind == "float" else values[i]
+             for name, kind, values in typed} for i in range(len(rows))]
+
+
+def _fluids_table(rows: list[dict], columns: Sequence[str]) -> str:
+    """Right-aligned columns with unit headers; floats to 5 significant digits, gaps "-"."""
+    cells = []
+    for name, kind, values in _typed_columns(rows, columns):
+        shown = ["-" if v is None or (kind == "float" and math.isnan(v)) else f"{v:.5g}" if kind == "float" else str(v)
+                 for v in values]
+        header = (" " if kind != "text" else "") + _TABLE_HEADERS.get(name, name)  # room for a sign
+        width = max(len(header), *(len(v) for v in shown))
+        cells.append([header.rjust(width)] + [v.rjust(width) for v in shown])
+    return "\n".join(" ".join(line) for line in zip(*cells))
 
 
 _TABLE_HEADERS = {"coolprop_name": "fluid", "display_name": "name", "safety_class": "class",

@@ -72,7 +72,9 @@ __all__ = [
     "LeftOut",
     "Selection",
     "UnknownFluidError",
+    "CATALOGUE_COLUMNS",
     "catalogue_frame",
+    "catalogue_rows",
     "catalogue_path",
     "caution_text",
     "classify_curve",
@@ -730,12 +732,18 @@ def gwp_text(value) -> str:
     return UNKNOWN if math.isnan(number) else f"{number:g}"
 
 
-def catalogue_frame(infos=None) -> "pd.DataFrame":
-    """Display table of catalogue fluids (°C, bar, g/mol); all fluids when infos is None."""
-    import pandas as pd  # imported here: keeps `import orcscreen.fluids` light
+#: Columns of the catalogue's display table, in order (:func:`catalogue_rows`, ``orcscreen fluids``)
+CATALOGUE_COLUMNS = (
+    "coolprop_name", "display_name", "family", "safety_class", "gwp100", "odp", "T_crit_C",
+    "p_crit_bar", "T_nbp_C", "M_g_mol", "curve_type", "max_temperature_C", "flammable", "toxicity",
+)
 
+
+def catalogue_rows(infos=None) -> list[dict]:
+    """Display rows of catalogue fluids (°C, bar, g/mol), keys :data:`CATALOGUE_COLUMNS`, None
+    where unknown; all fluids when infos is None. Plain dictionaries: no pandas."""
     infos = load_catalogue() if infos is None else infos
-    rows = [
+    return [
         {
             "coolprop_name": i.coolprop_name,
             "display_name": i.display_name,
@@ -754,8 +762,10 @@ def catalogue_frame(infos=None) -> "pd.DataFrame":
         }
         for i in infos
     ]
-    columns = [
-        "coolprop_name", "display_name", "family", "safety_class", "gwp100", "odp", "T_crit_C",
-        "p_crit_bar", "T_nbp_C", "M_g_mol", "curve_type", "max_temperature_C", "flammable", "toxicity",
-    ]
-    return pd.DataFrame(rows, columns=columns)
+
+
+def catalogue_frame(infos=None) -> "pd.DataFrame":
+    """:func:`catalogue_rows` as a DataFrame (°C, bar, g/mol); all fluids when infos is None."""
+    import pandas as pd  # imported here: keeps `import orcscreen.fluids` light
+
+    return pd.DataFrame(catalogue_rows(infos), columns=list(CATALOGUE_COLUMNS))

@@ -80,6 +80,48 @@ def test_cli_answers_without_the_engine_until_a_command_needs_it(argv, tmp_path)
     assert loaded in ([], ["numpy"]), loaded
 
 
+#: Commands that need neither tables nor charts: they must leave pandas and Matplotlib unloaded
+#: (issue 15, start-up: "import only what a command uses").
+_LIGHT_COMMANDS = [["check", str(REPO / "studies" / "demo.toml")], ["fluids"], ["fluids", "--format", "csv"],
+                   ["fluids", "--format", "json"], ["fluids", "--family", "hydrocarbon"], ["schema"]]
+
+
+@pytest.mark.parametrize("argv", _LIGHT_COMMANDS, ids=lambda a: " ".join(a[:3]).replace(str(REPO), "."))
+def test_light_commands_leave_pandas_and_matplotlib_unloaded(argv, tmp_path):
+    code = ("import contextlib, io, sys\nfrom orcscreen import cli\n"
+            "out = io.StringIO()\n"
+            "with contextlib.redirect_stdout(out), contextlib.redirect_stderr(io.StringIO()):\n"
+            f"    status = cli.main({argv!r})\n"
+            "print(status, len(out.getvalue()))\n"
+            "print(sorted(m for m in sys.modules if m.split('.')[0] in {'pandas', 'matplotlib'}))")
+    done = _run_python(code, tmp_path)
+    assert done.returncode == 0, done.stderr
+    status_line, loaded = done.stdout.strip().splitlines()[-2:]
+    status, printed = map(int, status_line.split())
+    assert status == 0 and printed > 0  # the command did its work...
+    assert loaded == "[]"  # ...without the table and chart libraries
+
+
+@pytest.mark.parametrize("family", [None, "hydrocarbon", "hfo"])
+def test_fluids_command_prints_what_pandas_prints(family, capsys):
+    # The catalogue table is formatted without pandas; pandas (PyPI) is the reference for the
+    # three formats of the DataFrame the command printed before: to_csv, to_json (records, its
+    # default 10 decimals) and to_string with the command's float format and "-" for gaps.
+    from orcscreen import cli, fluids
+
+    argv = ["fluids"] + (["--family", family] if family else [])
+    infos = fluids.select(include=[family] if family else ["all"], exclude=[], max_gwp=None,
+                          safety_classes=None, zero_odp=False)
+    frame = fluids.catalogue_frame(infos)
+    assert cli.main([*argv, "--format", "csv"]) == 0
+    assert capsys.readouterr().out == frame.to_csv(index=False, lineterminator="\n")
+    assert cli.main([*argv, "--format", "json"]) == 0
+    assert json.loads(capsys.readouterr().out) == json.loads(frame.to_json(orient="records"))
+    assert cli.main(argv) == 0
+    table = frame.rename(columns=cli._TABLE_HEADERS).to_string(
+        index=False, na_rep="-", float_format=lambda x: f"{x:.5g}")
+    assert capsys.readouterr().out.startswith(table + f"\n\n{len(frame)} fluids.\n")
+
 def test_cli_unknown_fluid_error_is_still_bad_input(capsys):
     # UnknownFluidError reaches the boundary from orcscreen.fluids, which is then loaded: the
     # boundary finds the type among the loaded modules and answers exit status 2, one line
