@@ -599,6 +599,18 @@ def _method(meta: Mapping) -> str:
         "layout's result: tables and charts show it once, with a note; ranking.csv keeps both rows.",
         "The model, its assumptions and its sources: README, \"What a case computes\".",
     ]
+    year = study.get("year") or {}
+    if year.get("file"):
+        control = year.get("control") or "sliding-pressure"
+        items.insert(-1, (
+            f"A year of operation ({year.get('file')}, bins of {_fmt(year.get('bin_width_K'), 'g')} K): each design "
+            + ("chosen for the most energy over the year" if year.get("design_for") == "year"
+               else "optimised at the design sink temperature")
+            + " fixes its hardware (turbine swallowing capacity by Stodola's ellipse law per section, part-load "
+            "efficiency by Pili et al. 2019, exchanger areas with film coefficients scaled as flow^0.8); each bin's "
+            f"operating point is solved with that hardware under control \"{control}\": "
+            f"{CONTROLS[control].description}. A bin where no operating point exists, or a limit still breaks, "
+            "counts zero with its reason (hours not running)."))
     return '<h3 id="method">Method</h3><ul>' + "".join(f"<li>{_e(t)}</li>" for t in items) + "</ul>"
 
 

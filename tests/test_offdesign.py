@@ -413,3 +413,24 @@ def test_a_supercritical_heater_slides_and_holds_its_pressure_limit(transcritica
         assert heater_profile(fine, p.m_wf_kg_s, st["3"].h, ctx.source).min_approach_K > 0.0
     W = [p.W_net_W for T, p in points if T > 14.0]
     assert all(a > b for a, b in zip(W, W[1:]))
+
+
+def test_the_report_explains_the_year_strategy(tmp_path):
+    """The report of a study with a year says how the year was rated: the method names the
+    control and its answers, and the year chart's caption what each design was chosen for."""
+    import html
+
+    from orcscreen import cli
+    from orcscreen.controls import CONTROLS
+
+    (tmp_path / "year.csv").write_text("sink_temperature_C,hours\n4,3000\n14,3000\n24,2760\n", encoding="utf-8")
+    (tmp_path / "study.toml").write_text(
+        'schema_version = 1\n[source]\nkind = "brine"\ninlet_temperature_C = 130\nmass_flow_kg_s = 30\n'
+        '[sink]\nkind = "air"\ntemperature_rise_K = 12\n[fluids]\ninclude = ["R245fa"]\n'
+        '[cycle]\nlayouts = ["basic"]\n[year]\nfile = "year.csv"\ndesign_for = "year"\n', encoding="utf-8")
+    out = tmp_path / "out"
+    assert cli.main(["run", str(tmp_path / "study.toml"), "--out", str(out), "--jobs", "1"]) == 0
+    page = (out / "report.html").read_text(encoding="utf-8")
+    assert "A year of operation (year.csv" in page
+    assert html.escape(CONTROLS["sliding-pressure"].description) in page  # the page escapes its text
+    assert "each design chosen for the most energy over the year" in page
