@@ -1,9 +1,13 @@
 """(d) Peak resident memory of runs of 1,000, 10,000 and 20,000 cases through the CLI (--jobs 2).
 
-Each size is a generated temporary study: few fluids (R245fa and IsoButane by default, basic and
-recuperated: 4 cases per operating point) x many operating points (source inlet temperatures
-spread over 100-150 °C x 10 cooling-water temperatures 10-30 °C). Each run is
-``orcscreen run STUDY --out DIR --jobs 2 --no-report`` in a subprocess with a fresh DIR.
+Each size is a generated temporary study: the 40 catalogue fluids of the overnight-sweep study
+(its families: hydrocarbons, HFCs, HFOs, HCFOs) in the basic and recuperated layouts, 80 cases per
+operating point, x as many operating points as the size needs (source inlet temperatures spread
+over 100-150 °C x up to 10 cooling-water temperatures 10-30 °C, the grid that overshoots the
+size least: 1,040 / 10,000 / 20,000 cases). Each fluid's saturation memo is bounded
+(orcscreen.properties.SAT_MEMO_ENTRIES); with 2 fluids the memos stayed small and could not show
+their growth. Each run is ``orcscreen run STUDY --out DIR --jobs 2 --no-report`` in a subprocess
+with a fresh DIR.
 
 Memory, all from the kernel: every --poll seconds the script lists the run's process tree
 (the CLI and its joblib workers, from /proc/*/stat) and reads VmRSS and VmHWM from
@@ -12,11 +16,17 @@ largest VmHWM of any one process (the driver and the workers separately), and ru
 os.wait4 on the CLI process (the largest single process of the tree, workers included once
 they have been waited for). The driver's VmRSS in the middle of the run (largest sample
 between 40 and 60 % of the wall time) is printed too: it separates the streaming batch from
-the tables written at the end (ranking.csv is built from every stored row). Then the ratio largest size / smallest size of each. Only prints
-figures.
+the tables written at the end (ranking.csv is built from every stored row). Then the ratio
+largest size / smallest size of each.
 
-    python benchmarks/bench_memory.py                          # 1,000, 10,000, 20,000 cases
+Last, the saturation memo per fluid: this process runs the cases of the smallest size one by one
+(``orcscreen.api.run_case``, as one worker would) and prints each fluid's memo entries and bytes
+(sys.getsizeof of the memo, its keys, its SatPoints and their floats; this agrees with a
+tracemalloc measurement of the same memo). Only prints figures.
+
+    python benchmarks/bench_memory.py                          # 1,040, 10,000, 20,000 cases
     python benchmarks/bench_memory.py --sizes 200 1000         # a quick try
+    python benchmarks/bench_memory.py --sizes 1000 --fluids R245fa IsoButane --memo-cases 0
 """
 
 from __future__ import annotations
@@ -26,6 +36,7 @@ import math
 import os
 import shutil
 import subprocess
+import sys
 import tempfile
 import time
 from pathlib import Path
@@ -35,14 +46,29 @@ import benchlib as bl
 SINK_VALUES_C = [10.0, 12.0, 14.0, 16.0, 18.0, 20.0, 22.0, 24.0, 26.0, 30.0]
 
 
-def memory_study(n_cases: int, fluids: list[str]) -> dict:
-    """A study dict of at least n_cases cases: len(fluids) x 2 layouts per point."""
+def default_fluids() -> list[str]:
+    """The [fluids] include list of the overnight-sweep study (families: 40 catalogue fluids)."""
+    return list(bl.read_study_dict(bl.STUDIES / "overnight-sweep.toml")["fluids"]["include"])
+
+
+def grid(points: int) -> tuple[int, int]:
+    """(source temperatures, sink temperatures) with at least `points` operating points and the
+    fewest beyond that (more sink temperatures on a tie)."""
+    best = None
+    for n_sink in range(1, min(len(SINK_VALUES_C), points) + 1):
+        n_src = math.ceil(points / n_sink)
+        key = (n_src * n_sink, -n_sink)
+        if best is None or key < best[0]:
+            best = (key, (n_src, n_sink))
+    return best[1]
+
+
+def memory_study(n_cases: int, fluids: list[str], n_fluids: int) -> dict:
+    """A study dict of at least n_cases cases: n_fluids (what `fluids` selects) x 2 layouts per point."""
     raw = bl.read_study_dict(bl.STUDIES / "overnight-sweep.toml")
     raw.pop("sweep", None)
-    per_point = 2 * len(fluids)
-    points = math.ceil(n_cases / per_point)
-    n_sink = min(len(SINK_VALUES_C), points)
-    n_src = math.ceil(points / n_sink)
+    per_point = 2 * n_fluids
+    n_src, n_sink = grid(math.ceil(n_cases / per_point))
     raw["study"] = dict(raw.get("study", {}), name=f"bench_memory: {n_src * n_sink * per_point} cases")
     raw["fluids"] = {"include": list(fluids)}
     raw["cycle"] = dict(raw.get("cycle", {}), layouts=["basic", "recuperated"])
@@ -51,6 +77,42 @@ def memory_study(n_cases: int, fluids: list[str]) -> dict:
         "sink.inlet_temperature_C": SINK_VALUES_C[:n_sink],
     }
     return raw
+
+
+def memo_bytes(memo) -> int:
+    """Bytes held by a saturation memo: the mapping, its keys, its SatPoints and their floats
+    (each object once)."""
+    seen: set[int] = set()
+    total = sys.getsizeof(memo)
+    for key, sat in memo.items():
+        for obj in (key, sat, *(getattr(sat, name) for name in sat.__slots__)):
+            if id(obj) not in seen:
+                seen.add(id(obj))
+                total += sys.getsizeof(obj)
+    return total
+
+
+def memo_per_fluid(study_path: Path, limit: int) -> None:
+    """Run the first `limit` cases of a study in this process and print the memo of each fluid."""
+    from orcscreen import api, properties
+    from orcscreen.study import load_study
+
+    study = load_study(study_path, allow_huge=True)
+    cases = list(study.cases())[:limit]
+    t0 = time.perf_counter()
+    for case in cases:
+        api.run_case(case)
+    wall = time.perf_counter() - t0
+    names = {properties.get_fluid(n) for n in study.fluids}
+    sizes = sorted(((len(f._sat_cache), memo_bytes(f._sat_cache), f.name) for f in names), reverse=True)
+    entries = [e for e, _, _ in sizes]
+    nbytes = [b for _, b, _ in sizes]
+    print(f"\nsaturation memo per fluid after {len(cases)} cases in this process ({wall:.0f} s; {len(sizes)} fluids,"
+          f" about {len(cases) / max(len(sizes), 1):.0f} cases each; bound {properties.SAT_MEMO_ENTRIES} entries):")
+    print(f"  entries   median {bl.median(entries):.0f}, largest {entries[0]} ({sizes[0][2]}),"
+          f" at the bound {sum(e >= properties.SAT_MEMO_ENTRIES for e in entries)} fluids")
+    print(f"  bytes     median {bl.median(nbytes) / 1024:.0f} KiB, largest {max(nbytes) / 2**20:.3f} MiB,"
+          f" all fluids {sum(nbytes) / 2**20:.1f} MiB; per entry {sum(nbytes) / max(sum(entries), 1):.0f} B")
 
 
 def measure(study_path: Path, out_dir: Path, jobs: int, poll_s: float) -> dict:
@@ -103,24 +165,32 @@ def measure(study_path: Path, out_dir: Path, jobs: int, poll_s: float) -> dict:
 def main(argv=None) -> int:
     ap = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
     ap.add_argument("--sizes", type=int, nargs="+", default=[1000, 10000, 20000], help="case counts (default 1000 10000 20000)")
-    ap.add_argument("--fluids", nargs="+", default=["R245fa", "IsoButane"], help="fluids of the generated studies")
+    ap.add_argument("--fluids", nargs="+", default=None,
+                    help="fluids or families of the generated studies (default: overnight-sweep's, 40 fluids)")
     ap.add_argument("--jobs", type=int, default=2, help="worker processes (default 2)")
     ap.add_argument("--poll", type=float, default=0.1, help="sampling interval [s] (default 0.1)")
+    ap.add_argument("--memo-cases", type=int, default=None,
+                    help="cases of the smallest size run in this process to measure the memos (default all; 0: skip)")
     ap.add_argument("--keep", action="store_true", help="keep the temporary folder")
     args = ap.parse_args(argv)
 
+    from orcscreen.study import load_study
+
     bl.print_header("bench_memory (d): peak resident memory against the number of cases")
     tmp = Path(tempfile.mkdtemp(prefix="orcscreen-bench-memory-"))
+    fluids = args.fluids or default_fluids()
+    probe = load_study(bl.write_study(memory_study(1, fluids, 1), tmp / "fluids.toml"), allow_huge=True)
+    n_fluids = len(probe.fluids)
     print(f"folder    {tmp}{'' if args.keep else ' (removed at the end)'}")
-    print(f"runs      orcscreen run STUDY --out DIR --jobs {args.jobs} --no-report; fluids {', '.join(args.fluids)}, basic and recuperated;"
-          f" sampled every {args.poll} s\n")
+    print(f"runs      orcscreen run STUDY --out DIR --jobs {args.jobs} --no-report; {n_fluids} fluids ({', '.join(fluids)}),"
+          f" basic and recuperated; sampled every {args.poll} s\n")
     results = []
+    paths = []
     try:
         for n in args.sizes:
-            study = memory_study(n, args.fluids)
+            study = memory_study(n, fluids, n_fluids)
             path = bl.write_study(study, tmp / f"memory-{n}.toml")
-            from orcscreen.study import load_study
-
+            paths.append(path)
             n_real = load_study(path, allow_huge=True).n_cases
             r = measure(path, tmp / f"out-{n}", args.jobs, args.poll)
             r["cases"] = n_real
@@ -142,6 +212,8 @@ def main(argv=None) -> int:
                                ("ru_maxrss_kB", "ru_maxrss (largest single process)")):
                 ratio = b[key] / a[key] if a[key] else math.nan
                 print(f"  {label:<40} {ratio:6.2f}")
+        if paths and args.memo_cases != 0:
+            memo_per_fluid(paths[0], args.memo_cases or 10**9)
     finally:
         if not args.keep:
             shutil.rmtree(tmp, ignore_errors=True)
