@@ -222,7 +222,9 @@ def _f(x: float) -> float | None:
 
 
 def case_detail(layout: Layout, fluid, sink, r: CycleResult, opt) -> dict:
-    """What the charts of one case draw: states, exchanger profiles, T-s path, dome, scan."""
+    """What the charts of one case draw: states, exchanger profiles, scan, and the lowest
+    temperature of its T-s diagram (T_low_C). The T-s path and the saturation dome are drawn
+    for a few cases only, so they are computed when drawn (:func:`with_ts_data`), not here."""
     states = [
         {
             "name": k,
@@ -249,19 +251,12 @@ def case_detail(layout: Layout, fluid, sink, r: CycleResult, opt) -> dict:
             "pinch_T_cold_C": float(p.T_cold_K[j]) - 273.15,
             "ua_kW_K": _f(p.ua_W_K() / 1e3),
         }
-    s_path, T_path = layout.ts_path(fluid, r)
-    T_dome, sL, sV = saturation_dome(fluid, min(r.T_cond_K, sink.T_in_K) - 15.0)
     var = opt.scan_variable
     x_opt = r.variables.get(var.name, math.nan) if var is not None else math.nan
     return {
         "states": states,
         "exchangers": exch,
-        "ts_path": {"s_kJ_kgK": [s / 1e3 for s in s_path], "T_C": [t - 273.15 for t in T_path]},
-        "dome": {
-            "s_liquid_kJ_kgK": [s / 1e3 for s in sL],
-            "s_vapour_kJ_kgK": [s / 1e3 for s in sV],
-            "T_C": [t - 273.15 for t in T_dome],
-        },
+        "T_low_C": min(r.T_cond_K, sink.T_in_K) - 15.0 - 273.15,
         "landscape": {
             "variable": var.label if var is not None else "",
             "unit": var.unit if var is not None else "",
@@ -277,3 +272,47 @@ def case_detail(layout: Layout, fluid, sink, r: CycleResult, opt) -> dict:
             "variables": {k: _f(v) for k, v in r.variables.items()},
         },
     }
+
+
+def ts_data(layout: Layout, fluid, r, T_low_K: float) -> dict:
+    """The T-s diagram's cycle path and saturation dome [kJ/(kg K), °C] of result r (a
+    CycleResult, or the states of a stored detail: :func:`with_ts_data`) down to T_low_K [K]."""
+    s_path, T_path = layout.ts_path(fluid, r)
+    T_dome, sL, sV = saturation_dome(fluid, T_low_K)
+    return {
+        "ts_path": {"s_kJ_kgK": [s / 1e3 for s in s_path], "T_C": [t - 273.15 for t in T_path]},
+        "dome": {
+            "s_liquid_kJ_kgK": [s / 1e3 for s in sL],
+            "s_vapour_kJ_kgK": [s / 1e3 for s in sV],
+            "T_C": [t - 273.15 for t in T_dome],
+        },
+    }
+
+
+def with_ts_data(detail: dict, row) -> dict:
+    """detail with its T-s path and dome, computed from its stored states and the row's layout,
+    fluid and condensing and evaporation temperatures when the detail does not hold them (runs
+    since the T-s data is computed only for the cases drawn)."""
+    if detail.get("ts_path") or not detail.get("states"):
+        return detail
+    from types import SimpleNamespace
+
+    from .properties import get_fluid
+    from .states import State
+
+    fluid = get_fluid(str(row.get("coolprop_name") or row.get("fluid")))
+    states = {st["name"]: State(st["T_C"] + 273.15, st["p_bar"] * 1e5, st["h_kJ_kg"] * 1e3, st["s_kJ_kgK"] * 1e3,
+                                math.nan, math.nan if st.get("q") is None else st["q"])
+              for st in detail["states"]}
+    r = SimpleNamespace(states=states, T_evap_K=_num(row.get("evaporation_temperature_C")) + 273.15,
+                        T_cond_K=_num(row.get("condensing_temperature_C")) + 273.15)
+    T_low = detail.get("T_low_C")
+    T_low_K = (r.T_cond_K - 15.0) if T_low is None else T_low + 273.15
+    return {**detail, **ts_data(LAYOUTS[row["layout"]], fluid, r, T_low_K)}
+
+
+def _num(value) -> float:
+    try:
+        return float(value)
+    except (TypeError, ValueError):
+        return math.nan

@@ -39,7 +39,7 @@ import pandas as pd
 
 from orcscreen import plots, rank
 from orcscreen.controls import CONTROLS
-from orcscreen.figures import LAYOUT_COLUMNS
+from orcscreen.figures import LAYOUT_COLUMNS, with_ts_data
 from orcscreen.fluids import NOT_CLASSIFIED, UNKNOWN, gwp_text, safety_class_text
 from orcscreen.objectives import CRITERIA, PARETO_COLUMN, rank_column
 from orcscreen.outputs import CRITERION_TOP, by_criterion, criteria_of, criterion_value_text, left_out_fluids, objective_of, ranking_table
@@ -301,7 +301,7 @@ def make_figures(data: _RunData, fig_dir: Path, svg: bool = False) -> list[Figur
               lambda row=row, nd=need_detail: plots.tq_diagram(nd(), row), group=key)
         draw(records, fig_dir, f"ts_{stem}", f"T-s diagram, {label}",
               "Saturation dome, cycle path and numbered states.",
-              lambda row=row, nd=need_detail: plots.ts_diagram(nd(), row), group=key)
+              lambda row=row, nd=need_detail: plots.ts_diagram(with_ts_data(nd(), row), row), group=key)
     return records
 
 

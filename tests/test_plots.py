@@ -14,6 +14,8 @@ The Pareto tests use hand-made tables whose front was worked out by hand.
 
 from __future__ import annotations
 
+import json
+
 import math
 import re
 
@@ -23,6 +25,7 @@ import pandas as pd
 import pytest
 
 from orcscreen import plots, rank
+from orcscreen.figures import with_ts_data
 from orcscreen.api import run_case
 from orcscreen.study import study_from_dict
 
@@ -226,7 +229,7 @@ def test_tq_duties_balance_heat_input_and_rejection(run):
 def test_ts_diagram_draws_the_states_dome_and_path(run):
     df, details = run
     row = _best_ok(df, "recuperated")
-    detail = details[row["case_key"]]
+    detail = with_ts_data(details[row["case_key"]], row)  # the T-s data is computed for the drawn cases only
     ax = plots.ts_diagram(detail, row)
     states = _by_gid(ax.lines, "states")
     np.testing.assert_allclose(states.get_xdata(), [s["s_kJ_kgK"] for s in detail["states"]])
@@ -241,6 +244,39 @@ def test_ts_diagram_draws_the_states_dome_and_path(run):
     np.testing.assert_allclose(path.get_ydata(), detail["ts_path"]["T_C"])
     assert ax.get_xlabel() == "specific entropy [kJ/(kg·K)]"
     assert ax.get_ylabel() == "temperature [°C]"
+
+
+@pytest.mark.parametrize("fluid, layout, source_C", [
+    ("R245fa", "basic", 130.0), ("R245fa", "recuperated", 130.0), ("R245fa", "bleed-regenerative", 130.0),
+    ("R245fa", "reheat", 130.0), ("R134a", "transcritical", 150.0)])
+def test_ts_data_from_the_stored_states_equals_the_live_result(fluid, layout, source_C):
+    """The T-s path drawn from a stored detail (its states, the row's temperatures) is the one
+    the live cycle result gives (layout.ts_path on the engine's own states) to 1e-9: deferring the
+    chart data to the drawn cases changes nothing drawn."""
+    from orcscreen import fluids
+    from orcscreen.api import case_context
+    from orcscreen.cycles import LAYOUTS
+    from orcscreen.figures import case_detail, result_row, ts_data
+    from orcscreen.optimize import optimise
+    from orcscreen.study import study_from_dict
+
+    raw = {"source": {"kind": "brine", "inlet_temperature_C": source_C, "mass_flow_kg_s": 30.0},
+           "sink": {"kind": "water", "inlet_temperature_C": 20.0}, "fluids": {"include": [fluid]},
+           "cycle": {"layouts": [layout]}}
+    case = next(iter(study_from_dict(raw).cases()))
+    info = fluids.get_info(case.fluid)
+    ctx, L = case_context(case, info), LAYOUTS[layout]
+    opt = optimise(L, ctx)
+    r = opt.cycle
+    detail = json.loads(json.dumps(case_detail(L, ctx.fluid, ctx.sink, r, opt)))  # as stored
+    row = result_row(case.fluid, L, info, ctx.fluid, ctx.source, ctx.sink, r, opt.binding_limit, opt.evaluations,
+                     0.0, ctx.settings)
+    row = json.loads(json.dumps(row, default=str))
+    drawn = with_ts_data(detail, row)
+    live = ts_data(L, ctx.fluid, r, min(r.T_cond_K, ctx.sink.T_in_K) - 15.0)
+    for part, keys in (("ts_path", ("s_kJ_kgK", "T_C")), ("dome", ("s_liquid_kJ_kgK", "s_vapour_kJ_kgK", "T_C"))):
+        for k in keys:
+            np.testing.assert_allclose(drawn[part][k], live[part][k], rtol=1e-9, atol=1e-9)
 
 
 # --------------------------------------------------------------------------- Pareto
