@@ -36,28 +36,31 @@ def design_year_columns(econ) -> dict:
 
 
 def optimum_for_year(layout, ctx, opt, section) -> tuple:
-    """(optimum, notes): the design-point optimum opt, or with section.design_for = "year" the
-    design searched for the year's energy (orcscreen.year_design) in its place."""
+    """(optimum, notes, year): the design-point optimum opt, or with section.design_for = "year"
+    the design searched for the year's energy (orcscreen.year_design) in its place, with its
+    year already rated (offdesign.YearResult; None when not rated here)."""
     if section.design_for != "year" or opt.cycle.layout not in offdesign.SUPPORTED_LAYOUTS:
-        return opt, []
+        return opt, [], None
     bins = _bins(section.resolved_path, section.sha256, section.bin_width_K)
-    design, n, limit, note = year_design.design_for_year(layout, ctx, opt.cycle, bins, section.control)
+    design, n, limit, note, year = year_design.design_for_year(layout, ctx, opt.cycle, bins, section.control)
     opt = dataclasses.replace(opt, cycle=design, evaluations=opt.evaluations + n,
                               binding_limit=opt.binding_limit if limit is None else limit)
-    return opt, [note] if note else []
+    return opt, [note] if note else [], year
 
 
-def year_figures(layout, ctx, design, section, row: dict) -> tuple[dict, dict | None, list[str]]:
+def year_figures(layout, ctx, design, section, row: dict, year=None) -> tuple[dict, dict | None, list[str]]:
     """(row columns, chart detail, notes) of the design result over the year of section (a
-    validated [year] section with its resolved path). The row's economics are used for the
+    validated [year] section with its resolved path); year: the design's YearResult when it is
+    already rated (optimum_for_year), else rated here. The row's economics are used for the
     LCOE on the annual energy. A layout whose off-design is not modelled gets a note."""
     if design.layout not in offdesign.SUPPORTED_LAYOUTS:
         return ({"annual_energy_MWh": math.nan, "capacity_factor": math.nan, "hours_not_running": math.nan}, None,
                 [f"year not rated: off-design of the {design.layout} layout is not modelled "
                  f"(only {', '.join(offdesign.SUPPORTED_LAYOUTS)})"])
-    bins = _bins(section.resolved_path, section.sha256, section.bin_width_K)
-    hw = offdesign.hardware_of(design, ctx)
-    year = offdesign.annual_energy(layout, ctx, hw, bins, design.W_net_W, section.control)
+    if year is None:
+        bins = _bins(section.resolved_path, section.sha256, section.bin_width_K)
+        year = offdesign.annual_energy(layout, ctx, offdesign.hardware_of(design, ctx), bins, design.W_net_W,
+                                       section.control)
     out = {"annual_energy_MWh": year.energy_MWh, "capacity_factor": year.capacity_factor,
            "hours_not_running": year.hours_not_running}
     econ = ctx.settings.economics

@@ -108,10 +108,10 @@ def run_case(case) -> dict:
             _, reason, n = opt
             return {"row": empty_row(case.fluid, case.layout, info, "infeasible", reason, time.perf_counter() - t0, n), "detail": None}
         year = getattr(case, "year", None)
-        design_notes = []
+        design_notes, rated_year = [], None
         if year is not None and year.resolved_path:
             try:
-                opt, design_notes = optimum_for_year(layout, ctx, opt, year)
+                opt, design_notes, rated_year = optimum_for_year(layout, ctx, opt, year)
             except (PropertyError, ValueError, ArithmeticError) as exc:  # the design point's optimum stands
                 design_notes = [f"not designed for the year: {type(exc).__name__}: {exc}"]
         try:
@@ -122,7 +122,7 @@ def run_case(case) -> dict:
                          opt.evaluations, time.perf_counter() - t0, ctx.settings)
         if year is not None and year.resolved_path:
             try:
-                columns, year_detail, notes = year_figures(layout, ctx, opt.cycle, year, row)
+                columns, year_detail, notes = year_figures(layout, ctx, opt.cycle, year, row, rated_year)
             except (PropertyError, ValueError, ArithmeticError) as exc:  # the design's result stands
                 columns, year_detail, notes = {}, None, [f"year not rated: {type(exc).__name__}: {exc}"]
             row.update(columns)

@@ -6,8 +6,9 @@ The design fixes (:func:`hardware_of`):
 * the turbine's swallowing capacity, Stodola's ellipse law
   m = K sqrt(rho_in p_in (1 - (p_out / p_in)^2)) with K from the design point (the law as
   transcribed in secondary copies; Cooke, J. Eng. Gas Turbines Power 107 (1985) 596, from
-  memory, for its derivation): the plant runs in sliding pressure, the evaporation pressure
-  being what the turbine swallows;
+  memory, for its derivation), one constant per turbine section (a bleed or a reheat splits it
+  at a middle pressure): the plant runs in sliding pressure, the heater pressure being what the
+  turbine swallows;
 * the turbine's part-load efficiency, Pili, Siamisiis, Agromayor, Nord, Wieland, Spliethoff,
   5th International Seminar on ORC Power Systems (2019), paper 70 (correlation as transcribed
   in one secondary copy): eta / eta_d = 0.248 + 1.632 a - 1.940 a^2 + 0.033 b - 1.085 b^2 +
@@ -21,9 +22,13 @@ The design fixes (:func:`hardware_of`):
   for a single-phase side and 1 for a phase-changing one;
 * the pump (its isentropic efficiency is held; the flow follows the turbine).
 
-The sink's mover runs at its design speed: a cooling-water pump at the design mass flow, the
-condenser fans at the design volume flow (the air's mass flow follows its density), so the
-sink's temperature rise follows from the duty.
+The sink's mover runs at a fraction of its design speed (1 unless the source's outlet minimum
+or the best-sink-flow control slows it): a cooling-water pump at that fraction of the design
+mass flow, the condenser fans at that fraction of the design volume flow (the air's mass flow
+follows its density), their power as the cube of the fraction (affinity laws); the sink's
+temperature rise follows from the duty. How each family of layouts moves its heater is its
+``hot_side`` (orcscreen.cycles.base.HotSide); the operator's answers to binding limits are
+described in orcscreen.controls.
 """
 
 from __future__ import annotations
@@ -215,17 +220,21 @@ def hardware_of(design, ctx) -> Hardware:
                     _density(sink, sink.T_in_K), sink.T_in_K, K_lp, T_mid, held, m_out)
 
 
+def _condenser_inlet(states):
+    """The condenser's inlet: the last state of the cycle's state table (in cycle order)."""
+    return next(reversed(states.values()))
+
+
 def _condenser_flow(r) -> float:
     """Working-fluid flow through the condenser [kg/s] (the turbine's last section's): the heat
-    rejected over the enthalpy fall from the condenser's inlet, the last state of the cycle, to 1."""
-    states = list(r.states.values())
-    return r.Q_out_W / (states[-1].h - r.states["1"].h)
+    rejected over the enthalpy fall from the condenser's inlet to 1."""
+    return r.Q_out_W / (_condenser_inlet(r.states).h - r.states["1"].h)
 
 
 def _condenser_profile(fluid, sat_c, states, m_out: float, sink, m_sink: float, n: int) -> Profile:
     """The condenser's T-Q profile [W, K] at a condensing point: the working fluid from the
-    cycle's last state to 1 against the sink at flow m_sink [kg/s]."""
-    cpath = condensing_path(fluid, sat_c, states["1"], list(states.values())[-1], n, True)
+    condenser's inlet to 1 against the sink at flow m_sink [kg/s]."""
+    cpath = condensing_path(fluid, sat_c, states["1"], _condenser_inlet(states), n, True)
     Q = m_out * (cpath.h - cpath.h[0])
     T_sink = sink.T_K(sink.h_in_J_kg + Q / m_sink)
     return Profile(Q, cpath.T_K, np.asarray(T_sink, dtype=float))
@@ -246,14 +255,15 @@ def _area(profile: Profile, exchanger: str, U_design: dict, wf_ratio: float,
 
 
 def operating_point(layout, ctx, hw: Hardware, T_sink_in_K: float, T_source_in_K: float | None = None,
-                    m_source_kg_s: float | None = None, guess: tuple[float, float] | None = None,
+                    m_source_kg_s: float | None = None, guess: tuple | None = None,
                     sink_flow_fraction: float = 1.0) -> OperatingPoint:
     """The operating point of the design's hardware at a sink inlet temperature (and source inlet
     temperature and flow, the design's when None), the sink's fans or pumps at sink_flow_fraction
-    of their design flow, in sliding pressure: the evaporation temperature whose pressure the
-    turbine swallows the flow at (Stodola), with the evaporator's and the condenser's areas just
-    sufficient (their zones' U scaled with the flows). Solved by a damped Newton iteration on
-    (T_evap, T_cond) from guess (the design's by default).
+    of their design flow, in sliding pressure: the heater coordinate u (evaporation temperature
+    or supercritical pressure, the layout's hot side) at which the turbine swallows the flow
+    (Stodola, per section), with the evaporator's and the condenser's areas just sufficient
+    (their zones' U scaled with the flows). Solved by a damped Newton iteration on (u, T_cond[,
+    T_mid]) from guess (a neighbouring bin's (u, T_cond, T_mid); the design's by default).
 
     A limit that binds is answered as an operator would (orcscreen.controls): a wet expansion
     with just enough superheat, the pressure limit by holding the pressure there with less flow

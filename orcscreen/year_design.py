@@ -58,15 +58,17 @@ def representative_bins(bins, n: int = REPRESENTATIVE_BINS) -> list:
 
 
 def design_for_year(layout, ctx, design, bins, control: str):
-    """(design, evaluations, binding limit, note): the exact, feasible design of the layout whose
-    year on bins is best, starting from the design-point optimum design (kept, with its binding
-    limit, when no other does better over every bin), the designs evaluated, and a note."""
+    """(design, evaluations, binding limit, note, year): the exact, feasible design of the layout
+    whose year on bins is best, starting from the design-point optimum design (kept, with its
+    binding limit None, when no other does better over every bin), the designs evaluated, a
+    note, and the chosen design's year on every bin (orcscreen.offdesign.YearResult, None where
+    the layout has no such variable: the caller rates it)."""
     from scipy.optimize import minimize_scalar
 
     name = layout.hot_side.variable
     var = next((v for v in layout.variables(ctx) if v.name == name), None)
     if var is None:
-        return design, 0, None, ""
+        return design, 0, None, "", None
     outer = {k: v for k, v in design.variables.items() if k != name}
     window = layout.window(ctx, name, outer)
     xatol = YEAR_XATOL * (window.hi - window.lo)
@@ -74,34 +76,36 @@ def design_for_year(layout, ctx, design, bins, control: str):
     tried: dict[float, float] = {}
 
     def rated(x: float, on):
-        """(design at x, its energy over the bins on [MWh], or None where infeasible)."""
+        """(design at x, its YearResult over the bins on, or None where infeasible)."""
         r = layout.evaluate(ctx, {**design.variables, name: x}, exact=True)
         if not r.ok:
             return r, None
-        year = offdesign.annual_energy(layout, ctx, offdesign.hardware_of(r, ctx), on, r.W_net_W, control)
-        return r, year.energy_MWh
+        return r, offdesign.annual_energy(layout, ctx, offdesign.hardware_of(r, ctx), on, r.W_net_W, control)
 
     def loss(x: float) -> float:
-        energy = rated(float(x), few)[1]
-        tried[float(x)] = -math.inf if energy is None else energy
-        return math.inf if energy is None else -energy
+        year = rated(float(x), few)[1]
+        tried[float(x)] = -math.inf if year is None else year.energy_MWh
+        return -tried[float(x)]
 
     minimize_scalar(loss, bounds=(window.lo, window.hi), method="bounded", options={"xatol": xatol})
     n = len(tried) + 2
     x_best = max(tried, key=tried.get)
-    base = rated(design.variables[name], bins)[1]
+    base = offdesign.annual_energy(layout, ctx, offdesign.hardware_of(design, ctx), bins, design.W_net_W, control)
     if not math.isfinite(tried[x_best]):
-        return design, n, None, "designed for the year: no other design runs, the design point's optimum kept"
-    r, energy = rated(x_best, bins)
-    if energy is None or base is not None and energy <= base:
-        return design, n, None, "designed for the year: the design point's optimum is also the year's"
+        return design, n, None, "designed for the year: no other design runs, the design point's optimum kept", base
+    r, year = rated(x_best, bins)
+    if year is None or year.energy_MWh <= base.energy_MWh:
+        return design, n, None, "designed for the year: the design point's optimum is also the year's", base
     at = (window.lo_name if x_best - window.lo < 2 * xatol else
           window.hi_name if window.hi - x_best < 2 * xatol else "none (the year's interior optimum)")
-    gain = "" if base is None else f", {energy / base - 1.0:+.2%} energy over the year"
-    def shown(v: float) -> str:
-        return f"{v * var.scale + var.offset:.4g}" + (f" {var.unit}" if var.unit != "-" else "")
-
-    note = (f"designed for the year: {var.label} {shown(x_best)} instead of "
-            f"{shown(design.variables[name])}{gain}, "
+    gain = (f"{year.energy_MWh / base.energy_MWh - 1.0:+.2%}" if base.energy_MWh > 0
+            else f"{year.energy_MWh:.0f} MWh instead of none")
+    note = (f"designed for the year: {var.label} {_shown(var, x_best)} instead of "
+            f"{_shown(var, design.variables[name])}, {gain} energy over the year, "
             f"{r.W_net_W / design.W_net_W - 1.0:+.2%} net power at the design point")
-    return r, n, at, note
+    return r, n, at, note, year
+
+
+def _shown(var, value: float) -> str:
+    """A free variable's SI value in its display unit."""
+    return f"{var.display(value):.4g}" + (f" {var.unit}" if var.unit != "-" else "")

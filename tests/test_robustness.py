@@ -320,13 +320,20 @@ def test_report_is_refused_while_a_run_holds_the_folder(reference, tmp_path, cap
     assert code == 0 and "under the run lock, from one consistent snapshot" in text
 
 
-def test_a_second_report_waits_for_the_first(reference, tmp_path, capsys):
+def _held_by_another_report(reference, tmp_path):
+    """(a copy of the reference run folder, a descriptor holding its run lock as another report
+    process would: flock and the holder's line)."""
     out = tmp_path / "out"
     shutil.copytree(reference, out)
-    fd = os.open(out / LOCK_FILE, os.O_RDWR | os.O_CREAT)  # another report process's hold
+    fd = os.open(out / LOCK_FILE, os.O_RDWR | os.O_CREAT)
     fcntl.flock(fd, fcntl.LOCK_EX)
     os.ftruncate(fd, 0)
     os.write(fd, b"pid 1, started 2026-01-01T00:00:00+00:00, report\n")
+    return out, fd
+
+
+def test_a_second_report_waits_for_the_first(reference, tmp_path, capsys):
+    out, fd = _held_by_another_report(reference, tmp_path)
     release = threading.Timer(0.5, os.close, (fd,))
     release.start()
     try:
@@ -342,12 +349,7 @@ def test_a_waiting_report_follows_a_lock_file_removed_by_its_holder(reference, t
     waiting report, which opened the removed file, finds its lock on a file no longer at the
     path, takes the lock of the path's new file instead (flock(2) locks files, not names: two
     holders must never meet), builds the report and removes that file in turn."""
-    out = tmp_path / "out"
-    shutil.copytree(reference, out)
-    fd = os.open(out / LOCK_FILE, os.O_RDWR | os.O_CREAT)
-    fcntl.flock(fd, fcntl.LOCK_EX)
-    os.ftruncate(fd, 0)
-    os.write(fd, b"pid 1, started 2026-01-01T00:00:00+00:00, report\n")
+    out, fd = _held_by_another_report(reference, tmp_path)
 
     def finish():
         os.unlink(out / LOCK_FILE)

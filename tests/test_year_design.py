@@ -51,7 +51,7 @@ def test_the_year_design_is_within_a_dense_grid_of_designs(tmp_path):
     L = LAYOUTS["basic"]
     bins = [Bin(t, h) for t, h in ((-2, 800), (6, 2000), (14, 3000), (22, 2160), (30, 800))]
     point = optimise(L, ctx).cycle
-    design, n, limit, note = yd.design_for_year(L, ctx, point, bins, "sliding-pressure")
+    design, n, limit, note, year = yd.design_for_year(L, ctx, point, bins, "sliding-pressure")
 
     def energy(r):
         return od.annual_energy(L, ctx, od.hardware_of(r, ctx), bins, r.W_net_W).energy_MWh
@@ -65,6 +65,7 @@ def test_the_year_design_is_within_a_dense_grid_of_designs(tmp_path):
     assert len(grid) > 10
     assert energy(design) >= max(grid) * (1.0 - 5e-4)
     assert energy(design) >= energy(point) * (1.0 - 1e-12)
+    assert year.energy_MWh == energy(design)  # the year it returns is the chosen design's, on every bin
     assert note.startswith("designed for the year") and n > 5
 
 
