@@ -13,6 +13,7 @@ is SI inside the engine.
 
 from __future__ import annotations
 
+import dataclasses
 import time
 from collections.abc import Mapping
 from pathlib import Path
@@ -25,6 +26,7 @@ from .areas import U_KEYS
 from .economics import Economics
 from .objectives import OBJECTIVES
 from .case_variables import optimised_or
+from .composition import components_to_optimise, mixture_with, optimise_composition
 from .figures import ROW_COLUMNS, case_detail, empty_row, energy_figures, result_row
 from .optimize import optimise
 from .properties import PropertyError, get_fluid
@@ -100,13 +102,25 @@ def run_case(case) -> dict:
     info = None
     case = Case.from_dict(case) if isinstance(case, Mapping) else case
     try:
-        info = fluid_catalogue.get_info(case.fluid)
+        pair = components_to_optimise(case.fluid)
+        info = fluid_catalogue.get_info(case.fluid if pair is None else mixture_with(*pair, 0.5))
         layout = LAYOUTS[case.layout]
         ctx = case_context(case, info)
-        opt = optimise(layout, ctx)
+        composition_scan = None
+        if pair is None:
+            opt = optimise(layout, ctx)
+        else:  # the composition is a free variable too (orcscreen.composition)
+            opt, x, n, composition_scan = optimise_composition(layout, ctx, *pair)
+            if opt is not None:
+                info = fluid_catalogue.get_info(mixture_with(*pair, x))
+                ctx = dataclasses.replace(ctx, fluid=get_fluid(info.coolprop_name))
+                opt = dataclasses.replace(opt, evaluations=n)
+            else:
+                opt = (None, x, n)
         if isinstance(opt, tuple):
             _, reason, n = opt
-            return {"row": empty_row(case.fluid, case.layout, info, "infeasible", reason, time.perf_counter() - t0, n), "detail": None}
+            return {"row": empty_row(case.fluid, case.layout, info if pair is None else None, "infeasible", reason,
+                                     time.perf_counter() - t0, n), "detail": None}
         year = getattr(case, "year", None)
         design_notes, rated_year = [], None
         if year is not None and year.resolved_path:
@@ -118,6 +132,9 @@ def run_case(case) -> dict:
             detail = case_detail(layout, ctx.fluid, ctx.sink, opt.cycle, opt)
         except PropertyError as exc:  # chart data only: the result itself stands
             detail = {"error": f"detail not available: {exc}"}
+        if composition_scan is not None and isinstance(detail, dict):
+            detail["composition_scan"] = [{"first_component_mole_fraction": x, "score": s if s > -1e300 else None, "reason": why}
+                                          for x, s, why in composition_scan]
         row = result_row(case.fluid, layout, info, ctx.fluid, ctx.source, ctx.sink, opt.cycle, opt.binding_limit,
                          opt.evaluations, time.perf_counter() - t0, ctx.settings)
         if year is not None and year.resolved_path:

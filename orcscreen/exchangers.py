@@ -362,11 +362,11 @@ def recuperate(fluid, sat_c: SatPoint, p_cold_Pa: float, st2: State, st4: State,
         return 0.0, st2, st4, False, None
     p_c, p_e = sat_c.p_Pa, p_cold_Pa
     # hot side cooled to the cold inlet temperature: the ideal duty (vapour side is C_min)
-    h4_at_T2 = fluid.state_pT(p_c, st2.T_K, "gas").h if st2.T_K > sat_c.T_K + 1e-6 else sat_c.hV
+    h4_at_T2 = fluid.state_pT(p_c, st2.T_K, "gas").h if st2.T_K > sat_c.T_dew_K + 1e-6 else sat_c.hV
     q = effectiveness * (st4.h - max(h4_at_T2, sat_c.hV))
     # cold end: hot outlet at least T2 + pinch, and not below the dew point (no condensing here)
     T4r_min = st2.T_K + dT
-    h4r_min = fluid.state_pT(p_c, T4r_min, "gas").h if T4r_min > sat_c.T_K else sat_c.hV
+    h4r_min = fluid.state_pT(p_c, T4r_min, "gas").h if T4r_min > sat_c.T_dew_K else sat_c.hV
     q = min(q, st4.h - max(h4r_min, sat_c.hV))
     # hot end: cold outlet at most T4 - pinch, and below the critical pressure still liquid
     T2r_max = st4.T_K - dT

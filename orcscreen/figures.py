@@ -29,7 +29,11 @@ AREA_COLUMNS = tuple(f"area_{e}_m2" for e in areas.EXCHANGERS)
 #: effectiveness).
 APPROACH_COLUMNS = {e: f"approach_{e}_K" for e in ("evaporator", "condenser", "recuperator")}
 
-#: Columns every layout fills (DESIGN section 5). fluid is the catalogue's display name (what a
+#: Columns every layout fills (DESIGN section 5). A zeotropic mixture's evaporation and condensing
+#: temperatures are its dew temperatures at those pressures; evaporator_glide_K and
+#: condenser_glide_K are dew minus bubble temperature there (0 for a pure fluid, NaN for a
+#: supercritical heater); first_component_*_fraction give a mixture's composition (NaN for a
+#: pure fluid). fluid is the catalogue's display name (what a
 #: person reads), coolprop_name the name CoolProp and the study's case keys use. evaporation_* are NaN for a supercritical
 #: heater; turbine_inlet_pressure_bar is the highest cycle pressure in every layout.
 COMMON_COLUMNS = (
@@ -38,7 +42,7 @@ COMMON_COLUMNS = (
     "heat_rejected_kW", "recuperator_duty_kW", "thermal_efficiency", "exergy_efficiency",
     "carnot_efficiency", "heat_recovery_factor", "total_efficiency", "source_exergy_kW",
     "evaporation_pressure_bar", "evaporation_temperature_C", "reduced_pressure",
-    "condensing_pressure_bar", "condensing_temperature_C", "superheat_K",
+    "condensing_pressure_bar", "condensing_temperature_C", "evaporator_glide_K", "condenser_glide_K", "superheat_K",
     "turbine_inlet_pressure_bar", "turbine_inlet_temperature_C", "turbine_outlet_temperature_C",
     "turbine_outlet_quality", "wf_mass_flow_kg_s", "sink_mass_flow_kg_s", "source_outlet_temperature_C",
     "sink_temperature_rise_K", "pinch_location", *APPROACH_COLUMNS.values(), "ua_evaporator_kW_K",
@@ -47,7 +51,8 @@ COMMON_COLUMNS = (
     *AREA_COLUMNS, "condenser_area_basis", *ECONOMIC_COLUMNS, *YEAR_COLUMNS,
 )
 _TAIL_COLUMNS = (
-    "binding_limit", "sub_atmospheric_condenser", "family",
+    "binding_limit", "sub_atmospheric_condenser", "family", "first_component_mole_fraction",
+    "first_component_mass_fraction",
     "safety_class", "gwp100", "odp", "curve_type", "evaluations", "elapsed_s",
 )
 #: The layouts' own columns, from the layout registry, in registry order.
@@ -179,12 +184,25 @@ def result_row(fluid_name: str, layout: Layout, info, fluid, source, sink, r: Cy
         "elapsed_s": elapsed,
     })
     row.update({k: v for k, v in r.figures.items() if k in layout.columns})
+    row.update(_glides(layout, fluid, r))
     notes = _warnings(layout, source, r, settings)
     row.update(economics.areas_and_costs(r, source, sink, settings, notes)[0])
     row.update(design_year_columns(getattr(settings, "economics", None)))
     row["warnings"] = "; ".join(notes)
     _add_fluid_columns(row, info, getattr(settings, "flag_condensing_pressure_below_Pa", None))
     return {k: row[k] for k in ROW_COLUMNS}
+
+
+def _glides(layout: Layout, fluid, r: CycleResult) -> dict:
+    """The glide columns [K] and a mixture's composition (the columns' comment above)."""
+    if not getattr(fluid, "is_mixture", False):
+        return {"evaporator_glide_K": math.nan if layout.supercritical else 0.0, "condenser_glide_K": 0.0}
+    return {
+        "evaporator_glide_K": math.nan if layout.supercritical else fluid.sat_p(r.p_evap_Pa).glide_K,
+        "condenser_glide_K": fluid.sat_p(r.p_cond_Pa).glide_K,
+        "first_component_mole_fraction": fluid.mole_fractions[0],
+        "first_component_mass_fraction": fluid.mass_fraction_first,
+    }
 
 
 def _warnings(layout: Layout, source, r: CycleResult, settings: CycleSettings | None = None) -> list[str]:
@@ -278,14 +296,17 @@ def ts_data(layout: Layout, fluid, r, T_low_K: float) -> dict:
     """The T-s diagram's cycle path and saturation dome [kJ/(kg K), °C] of result r (a
     CycleResult, or the states of a stored detail: :func:`with_ts_data`) down to T_low_K [K]."""
     s_path, T_path = layout.ts_path(fluid, r)
-    T_dome, sL, sV = saturation_dome(fluid, T_low_K)
+    T_dome, sL, sV, T_liquid = saturation_dome(fluid, T_low_K)
+    dome = {
+        "s_liquid_kJ_kgK": [s / 1e3 for s in sL],
+        "s_vapour_kJ_kgK": [s / 1e3 for s in sV],
+        "T_C": [t - 273.15 for t in T_dome],
+    }
+    if T_liquid != T_dome:  # a mixture: the bubble curve at its own temperatures
+        dome["T_liquid_C"] = [t - 273.15 for t in T_liquid]
     return {
         "ts_path": {"s_kJ_kgK": [s / 1e3 for s in s_path], "T_C": [t - 273.15 for t in T_path]},
-        "dome": {
-            "s_liquid_kJ_kgK": [s / 1e3 for s in sL],
-            "s_vapour_kJ_kgK": [s / 1e3 for s in sV],
-            "T_C": [t - 273.15 for t in T_dome],
-        },
+        "dome": dome,
     }
 
 

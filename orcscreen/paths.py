@@ -131,13 +131,16 @@ def state_from_ph(fluid, sat: SatPoint, h: float, near: State | None = None) -> 
     """State at the saturation pressure of sat and enthalpy h; two-phase states without a flash.
 
     Single-phase states use the phase-imposed Newton flash, started next to the state near
-    (same pressure) or at the saturation point of the same phase.
+    (same pressure) or at the saturation point of the same phase. Inside a glide (a mixture's
+    saturation point) the fluid's own two-phase table gives the state.
     """
     if sat.hL <= h <= sat.hV:
+        if sat.glide_K > 0.0:
+            return fluid.two_phase_state(sat.p_Pa, h)
         return two_phase_state(sat, sat.T_K, (h - sat.hL) / (sat.hV - sat.hL))
     gas = h > sat.hV
     if near is None:
-        near = State(sat.T_K, sat.p_Pa, sat.hV if gas else sat.hL, sat.sV if gas else sat.sL, sat.vV if gas else sat.vL, math.nan)
+        near = State(sat.T_dew_K if gas else sat.T_K, sat.p_Pa, sat.hV if gas else sat.hL, sat.sV if gas else sat.sL, sat.vV if gas else sat.vL, math.nan)
     return flash_ph(fluid, sat.p_Pa, h, "gas" if gas else "liquid", near)
 
 
@@ -162,12 +165,25 @@ def add_zone(fluid, p_Pa: float, T_a: float, T_b: float, n: int, phase: str, lab
     labels.extend([label] * len(Tz))
 
 
+def add_glide(fluid, sat: SatPoint, label: str, h: list, T: list, labels: list) -> None:
+    """Append the interior points of a glide between the bubble and the dew point of sat (the
+    fluid's two-phase table, :meth:`orcscreen.mixture_properties.Mixture.two_phase_nodes`);
+    nothing for a pure fluid."""
+    if sat.glide_K > 0.0:
+        hn, Tn = fluid.two_phase_nodes(sat.p_Pa)
+        h.extend(float(x) for x in hn[1:-1])
+        T.extend(float(x) for x in Tn[1:-1])
+        labels.extend([label] * (len(hn) - 2))
+
+
 def heating_path(fluid, sat_e: SatPoint, st_in: State, st3: State, n: int, exact: bool, zones: bool = True) -> FluidPath:
     """Subcritical heating path from the heater inlet st_in to the turbine inlet st3.
 
     Corners: economiser inlet, bubble point, dew point and, with superheat, the hot end; with
-    exact, n segments in each single-phase zone (economiser, superheater). zones=False leaves
-    out the zones (a caller that never searches between points saves their making).
+    exact, n segments in each single-phase zone (economiser, superheater). A glide (a
+    mixture) adds the points of the fluid's two-phase table between bubble and dew point, in
+    either accuracy. zones=False leaves out the zones (a caller that never searches between
+    points saves their making).
     """
     h = [st_in.h]
     T = [st_in.T_K]
@@ -177,12 +193,13 @@ def heating_path(fluid, sat_e: SatPoint, st_in: State, st3: State, n: int, exact
     h.append(sat_e.hL)
     T.append(sat_e.T_K)
     labels.append("bubble point")
+    add_glide(fluid, sat_e, "evaporating", h, T, labels)
     h.append(sat_e.hV)
-    T.append(sat_e.T_K)
+    T.append(sat_e.T_dew_K)
     labels.append("dew point")
     if st3.h > sat_e.hV + 1e-9:
         if exact:
-            add_zone(fluid, sat_e.p_Pa, sat_e.T_K, st3.T_K, n, "gas", "superheater", h, T, labels)
+            add_zone(fluid, sat_e.p_Pa, sat_e.T_dew_K, st3.T_K, n, "gas", "superheater", h, T, labels)
         h.append(st3.h)
         T.append(st3.T_K)
         labels.append("hot end")
@@ -194,6 +211,8 @@ def heating_path(fluid, sat_e: SatPoint, st_in: State, st3: State, n: int, exact
         Zone(0, ib, "economiser", lambda T_K: fluid.h_pT(p, T_K, "liquid")),
         Zone(id_, len(labels) - 1, "superheater", lambda T_K: fluid.h_pT(p, T_K, "gas")),
     )
+    if sat_e.glide_K > 0.0:
+        found += (Zone(ib, id_, "evaporating", lambda T_K: fluid.two_phase_h_of_T(p, T_K)),)
     return FluidPath(np.array(h), np.array(T), tuple(labels), found)
 
 
@@ -228,6 +247,8 @@ def condensing_path(fluid, sat: SatPoint, st_out: State, st_in: State, n: int, e
 
     Corners: cold end, bubble point (with subcooling), dew point and, with a superheated inlet,
     the hot end; with exact, n segments in each single-phase zone (subcooling, desuperheating).
+    A glide (a mixture) adds the points of the fluid's two-phase table between bubble and dew
+    point (or the wet inlet), in either accuracy.
     """
     h1, h_in = st_out.h, st_in.h
     pts_h = [h1]
@@ -240,12 +261,20 @@ def condensing_path(fluid, sat: SatPoint, st_out: State, st_in: State, n: int, e
         pts_T.append(sat.T_K)
         labels.append("bubble point")
     h_dew = min(sat.hV, h_in)
+    if sat.glide_K > 0.0:
+        n0 = len(pts_h)
+        add_glide(fluid, sat, "condensing", pts_h, pts_T, labels)
+        keep = n0 + sum(1 for x in pts_h[n0:] if x < h_dew - 1e-9)
+        del pts_h[keep:], pts_T[keep:], labels[keep:]
+        T_dew = sat.T_dew_K if h_dew >= sat.hV else fluid.two_phase_state(sat.p_Pa, h_dew).T_K
+    else:
+        T_dew = sat.T_K
     pts_h.append(h_dew)
-    pts_T.append(sat.T_K)
+    pts_T.append(T_dew)
     labels.append("dew point")
     if h_in > sat.hV + 1e-9:
         if exact:
-            add_zone(fluid, sat.p_Pa, sat.T_K, st_in.T_K, n, "gas", "desuperheating zone", pts_h, pts_T, labels)
+            add_zone(fluid, sat.p_Pa, sat.T_dew_K, st_in.T_K, n, "gas", "desuperheating zone", pts_h, pts_T, labels)
         pts_h.append(h_in)
         pts_T.append(st_in.T_K)
         labels.append("hot end")

@@ -441,7 +441,8 @@ def ts_diagram(detail: Mapping, row: Mapping | None = None, ax: Axes | None = No
         t = np.asarray(dome["T_C"], dtype=float)
         s_l = np.asarray(dome["s_liquid_kJ_kgK"], dtype=float)
         s_v = np.asarray(dome["s_vapour_kJ_kgK"], dtype=float)
-        ax.plot(np.concatenate([s_l, s_v[::-1]]), np.concatenate([t, t[::-1]]), color=_GREY,
+        t_l = np.asarray(dome.get("T_liquid_C", dome["T_C"]), dtype=float)  # a mixture's bubble curve
+        ax.plot(np.concatenate([s_l, s_v[::-1]]), np.concatenate([t_l, t[::-1]]), color=_GREY,
                 linewidth=1.2, label="saturation dome", gid="dome")
     path = detail.get("ts_path") or {}
     if path.get("T_C"):

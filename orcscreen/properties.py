@@ -250,6 +250,19 @@ class Fluid:
         curves = self._saturation_curves()
         return curves.p_crit_Pa if curves is not None else self._critical_in_file[1]
 
+    #: A pure fluid has no glide (a :class:`orcscreen.mixture_properties.Mixture` has).
+    is_mixture = False
+
+    @property
+    def T_sat_max_K(self) -> float:
+        """Highest saturation temperature [K] (of :meth:`sat_T`): the critical temperature."""
+        return self.T_crit_K
+
+    @property
+    def p_sat_max_Pa(self) -> float:
+        """Highest saturation pressure [Pa] (of :meth:`sat_p`): the critical pressure."""
+        return self.p_crit_Pa
+
     def __repr__(self) -> str:
         return f"Fluid({self.name!r}, {self.backend!r})"
 
@@ -571,7 +584,13 @@ class Fluid:
 
 @functools.lru_cache(maxsize=None)
 def get_fluid(name: str, backend: str = "HEOS") -> Fluid:
-    """The process-wide cached :class:`Fluid` for a CoolProp fluid name and backend."""
+    """The process-wide cached :class:`Fluid` for a CoolProp fluid name and backend; a binary
+    mixture in CoolProp's syntax with its composition ("A[x]&B[1-x]") gives a
+    :class:`orcscreen.mixture_properties.Mixture`."""
+    if "&" in name:
+        from .mixture_properties import Mixture
+
+        return Mixture(name, backend)
     return Fluid(name, backend)
 
 

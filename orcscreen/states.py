@@ -18,10 +18,12 @@ class PropertyError(ValueError):
 
 @dataclass(frozen=True, slots=True)
 class SatPoint:
-    """Both ends of the two-phase region at one saturation temperature.
+    """Both ends of the two-phase region at one saturation pressure.
 
     Units: T_K [K], p_Pa [Pa], h [J/kg], s [J/(kg K)], v [m3/kg]; suffix L = saturated liquid,
-    V = saturated vapour.
+    V = saturated vapour. T_K is the temperature of the saturated liquid (the bubble point);
+    glide_K [K] is how much hotter the saturated vapour is (the dew point, :attr:`T_dew_K`):
+    0 for a pure fluid, positive for a zeotropic mixture.
     """
 
     T_K: float
@@ -32,6 +34,12 @@ class SatPoint:
     sV: float
     vL: float
     vV: float
+    glide_K: float = 0.0
+
+    @property
+    def T_dew_K(self) -> float:
+        """Temperature [K] of the saturated vapour (the dew point)."""
+        return self.T_K + self.glide_K
 
 
 @dataclass(frozen=True, slots=True)

@@ -328,6 +328,10 @@ class Layout:
     limits: tuple[str, ...] = ()
     #: the exchangers it has, named as in CycleResult.profiles
     exchangers: tuple[str, ...] = ()
+    #: True when it works with a zeotropic mixture (a glide in its exchangers, states from the
+    #: mixture's table: orcscreen.mixture_properties); a mixture case of any other layout is
+    #: recorded as not evaluated, with the reason
+    takes_mixtures: bool = False
     #: output columns of its own (besides the common ones), filled from CycleResult.figures
     columns: tuple[str, ...] = ()
     #: a supercritical heater (no evaporation plateau)
@@ -345,7 +349,10 @@ class Layout:
 
     def unsuited(self, ctx: CycleContext) -> str | None:
         """Why the layout cannot work for this fluid, source and sink at all (a reason in plain
-        words, before any search), or None."""
+        words, before any search), or None: here, a mixture in a layout not built for one."""
+        if getattr(ctx.fluid, "is_mixture", False) and not self.takes_mixtures:
+            built = ", ".join(f'"{layout.name}"' for layout in _mixture_layouts())
+            return f"the {self.name} layout is not built for zeotropic mixtures (layouts that take them: {built})"
         return None
 
     def window(self, ctx: CycleContext, name: str, outer: Mapping[str, float]) -> Window:
@@ -437,6 +444,13 @@ class Layout:
         raise NotImplementedError
 
 
+def _mixture_layouts() -> list:
+    """The registered layouts that take mixtures (read from the registry when asked)."""
+    from . import LAYOUTS
+
+    return [layout for layout in LAYOUTS.values() if layout.takes_mixtures]
+
+
 def unused_inputs(layout: Layout, given: Mapping[str, float | None]) -> None:
     """Refuse inputs a layout does not use (a cycle given by hand must not silently drop one)."""
     extra = [k for k, v in given.items() if v is not None and k not in layout.hand_inputs]
@@ -464,8 +478,8 @@ def reset_guesses() -> None:
 def _superheated_ps(fluid, sat: SatPoint, s: float) -> State:
     """Superheated vapour at the pressure of sat and entropy s (s > sV), phase-imposed Newton."""
     cp = _CP_VAPOUR_HINT.get(fluid.name, 1000.0)
-    T0 = sat.T_K * math.exp((s - sat.sV) / cp)
-    st = fluid.state_ps(sat.p_Pa, s, "gas", T0, sat.vV * T0 / sat.T_K)
+    T0 = sat.T_dew_K * math.exp((s - sat.sV) / cp)
+    st = fluid.state_ps(sat.p_Pa, s, "gas", T0, sat.vV * T0 / sat.T_dew_K)
     if not math.isnan(st.cp):
         _CP_VAPOUR_HINT[fluid.name] = st.cp
     return st
@@ -510,7 +524,8 @@ def isentropic_end(fluid, st_in: State, sat_out: SatPoint, memo: dict | None = N
         q4s = (st_in.s - sat_out.sL) / (sat_out.sV - sat_out.sL)
         if q4s < 0.0:
             raise CycleInfeasible("turbine outlet quality", "the expansion would end as a liquid", q4s)
-        st_s = two_phase_state(sat_out, sat_out.T_K, q4s)
+        st_s = (fluid.two_phase_state(sat_out.p_Pa, st_in.s, entropy=True) if sat_out.glide_K > 0.0
+                else two_phase_state(sat_out, sat_out.T_K, q4s))
     else:
         st_s = _superheated_ps(fluid, sat_out, st_in.s)
     if memo is not None:
@@ -589,19 +604,21 @@ def supercritical_isobar_ts(fluid, p_Pa: float, h_from: float, h_to: float, n: i
     return s_pts, T_pts
 
 
-def saturation_dome(fluid, T_low_K: float, n: int = 60) -> tuple[list[float], list[float], list[float]]:
-    """Saturation dome: temperatures [K] and liquid and vapour entropies [J/(kg K)].
+def saturation_dome(fluid, T_low_K: float, n: int = 60) -> tuple[list[float], list[float], list[float], list[float]]:
+    """Saturation dome: temperatures [K] of the saturated vapour, liquid and vapour entropies
+    [J/(kg K)], and temperatures [K] of the saturated liquid (the same as the first for a pure
+    fluid; the bubble temperatures at the same pressures for a mixture).
 
-    From T_low_K (not below the fluid's lowest temperature) to just below the critical point,
-    spaced more densely near the critical point.
+    From T_low_K (not below the fluid's lowest temperature) to just below the critical point
+    (a mixture: the end of its table), spaced more densely near the top.
     """
     from ..states import PropertyError
 
     T_lo = max(T_low_K, fluid.T_min_K + 0.01)
-    T_top = fluid.T_crit_K * (1.0 - 1e-5)
+    T_top = fluid.T_sat_max_K * (1.0 - 1e-5)
     u = np.linspace(0.0, 1.0, n)
     T = T_lo + (T_top - T_lo) * (1.0 - (1.0 - u) ** 2)
-    T_ok, sL, sV = [], [], []
+    T_ok, sL, sV, TL = [], [], [], []
     for t in T:
         try:
             sat = fluid.sat_T(float(t))
@@ -610,7 +627,8 @@ def saturation_dome(fluid, T_low_K: float, n: int = 60) -> tuple[list[float], li
         T_ok.append(float(t))
         sL.append(sat.sL)
         sV.append(sat.sV)
-    return T_ok, sL, sV
+        TL.append(sat.T_K)
+    return T_ok, sL, sV, TL
 
 
 # ---------------------------------------------------------------------------------------------

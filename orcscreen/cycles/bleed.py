@@ -118,6 +118,8 @@ class BleedRegenerative(Subcritical):
     columns = ("bleed_pressure_bar", "bleed_fraction")
     cost_factor = 8.0
     hot_side = BleedHotSide()
+    #: its bleed saturation and open heater assume a pure fluid's plateau (not built for a glide)
+    takes_mixtures = False
 
     #: the bleed fraction, hence the heater inlet, follows the expansion (see Subcritical.heater_inlet_follows_turbine)
     heater_inlet_follows_turbine = True

@@ -132,6 +132,8 @@ class Reheat(Subcritical):
     turbine_outlets = ("3e", "4")
     cost_factor = 15.0
     hot_side = ReheatHotSide()
+    #: its reheat saturation assumes a pure fluid's plateau (not built for a glide)
+    takes_mixtures = False
 
     #: the reheater inlet is the high-pressure turbine outlet (see Subcritical.heater_inlet_follows_turbine)
     heater_inlet_follows_turbine = True

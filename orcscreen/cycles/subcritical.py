@@ -86,6 +86,8 @@ def evaporation_window(ctx: CycleContext, superheat_K: float) -> Window:
         T_lo = max(T_lo, fluid.T_sat_floor_K(s.min_condensing_pressure_Pa) + 1.0)
     p_lim = s.max_evaporation_pressure_Pa(fluid)
     limits = [(fluid.T_sat_floor_K(p_lim), "max pressure" if s.max_pressure_Pa is not None and s.max_pressure_Pa < s.max_reduced_pressure * fluid.p_crit_Pa else "max reduced pressure")]
+    if fluid.p_sat_max_Pa < p_lim:  # a mixture whose saturation table ends below the limit
+        limits.append((fluid.T_sat_max_K, "end of the mixture's saturation table"))
     limits.append((source.T_in_K - s.pinch_evaporator_K - superheat_K, "hot-end approach"))
     if s.max_turbine_inlet_temperature_K is not None:
         limits.append((s.max_turbine_inlet_temperature_K - superheat_K, "thermal stability"))
@@ -106,11 +108,11 @@ class EvaporatorHotSide(HotSide):
     def highest_u(self, ctx):
         fluid = ctx.fluid
         p_max = ctx.settings.max_evaporation_pressure_Pa(fluid)
-        return fluid.T_sat_K(p_max) if p_max < fluid.p_crit_Pa else math.inf
+        return fluid.T_sat_K(p_max) if p_max < fluid.p_sat_max_Pa else fluid.T_sat_max_K if fluid.is_mixture else math.inf
 
     def point(self, ctx, u, hot, T_cond_K, T_source_K):
         fluid = ctx.fluid
-        if not (T_cond_K + 0.5 < u < min(fluid.T_crit_K - 0.05, T_source_K - 0.05)):
+        if not (T_cond_K + 0.5 < u < min(fluid.T_sat_max_K - 0.05, T_source_K - 0.05)):
             return None
         if hot < 0.0 or u + hot > T_source_K - 0.05:
             return None
@@ -131,6 +133,7 @@ class Subcritical(Layout):
     """Basic and recuperated subcritical layouts (module docstring)."""
 
     hot_side = EvaporatorHotSide()
+    takes_mixtures = True
 
     limits = ("max pressure", "max reduced pressure", "thermal stability", "turbine outlet quality",
               "min condensing pressure", "evaporator pinch", "condenser pinch", "source outlet limit")
@@ -172,7 +175,7 @@ class Subcritical(Layout):
         if (T_evap is None) == (p is None):
             raise ValueError(f"layout {self.name!r} needs the evaporation pressure or the evaporation temperature (one of them)")
         if T_evap is None:
-            if not p < fluid.p_crit_Pa:
+            if not p < fluid.p_sat_max_Pa:
                 raise ValueError(f"evaporation pressure {p / 1e5:.4g} bar is not below the critical pressure of {fluid.name} "
                                  f"({fluid.p_crit_Pa / 1e5:.4g} bar): use a transcritical layout")
             T_evap = fluid.T_sat_K(p)
@@ -212,8 +215,8 @@ class Subcritical(Layout):
 
     def _evaluate(self, ctx, x, T_evap_K, superheat_K, exact, T_cond_guess_K, known, T_cond_fixed_K, m_wf_fixed, cond_tol_K) -> CycleResult:
         fluid, source, sink, s = ctx.fluid, ctx.source, ctx.sink, ctx.settings
-        if T_evap_K >= fluid.T_crit_K:
-            raise CycleInfeasible("critical point", f"evaporation temperature {C(T_evap_K)} is not below the critical temperature of {fluid.name} ({C(fluid.T_crit_K)})")
+        if T_evap_K >= fluid.T_sat_max_K:
+            raise CycleInfeasible("critical point", f"evaporation temperature {C(T_evap_K)} is not below the end of the saturation curve of {fluid.name} ({C(fluid.T_sat_max_K)}: its critical point, or a mixture table's end)")
         sat_e = fluid.sat_T(T_evap_K)
         p_lim = s.max_evaporation_pressure_Pa(fluid)
         if sat_e.p_Pa > p_lim * (1.0 + 1e-9):
@@ -239,7 +242,7 @@ class Subcritical(Layout):
 
         if T_cond_fixed_K is None:
             cs = solve_condensing_temperature(fluid, sink, cold_side, s.pinch_condenser_K, condensing_floor_K(fluid, sink, s),
-                                              sat_e.T_K, s.n_zone_segments, exact, T_cond_guess_K, cond_tol_K)
+                                              sat_e.T_dew_K, s.n_zone_segments, exact, T_cond_guess_K, cond_tol_K)
         else:
             cs = cold_side(T_cond_fixed_K, exact)
         known.update(T_cond_K=cs.T_cond_K, p_cond_Pa=cs.p_cond_Pa, p_evap_Pa=sat_e.p_Pa)
@@ -346,7 +349,7 @@ def _fast_interior_pinch(fluid, source, s, sat_e, st_in: State, st3: State, hs_i
     a bounded search finds it; otherwise the zone ends already bound the flow. Costs two (p, T)
     updates when no zone needs the search. Returns (bound [kg/s], zone name), inf if none.
     """
-    p, T_e, dT, m_s = sat_e.p_Pa, sat_e.T_K, s.pinch_evaporator_K, source.m_kg_s
+    p, T_e, T_d, dT, m_s = sat_e.p_Pa, sat_e.T_K, sat_e.T_dew_K, s.pinch_evaporator_K, source.m_kg_s
 
     def slope_sign(T, h, cp_wf):
         N = m_s * (hs_in - float(source.h_J_kg(T + dT)))
@@ -358,10 +361,10 @@ def _fast_interior_pinch(fluid, source, s, sat_e, st_in: State, st3: State, hs_i
         if slope_sign(T_e, sat_e.hL, cpL) > 0.0:
             m, _, _ = refine_zone_pinch(lambda T: fluid.h_pT(p, T, "liquid"), source, dT, st3.h, hs_in, st_in.T_K, T_e, 1e-3)
             best = min(best, (m, "economiser"))
-    if st3.T_K > T_e + 1e-6:
-        cpV = fluid.state_pT(p, T_e, "gas").cp
-        if slope_sign(T_e, sat_e.hV, cpV) < 0.0:
-            m, _, _ = refine_zone_pinch(lambda T: fluid.h_pT(p, T, "gas"), source, dT, st3.h, hs_in, T_e, st3.T_K, 1e-3)
+    if st3.T_K > T_d + 1e-6:
+        cpV = fluid.state_pT(p, T_d, "gas").cp
+        if slope_sign(T_d, sat_e.hV, cpV) < 0.0:
+            m, _, _ = refine_zone_pinch(lambda T: fluid.h_pT(p, T, "gas"), source, dT, st3.h, hs_in, T_d, st3.T_K, 1e-3)
             best = min(best, (m, "superheater"))
     return best
 

@@ -143,6 +143,9 @@ class Transcritical(Layout):
     def unsuited(self, ctx: CycleContext) -> str | None:
         """The source must heat the fluid above its critical temperature, and the sink must let it
         condense below it."""
+        why = super().unsuited(ctx)
+        if why:
+            return why
         fluid, s = ctx.fluid, ctx.settings
         T_hot = self.window(ctx, TURBINE_INLET_TEMPERATURE.name, {})
         if T_hot.hi <= fluid.T_crit_K:
