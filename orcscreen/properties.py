@@ -582,16 +582,30 @@ class Fluid:
         return (2.0 * dT_K) / (sb.sV - sa.sV)
 
 
-@functools.lru_cache(maxsize=None)
 def get_fluid(name: str, backend: str = "HEOS") -> Fluid:
     """The process-wide cached :class:`Fluid` for a CoolProp fluid name and backend; a binary
     mixture in CoolProp's syntax with its composition ("A[x]&B[1-x]") gives a
-    :class:`orcscreen.mixture_properties.Mixture`."""
+    :class:`orcscreen.mixture_properties.Mixture` (the last MIXTURES_KEPT of them are kept:
+    each holds its own saturation table, and a composition search builds many)."""
     if "&" in name:
-        from .mixture_properties import Mixture
+        return _get_mixture(name, backend)
+    return _get_pure(name, backend)
 
-        return Mixture(name, backend)
+
+#: Mixtures (compositions) kept per process by :func:`get_fluid`.
+MIXTURES_KEPT = 64
+
+
+@functools.lru_cache(maxsize=None)
+def _get_pure(name: str, backend: str) -> Fluid:
     return Fluid(name, backend)
+
+
+@functools.lru_cache(maxsize=MIXTURES_KEPT)
+def _get_mixture(name: str, backend: str) -> Fluid:
+    from .mixture_properties import Mixture
+
+    return Mixture(name, backend)
 
 
 def coolprop_version() -> str:

@@ -1,0 +1,173 @@
+"""Cycles of zeotropic mixtures: published qualitative results, conservation laws, the pure
+limits, the composition optimum against a dense grid of the engine's own model, and the layouts
+that do not take mixtures.
+
+The scenario (a 120 °C water source, 15 °C cooling water rising 10 K) is our own; the
+qualitative result it checks is Heberle, Preißinger, Brüggemann, Renewable Energy 37 (2012) 364
+(from memory): for geothermal water up to about 120 °C with a cooling-water condenser, a
+mixture of isobutane and isopentane gives more power (a higher second-law efficiency) than
+either pure fluid, because both glides follow the sensible streams more closely.
+"""
+
+import math
+
+import numpy as np
+import pytest
+import CoolProp.CoolProp as CP
+
+from orcscreen import api, streams
+from orcscreen.composition import X_MAX, X_MIN, mixture_with, optimise_composition
+from orcscreen.cycles import LAYOUTS, CycleContext
+from orcscreen.mixture_properties import TABLE_TOLERANCE_K
+from orcscreen.objectives import score
+from orcscreen.optimize import optimise
+from orcscreen.properties import get_fluid
+from orcscreen.study import study_from_dict
+
+SOURCE = {"kind": "water", "inlet_temperature_C": 120.0, "mass_flow_kg_s": 10.0, "min_outlet_temperature_C": 50.0}
+SINK = {"kind": "water", "inlet_temperature_C": 15.0, "temperature_rise_K": 10.0}
+
+
+@pytest.fixture(scope="module")
+def base_ctx():
+    study = study_from_dict({"source": SOURCE, "sink": SINK, "fluids": {"include": ["isobutane"]},
+                             "cycle": {"layouts": ["basic"]}})
+    case = next(iter(study.cases()))
+    return api.case_context(case, api.fluid_catalogue.get_info("Isobutane"))
+
+
+def _ctx(base, name):
+    return CycleContext(get_fluid(name), base.source, base.sink, base.settings)
+
+
+def _best(layout, ctx):
+    opt = optimise(LAYOUTS[layout], ctx)
+    assert not isinstance(opt, tuple), opt
+    return opt.cycle
+
+
+def test_a_mixture_beats_both_pure_components(base_ctx):
+    """Heberle et al. 2012 (module docstring): some isobutane/isopentane mixture gives more net
+    power than both pure fluids from the same source (hence a higher second-law efficiency)."""
+    pure = max(_best("basic", _ctx(base_ctx, f)).W_net_W for f in ("Isobutane", "Isopentane"))
+    mixed = {x: _best("basic", _ctx(base_ctx, mixture_with("Isobutane", "Isopentane", x))).W_net_W
+             for x in (0.2, 0.4, 0.6, 0.8)}
+    assert max(mixed.values()) > 1.03 * pure, (pure, mixed)
+
+
+@pytest.mark.parametrize("x", [0.0, 1.0])
+def test_the_pure_ends_give_the_pure_fluids_cycle(base_ctx, x):
+    """A mole fraction of 1 (0) is pure isobutane (isopentane): the same optimum within the
+    table's tolerance (a 0.01 K error in a saturation temperature moves the power by ~1e-4)."""
+    pure = "Isobutane" if x == 1.0 else "Isopentane"
+    for layout in ("basic", "recuperated"):
+        a = _best(layout, _ctx(base_ctx, mixture_with("Isobutane", "Isopentane", x)))
+        b = _best(layout, _ctx(base_ctx, pure))
+        assert a.W_net_W == pytest.approx(b.W_net_W, rel=1e-4), layout
+        assert a.T_cond_K == pytest.approx(b.T_cond_K, abs=TABLE_TOLERANCE_K)
+
+
+def _direct(name):
+    a, b = name.split("&")
+    return f"HEOS::{a}&{b}"
+
+
+def _isobar_points(name, p, T_from, T_to, h_from, h_to):
+    """(h, T) along the isobar p from (T_from, h_from) to (T_to, h_to), by CoolProp's own flashes
+    from scratch: (p, T) in the liquid and the vapour, (p, Q) in the glide (independent of the
+    engine's table)."""
+    fluid = _direct(name)
+    T_bub = CP.PropsSI("T", "P", p, "Q", 0, fluid)
+    T_dew = CP.PropsSI("T", "P", p, "Q", 1, fluid)
+    pts = []
+    for T in np.linspace(T_from, T_bub, 12)[:-1] if T_from < T_bub - 1e-6 else []:
+        pts.append((CP.PropsSI("H", "P", p, "T", T, fluid), T))
+    for q in np.linspace(0.0, 1.0, 41):
+        h, T = CP.PropsSI(["H", "T"], "P", p, "Q", q, fluid)
+        pts.append((h, T))
+    for T in np.linspace(T_dew, T_to, 12)[1:] if T_to > T_dew + 1e-6 else []:
+        pts.append((CP.PropsSI("H", "P", p, "T", T, fluid), T))
+    return [(h, T) for h, T in pts if h_from - 1e-6 <= h <= h_to + 1e-6]
+
+
+@pytest.mark.parametrize("layout", ["basic", "recuperated"])
+@pytest.mark.parametrize("x", [0.25, 0.6])
+def test_conservation_laws_on_mixture_cases(base_ctx, layout, x):
+    name = mixture_with("Isobutane", "Isopentane", x)
+    ctx = _ctx(base_ctx, name)
+    r = _best(layout, ctx)
+    st, m = r.states, r.m_wf_kg_s
+    src, snk = ctx.source, ctx.sink
+    s2r, s4r = st.get("2r", st["2"]), st.get("4r", st["4"])
+    # first law: cycle, source and sink
+    assert r.Q_in_W - r.Q_out_W == pytest.approx(r.W_turbine_W - r.W_pump_W, rel=1e-9)
+    assert r.Q_in_W == pytest.approx(m * (st["3"].h - s2r.h), rel=1e-9)
+    assert r.Q_out_W == pytest.approx(m * (s4r.h - st["1"].h), rel=1e-9)
+    h_src_out = float(src.h_J_kg(r.T_source_out_K))
+    assert src.m_kg_s * (src.h_in_J_kg - h_src_out) == pytest.approx(r.Q_in_W, rel=1e-6)
+    assert r.m_sink_kg_s * (float(snk.h_J_kg(snk.T_out_K)) - snk.h_in_J_kg) == pytest.approx(r.Q_out_W, rel=1e-6)
+    # second law: every component generates entropy
+    assert st["2"].s - st["1"].s >= -1e-6 and st["4"].s - st["3"].s >= -1e-6
+    assert m * (st["3"].s - s2r.s) + src.m_kg_s * (float(src.s_J_kgK(r.T_source_out_K)) - src.s_in_J_kgK) >= 0.0
+    assert (m * (st["1"].s - s4r.s)
+            + r.m_sink_kg_s * (float(snk.s_J_kgK(snk.T_out_K)) - float(snk.s_J_kgK(snk.T_in_K)))) >= 0.0
+    if "2r" in st:
+        assert (s2r.s - st["2"].s) + (s4r.s - st["4"].s) >= -1e-9
+    T = [v.T_K for v in st.values()]
+    assert 0.0 < r.W_net_W / r.Q_in_W < 1.0 - min(T) / max(T)
+    assert r.W_net_W < streams.source_exergy_W(src, snk.T_in_K)
+    # pinch on an independent discretisation (CoolProp's flashes from scratch, not the table)
+    s = ctx.settings
+    p_e = st["3"].p_Pa
+    for h, T_wf in _isobar_points(name, p_e, s2r.T_K, st["3"].T_K, s2r.h, st["3"].h):
+        T_hot = float(src.T_K(src.h_in_J_kg - m * (st["3"].h - h) / src.m_kg_s))
+        assert T_hot - T_wf >= s.pinch_evaporator_K - TABLE_TOLERANCE_K, ("evaporator", h, T_hot - T_wf)
+    p_c = st["1"].p_Pa
+    for h, T_wf in _isobar_points(name, p_c, st["1"].T_K, s4r.T_K, st["1"].h, s4r.h):
+        frac = (h - st["1"].h) / (s4r.h - st["1"].h)
+        T_cold = float(snk.T_K(snk.h_in_J_kg + frac * (float(snk.h_J_kg(snk.T_out_K)) - snk.h_in_J_kg)))
+        assert T_wf - T_cold >= s.pinch_condenser_K - TABLE_TOLERANCE_K, ("condenser", h, T_wf - T_cold)
+    # a glide in both exchangers
+    assert r.T_evap_K - st["2"].T_K > 0.0
+    sat_c = ctx.fluid.sat_p(p_c)
+    assert sat_c.glide_K > 1.0 and st["1"].T_K == pytest.approx(sat_c.T_K, abs=1e-9)
+
+
+def test_composition_optimum_within_a_dense_grid(base_ctx):
+    """The composition search (scan and bounded Brent around each composition's optimum) is
+    within 0.05 % of the best of a dense grid of its own model: 25 compositions x 60
+    evaporation temperatures, each cycle evaluated as reported (exact)."""
+    layout = LAYOUTS["basic"]
+    opt, x, n, scan = optimise_composition(layout, base_ctx, "Isobutane", "Isopentane")
+    assert opt is not None and X_MIN <= x <= X_MAX
+    best = -math.inf
+    for xg in np.linspace(X_MIN, X_MAX, 25):
+        ctx = _ctx(base_ctx, mixture_with("Isobutane", "Isopentane", float(xg)))
+        win = layout.window(ctx, "evaporation_temperature_K", {})
+        for T in np.linspace(win.lo, win.hi, 60):
+            r = layout.evaluate(ctx, {"evaporation_temperature_K": float(T)}, exact=True)
+            if r.ok:
+                best = max(best, score(r, ctx))
+    assert score(opt.cycle, _ctx(base_ctx, mixture_with("Isobutane", "Isopentane", x))) >= best * (1.0 - 5e-4)
+    assert len(scan) >= 9 and n > 0
+
+
+@pytest.mark.parametrize("layout", ["transcritical", "bleed-regenerative", "reheat"])
+def test_layouts_not_built_for_mixtures_say_so(base_ctx, layout):
+    opt = optimise(LAYOUTS[layout], _ctx(base_ctx, mixture_with("Isobutane", "Isopentane", 0.5)))
+    assert isinstance(opt, tuple) and "not built for zeotropic mixtures" in opt[1]
+    assert '"basic"' in opt[1] and '"recuperated"' in opt[1]
+
+
+def test_the_end_of_the_mixture_table_is_a_named_limit(base_ctx):
+    """A hot source: the evaporation of R245fa/isopentane stops where CoolProp's flash stops
+    converging below the critical point; the optimum names that limit instead of failing."""
+    hot = streams.source_from_settings({"kind": "water", "inlet_temperature_C": 190.0, "mass_flow_kg_s": 10.0,
+                                        "pressure_bar": 20.0})
+    fluid = get_fluid(mixture_with("R245fa", "Isopentane", 0.7))
+    ctx = CycleContext(fluid, hot, base_ctx.sink, base_ctx.settings)
+    win = LAYOUTS["basic"].window(ctx, "evaporation_temperature_K", {})
+    assert win.hi_name == "end of the mixture's saturation table" and win.hi == pytest.approx(fluid.T_sat_max_K)
+    opt = optimise(LAYOUTS["basic"], ctx)
+    assert not isinstance(opt, tuple)
+    assert opt.cycle.p_evap_Pa <= fluid.p_sat_max_Pa * (1 + 1e-9)
