@@ -65,6 +65,7 @@ __all__ = [
     "MONTREAL_FAMILIES",
     "OZONE_DEPLETING_WARNING",
     "NOT_CLASSIFIED",
+    "FROM_COMPONENTS",
     "SAFETY_CLASSES",
     "UNKNOWN",
     "CatalogueError",
@@ -121,6 +122,8 @@ GWP_REPORTS = ("AR6", "AR5", "AR4", "TAR", "SAR", "other", "none")
 #: The one word every display of the catalogue uses for a value that is not known.
 UNKNOWN = "unknown"
 NOT_CLASSIFIED = "not classified"  # display of safety_class "none": ASHRAE 34 lists no class
+#: A mixture's class that ASHRAE 34 does not give: the more hazardous of its components' (orcscreen.mixtures)
+FROM_COMPONENTS = "not classified by ASHRAE 34 as a blend, taken from its components"
 _FLAMMABILITY_WORDS = {
     "1": "no flame propagation",
     "2L": "lower flammability, low burning velocity",
@@ -192,6 +195,9 @@ class FluidInfo:
     has no liquid at 101325 Pa. curve_slope is sigma, see the module docstring.
     safety_class is an ASHRAE 34 group, "none" (not classified) or "" (unknown).
     gwp_report is the assessment report of gwp100, one of :data:`GWP_REPORTS`.
+    A binary mixture (:mod:`orcscreen.mixtures`, family "mixture") has its two components'
+    entries in ``components``; ``class_from_components`` is True when its safety_class is not
+    an ASHRAE 34 blend class but taken from its components (the more hazardous of each).
     """
 
     coolprop_name: str
@@ -212,6 +218,8 @@ class FluidInfo:
     M_kg_mol: float
     curve_type: str
     curve_slope: float
+    class_from_components: bool = False
+    components: tuple["FluidInfo", ...] = ()
 
     @property
     def classified(self) -> bool:
@@ -227,8 +235,9 @@ class FluidInfo:
 
     @property
     def ozone_depleting(self) -> bool:
-        """True for the families the Montreal Protocol phases out (:data:`MONTREAL_FAMILIES`)."""
-        return self.family in MONTREAL_FAMILIES
+        """True for the families the Montreal Protocol phases out (:data:`MONTREAL_FAMILIES`),
+        and for a mixture with such a component."""
+        return self.family in MONTREAL_FAMILIES or any(c.ozone_depleting for c in self.components)
 
     @property
     def toxicity(self) -> str:
@@ -239,8 +248,11 @@ class FluidInfo:
 
     @property
     def class_words(self) -> str:
-        """The safety class in words: "ASHRAE 34 class A1", "not classified in ASHRAE 34" or
-        "ASHRAE 34 class unknown"."""
+        """The safety class in words: "ASHRAE 34 class A1", "not classified in ASHRAE 34",
+        "ASHRAE 34 class unknown" or, for a mixture, "not classified by ASHRAE 34 as a blend,
+        taken from its components: A3"."""
+        if self.class_from_components:
+            return f"{FROM_COMPONENTS}: {self.safety_class}"
         if self.safety_class == "none":
             return f"{NOT_CLASSIFIED} in ASHRAE 34"
         return f"ASHRAE 34 class {safety_class_text(self.safety_class)}"
@@ -251,10 +263,11 @@ class FluidInfo:
         parts = []
         if self.classified:
             sub = self.safety_class[1:]
-            parts.append(
-                f"ASHRAE 34 class {self.safety_class}: {self.toxicity} toxicity, "
-                f"{_FLAMMABILITY_WORDS[sub]}."
-            )
+            words = f"{self.toxicity} toxicity, {_FLAMMABILITY_WORDS[sub]}"
+            if self.class_from_components:  # a mixture without an ASHRAE 34 blend class
+                parts.append(f"{FROM_COMPONENTS[0].upper()}{FROM_COMPONENTS[1:]}: {self.safety_class} ({words}).")
+            else:
+                parts.append(f"ASHRAE 34 class {self.safety_class}: {words}.")
         else:
             words = self.class_words
             parts.append(f"{words[0].upper()}{words[1:]}: treat as flammable and toxic.")
@@ -487,7 +500,12 @@ def _unknown(name: str, include_families: bool) -> UnknownFluidError:
 
 
 def get_info(name: str) -> FluidInfo:
-    """The catalogue entry for a CoolProp or display name (case-insensitive)."""
+    """The catalogue entry for a CoolProp or display name (case-insensitive); for a binary
+    mixture name (``A[x]&B[1-x]`` or ``A&B``) the mixture's entry, :func:`orcscreen.mixtures.mixture_info`."""
+    from orcscreen import mixtures
+
+    if mixtures.is_mixture(name):
+        return mixtures.mixture_info(str(name))
     info = _index().get(str(name).strip().lower())
     if info is None:
         raise _unknown(str(name), include_families=False)
@@ -556,7 +574,8 @@ def _class_reason(info: FluidInfo, allowed: set[str]) -> str | None:
         return None
     if not info.classified:
         return f"{info.class_words}: left out by safety_classes"
-    return f"safety class {info.safety_class} not in safety_classes {', '.join(sorted(allowed))}"
+    how = f" ({FROM_COMPONENTS})" if info.class_from_components else ""
+    return f"safety class {info.safety_class}{how} not in safety_classes {', '.join(sorted(allowed))}"
 
 
 def _all_reason(info: FluidInfo) -> str:
@@ -571,7 +590,18 @@ def _odp_reason(info: FluidInfo) -> str | None:
     return None if info.odp == 0.0 else f"ODP {info.odp:g} not zero: left out by zero_odp"
 
 
-def selection(include=("all",), exclude=(), max_gwp=None, safety_classes=None, zero_odp=False) -> Selection:
+def _filter_reasons(info: FluidInfo, max_gwp, allowed: set[str] | None, zero_odp: bool) -> list[str]:
+    """Why the filters max_gwp, safety_classes (allowed) and zero_odp leave a fluid out (empty: kept)."""
+    reasons = [
+        max_gwp is not None and _gwp_reason(info, max_gwp),
+        allowed is not None and _class_reason(info, allowed),
+        zero_odp and _odp_reason(info),
+    ]
+    return [r for r in reasons if r]
+
+
+def selection(include=("all",), exclude=(), max_gwp=None, safety_classes=None, zero_odp=False,
+              mixtures=()) -> Selection:
     """Catalogue fluids chosen by names/families and filters, with the ones the filters left out.
 
     include, exclude: fluid names (CoolProp or display), family names or "all". "all" leaves
@@ -581,9 +611,13 @@ def selection(include=("all",), exclude=(), max_gwp=None, safety_classes=None, z
     max_gwp: keep GWP100 <= max_gwp; fluids with unknown GWP are left out (conservative).
     safety_classes: keep only these ASHRAE 34 groups; unclassified fluids are left out.
     zero_odp: keep only ODP == 0; fluids with unknown ODP are left out.
+    mixtures: a study's [fluids] mixtures entries ({components, mole_fractions};
+    :func:`orcscreen.mixtures.entry_names`), chosen after the pure fluids in their order and
+    filtered by their own facts (:func:`orcscreen.mixtures.mixture_facts`; a composition to be
+    optimised by its worse component's). exclude does not apply to them.
     A fluid named by include and not by exclude that a filter drops is in ``left_out`` with
     every filter's reason. Raises UnknownFluidError for an unknown name, ValueError for a bad
-    filter value.
+    filter value or mixture (orcscreen.mixtures.MixtureError).
     """
     chosen: set[str] = set()
     named: set[str] = set()  # chosen by a fluid or family name, not only by "all"
@@ -606,29 +640,37 @@ def selection(include=("all",), exclude=(), max_gwp=None, safety_classes=None, z
     for info in load_catalogue():
         if info.coolprop_name not in chosen:
             continue
-        reasons = [
-            info.ozone_depleting and info.coolprop_name not in named and _all_reason(info),
-            max_gwp is not None and _gwp_reason(info, max_gwp),
-            allowed is not None and _class_reason(info, allowed),
-            zero_odp and _odp_reason(info),
-        ]
-        reasons = [r for r in reasons if r]
+        reasons = [info.ozone_depleting and info.coolprop_name not in named and _all_reason(info)]
+        reasons = [r for r in reasons if r] + _filter_reasons(info, max_gwp, allowed, zero_odp)
         if reasons:
             left.append(LeftOut(info, "; ".join(reasons)))
         else:
             kept.append(info)
+    if mixtures:
+        from orcscreen import mixtures as _mixtures
+
+        for name in _mixtures.entries_names(mixtures):
+            info = _mixtures.mixture_facts(name)
+            reasons = _filter_reasons(info, max_gwp, allowed, zero_odp)
+            if reasons:
+                left.append(LeftOut(info, "; ".join(reasons)))
+            else:
+                kept.append(info)
     return Selection(tuple(kept), tuple(left))
 
 
-def select(include=("all",), exclude=(), max_gwp=None, safety_classes=None, zero_odp=False) -> list[FluidInfo]:
-    """The fluids :func:`selection` chooses, in catalogue order (same arguments and errors)."""
-    return list(selection(include, exclude, max_gwp, safety_classes, zero_odp).chosen)
+def select(include=("all",), exclude=(), max_gwp=None, safety_classes=None, zero_odp=False,
+           mixtures=()) -> list[FluidInfo]:
+    """The fluids :func:`selection` chooses, in catalogue order, then the mixtures (same
+    arguments and errors). Mixtures come with their facts only (:func:`orcscreen.mixtures.mixture_facts`)."""
+    return list(selection(include, exclude, max_gwp, safety_classes, zero_odp, mixtures).chosen)
 
 
 def left_out_of(filters) -> tuple[LeftOut, ...]:
-    """The fluids that a study's [fluids] section (a mapping with the keys of :func:`selection`:
-    include, exclude, max_gwp, safety_classes, zero_odp; others are ignored) leaves out."""
-    keys = ("include", "exclude", "max_gwp", "safety_classes", "zero_odp")
+    """The fluids and mixtures that a study's [fluids] section (a mapping with the keys of
+    :func:`selection`: include, exclude, max_gwp, safety_classes, zero_odp, mixtures; others
+    are ignored) leaves out."""
+    keys = ("include", "exclude", "max_gwp", "safety_classes", "zero_odp", "mixtures")
     return selection(**{k: filters[k] for k in keys if k in filters}).left_out
 
 
@@ -636,8 +678,15 @@ def regulatory_warnings(names) -> list[str]:
     """One line per chosen fluid (CoolProp or display names, or FluidInfo) that the Montreal
     Protocol phases out: "<display name>: ozone-depleting: phased out under the Montreal
     Protocol, ...". For `check` and the run console."""
-    infos = [n if isinstance(n, FluidInfo) else get_info(n) for n in _as_list(names)]
+    infos = [n if isinstance(n, FluidInfo) else _facts_of(n) for n in _as_list(names)]
     return [f"{i.display_name}: {ozone_depleting_warning(i)}" for i in infos if i.ozone_depleting]
+
+
+def _facts_of(name: str) -> FluidInfo:
+    """:func:`get_info` without a mixture's equation of state (its facts: orcscreen.mixtures.mixture_facts)."""
+    from orcscreen import mixtures
+
+    return mixtures.mixture_facts(str(name)) if mixtures.is_mixture(name) else get_info(name)
 
 
 def ozone_depleting_warning(info: FluidInfo | None) -> str | None:
@@ -659,12 +708,15 @@ def _flammability_words(info: FluidInfo) -> str | None:
 
 def _class_caution(info: FluidInfo) -> str:
     """Safety part of a caution: "highly flammable (ASHRAE 34 class A3)", "not classified by
-    ASHRAE 34; flammable", "ASHRAE 34 class A1"..."""
+    ASHRAE 34; flammable", "ASHRAE 34 class A1", for a mixture without a blend class "not
+    classified by ASHRAE 34 as a blend, taken from its components: A3 (highly flammable)"..."""
     flammability = _flammability_words(info)
     if not info.classified:
         head = "not classified by ASHRAE 34" if info.safety_class == "none" else f"ASHRAE 34 class {UNKNOWN}"
         return f"{head}; {flammability}"
     words = (["higher toxicity"] if info.toxicity == "higher" else []) + ([flammability] if flammability else [])
+    if info.class_from_components:  # a mixture: "not classified ... components: B3 (higher toxicity, ...)"
+        return f"{info.class_words} ({', '.join(words)})" if words else info.class_words
     label = f"ASHRAE 34 class {info.safety_class}"
     return f"{', '.join(words)} ({label})" if words else label
 

@@ -24,7 +24,7 @@ import tomllib
 from collections.abc import Iterator, Mapping
 from importlib import metadata
 from pathlib import Path
-from typing import Annotated, Any, Literal, Optional, Union
+from typing import Annotated, Any, Literal, Optional, Union, get_args, get_origin
 
 from pydantic import (
     BaseModel,
@@ -576,6 +576,51 @@ class EconomicsSection(_Section):
         return v
 
 
+_MIXTURE_DECIMALS = 6  # mole fractions in a mixture's name (orcscreen.mixtures.DECIMALS)
+
+
+class MixtureEntry(_Section):
+    """One entry of [fluids] mixtures: a binary zeotropic mixture of two catalogue fluids."""
+
+    components: list[str] = _f(
+        ..., "The two fluids of the mixture (CoolProp or display names); CoolProp must have "
+        "interaction parameters for the pair.",
+        "a list of two different catalogue fluid names whose pair has interaction parameters in CoolProp",
+        min_length=2, max_length=2,
+    )
+    mole_fractions: Union[Annotated[list[Annotated[float, Field(gt=0, lt=1)]], Field(min_length=1)],
+                          Literal["optimise"]] = _f(
+        ..., "Mole fractions of the FIRST component to screen [-], one mixture per value, or \"optimise\" "
+        "(the composition is optimised per case); the mass fraction is reported.",
+        'a list of numbers between 0 and 1 (exclusive; 0 and 1 are the pure fluids, which fluids.include '
+        'screens), or "optimise"',
+    )
+
+    @field_validator("components", mode="before")
+    @classmethod
+    def _two_names(cls, v: Any) -> Any:
+        if not isinstance(v, list) or len(v) != 2 or not all(isinstance(n, str) and n.strip() for n in v):
+            raise ValueError("not two fluid names")
+        return v
+
+    @field_validator("mole_fractions", mode="before")
+    @classmethod
+    def _fractions(cls, v: Any) -> Any:
+        if v in ("optimise", "optimize"):
+            return "optimise"
+        if not isinstance(v, list) or not v:
+            raise ValueError('neither a list of mole fractions nor "optimise"')
+        for j, x in enumerate(v):
+            if isinstance(x, bool) or not isinstance(x, (int, float)):
+                raise ValueError(f"item {j} = {_show(x)} is not a number")
+            if not (math.isfinite(x) and 0 < x < 1):
+                raise ValueError(f"item {j} = {_show(x)} is not between 0 and 1 (exclusive)")
+            if not 0 < round(x, _MIXTURE_DECIMALS) < 1:
+                raise ValueError(f"item {j} = {_show(x)} rounds to {round(x, _MIXTURE_DECIMALS):g} at "
+                                 f"{_MIXTURE_DECIMALS} decimals")
+        return [float(x) for x in v]
+
+
 class FluidsSection(_Section):
     """[fluids]: which working fluids of the catalogue to screen."""
 
@@ -590,6 +635,12 @@ class FluidsSection(_Section):
         f"a list of {_choices(SAFETY_CLASSES)}",
     )
     zero_odp: bool = _f(False, "Keep only fluids with zero ozone depletion potential.", "true or false")
+    mixtures: list[MixtureEntry] = _f(
+        [], "Binary zeotropic mixtures to screen after the pure fluids, e.g. [{components = [\"isobutane\", "
+        "\"isopentane\"], mole_fractions = [0.3, 0.5, 0.7]}]; the filters max_gwp, safety_classes and "
+        "zero_odp apply to each mixture (a composition to be optimised: its worse component); exclude does not.",
+        "a list of tables {components = [two fluid names], mole_fractions = [numbers in (0, 1)] or \"optimise\"}",
+    )
 
     @field_validator("include", "exclude", "safety_classes", mode="before")
     @classmethod
@@ -603,7 +654,7 @@ _CASE_SECTIONS = ("study", "source", "sink", "exchangers", "machines", "limits",
 class Study(BaseModel):
     """A validated study. Build it with :func:`load_study` or :func:`study_from_dict`.
 
-    Attributes beyond the sections: ``fluids`` (resolved fluid names, catalogue order),
+    Attributes beyond the sections: ``fluids`` (resolved fluid names, catalogue order, then mixtures),
     ``sweep_axes`` (dotted path -> list of values, file order), ``n_cases``, ``origin``.
     """
 
@@ -639,7 +690,9 @@ class Study(BaseModel):
 
     @property
     def fluids(self) -> tuple[str, ...]:
-        """CoolProp names of the fluids selected by the [fluids] section, in catalogue order."""
+        """CoolProp names of the fluids selected by the [fluids] section, in catalogue order, then
+        its mixtures in file and composition order (``A[x]&B[1-x]``; ``A&B`` for a composition
+        to be optimised; orcscreen.mixtures)."""
         return self._fluids
 
     @property
@@ -820,15 +873,48 @@ def _field_adapter(path: str) -> TypeAdapter:
     return TypeAdapter(typ, config=ConfigDict(strict=True, allow_inf_nan=False))
 
 
+def _item_model(annotation: Any) -> type[BaseModel] | None:
+    """The model of a field that holds a table or a list of tables ([fluids] mixtures), else None."""
+    if isinstance(annotation, type) and issubclass(annotation, BaseModel):
+        return annotation
+    if get_origin(annotation) is list:
+        args = get_args(annotation)
+        if args and isinstance(args[0], type) and issubclass(args[0], BaseModel):
+            return args[0]
+    return None
+
+
+def _field_at(path: str) -> tuple[type[BaseModel] | None, Any]:
+    """(model the path leads to, FieldInfo of its last key) for a dotted path whose list items
+    may carry indices ("fluids.mixtures[1].components"); (None, None) where it leads nowhere."""
+    names = re.sub(r"\[\d+\]", "", path).split(".")
+    model: type[BaseModel] | None = _SECTION_MODELS.get(names[0])
+    fi = None
+    for name in names[1:]:
+        fi = model.model_fields.get(name) if model is not None else None
+        if fi is None:
+            return None, None
+        model = _item_model(fi.annotation)
+    return model, fi
+
+
 def _allowed(path: str) -> str:
-    section, _, key = path.partition(".")
-    model = _SECTION_MODELS.get(section)
-    if model is None:
-        return ""
-    fi = model.model_fields.get(key)
+    _, fi = _field_at(path)
     if fi is None or not isinstance(fi.json_schema_extra, dict):
         return ""
     return str(fi.json_schema_extra.get("allowed", ""))
+
+
+_LAST_KEY = re.compile(r'(?:(.*)\.)?("(?:[^"\\]|\\.)*"|[^."]+)')
+
+
+def _split_last(path: str) -> tuple[str, str]:
+    """(parent path, last key) of a dotted key path; the key may be quoted (with dots in it)."""
+    m = _LAST_KEY.fullmatch(path)
+    if m is None:
+        parent, _, key = path.partition(".")
+        return (parent, key) if key else ("", parent)
+    return m.group(1) or "", m.group(2)
 
 
 def _nearest(word: str, choices: list[str] | tuple[str, ...]) -> str | None:
@@ -893,8 +979,9 @@ def _loc_path(loc: tuple[Any, ...]) -> tuple[str, str]:
         name = fields.get(item, item)
         parts.append(str(item))
         annotation = model.model_fields[name].annotation
-        if isinstance(annotation, type) and issubclass(annotation, BaseModel):
-            model = annotation
+        if _item_model(annotation) is not None:  # a section, or a list of tables (fluids.mixtures)
+            model = _item_model(annotation)
+            field_path = ".".join(parts) if model is not annotation else field_path
         else:
             field_path = ".".join(parts)
             model = None
@@ -914,11 +1001,11 @@ def _format_validation_errors(exc: ValidationError, origin: str, prefix: str = "
     suggested = set()
     for path, errs in grouped.items():
         if errs[0]["type"] == "extra_forbidden":
-            section, _, key = path.partition(".")
-            model = _SECTION_MODELS.get(section)
+            parent, key = _split_last(path)
+            model = _field_at(parent)[0] if parent else None
             guess = _nearest(key, list(model.model_fields)) if model is not None and key else None
             if guess:
-                suggested.add(f"{section}.{guess}")
+                suggested.add(f"{parent}.{guess}")
     lines = []
     for path, errs in grouped.items():
         if errs[0]["type"] == "missing" and path in suggested:
@@ -964,20 +1051,19 @@ def _error_line(origin: str, path: str, field_path: str, errs: list[dict[str, An
 
 
 def _unknown_key_line(origin: str, path: str, value: Any) -> str:
-    section, _, key = path.partition(".")
-    if not key:
-        section, key = "", section
+    section, key = _split_last(path)
     if key.startswith('"'):
         key = json.loads(key)
     if not section:
         guess = _nearest(key, _TOP_KEYS)
         hint = f"; did you mean [{guess}]?" if guess else ""
         return f"{origin}: [{_key_text(key)}]: unknown section{hint} allowed: {', '.join(_TOP_KEYS)}"
-    model = _SECTION_MODELS.get(section)
+    model = _field_at(section)[0]
     choices = list(model.model_fields) if model is not None else []
     guess = _nearest(key, choices)
     hint = f"; did you mean {section}.{guess}?" if guess else ""
-    return f"{origin}: {path}: unknown key{hint} allowed in [{section}]: {', '.join(choices)}"
+    where = f"[{section}]" if section in _SECTION_MODELS else section
+    return f"{origin}: {path}: unknown key{hint} allowed in {where}: {', '.join(choices)}"
 
 
 # ---------------------------------------------------------------------------------------------
@@ -1379,9 +1465,34 @@ def _check_swept_source_keys(study: Study, flat: dict[str, tuple[str, Any]], spe
 # Fluids
 # ---------------------------------------------------------------------------------------------
 
+def _check_mixtures(section: FluidsSection, origin: str, errors: list[str]) -> list[dict[str, Any]]:
+    """The [fluids] mixtures entries whose components are catalogue fluids forming a pair with
+    interaction parameters in CoolProp (orcscreen.mixtures.check_pair); one error line per other
+    entry, naming its key path."""
+    from orcscreen import fluids, mixtures
+
+    good = []
+    for i, entry in enumerate(section.mixtures):
+        where = f"{origin}: fluids.mixtures[{i}].components = {_show(list(entry.components))}"
+        try:
+            mixtures.check_pair(*entry.components)
+        except fluids.UnknownFluidError as exc:
+            errors.append(f"{where}: {exc}; allowed: {_allowed('fluids.mixtures.components')} "
+                          f"(names listed by `orcscreen fluids`)")
+            continue
+        except mixtures.MixtureError as exc:
+            errors.append(f"{where}: {exc.problem}; allowed: {exc.allowed}")
+            continue
+        good.append(entry.model_dump())
+    return good
+
+
 def _resolve_fluids(section: FluidsSection, origin: str, errors: list[str]) -> tuple[str, ...]:
+    """CoolProp names of the chosen fluids (catalogue order), then of the mixtures (file order,
+    composition order; orcscreen.mixtures.mixture_name)."""
     from orcscreen import fluids
 
+    entries = _check_mixtures(section, origin, errors)
     try:
         infos = fluids.select(
             include=list(section.include),
@@ -1389,6 +1500,7 @@ def _resolve_fluids(section: FluidsSection, origin: str, errors: list[str]) -> t
             max_gwp=section.max_gwp,
             safety_classes=None if section.safety_classes is None else list(section.safety_classes),
             zero_odp=section.zero_odp,
+            mixtures=entries,
         )
     except fluids.UnknownFluidError as exc:
         errors.append(f"{origin}: fluids: {exc}; allowed: names and families listed by `orcscreen fluids`")
