@@ -26,7 +26,8 @@ from .areas import U_KEYS
 from .economics import Economics
 from .objectives import OBJECTIVES
 from .case_variables import optimised_or
-from .composition import components_to_optimise, mixture_with, optimise_composition
+from .composition import components_to_optimise, optimise_composition
+from .mixtures import mixture_name
 from .figures import ROW_COLUMNS, case_detail, empty_row, energy_figures, result_row
 from .optimize import optimise
 from .properties import PropertyError, get_fluid
@@ -102,25 +103,26 @@ def run_case(case) -> dict:
     info = None
     case = Case.from_dict(case) if isinstance(case, Mapping) else case
     try:
+        info = fluid_catalogue.get_info(case.fluid)  # a pair to optimise: its worse component's facts
         pair = components_to_optimise(case.fluid)
-        info = fluid_catalogue.get_info(case.fluid if pair is None else mixture_with(*pair, 0.5))
         layout = LAYOUTS[case.layout]
-        ctx = case_context(case, info)
+        # a pair to optimise: the context of its 50/50 composition (a point of the scan)
+        ctx = case_context(case, info if pair is None else fluid_catalogue.get_info(mixture_name(*pair, 0.5)))
         composition_scan = None
-        if pair is None:
+        if pair is None or layout.unsuited(ctx):
             opt = optimise(layout, ctx)
         else:  # the composition is a free variable too (orcscreen.composition)
             opt, x, n, composition_scan = optimise_composition(layout, ctx, *pair)
             if opt is not None:
-                info = fluid_catalogue.get_info(mixture_with(*pair, x))
+                info = fluid_catalogue.get_info(mixture_name(*pair, x))
                 ctx = dataclasses.replace(ctx, fluid=get_fluid(info.coolprop_name))
                 opt = dataclasses.replace(opt, evaluations=n)
             else:
                 opt = (None, x, n)
         if isinstance(opt, tuple):
             _, reason, n = opt
-            return {"row": empty_row(case.fluid, case.layout, info if pair is None else None, "infeasible", reason,
-                                     time.perf_counter() - t0, n), "detail": None}
+            return {"row": empty_row(case.fluid, case.layout, info, "infeasible", reason, time.perf_counter() - t0, n),
+                    "detail": None}
         year = getattr(case, "year", None)
         design_notes, rated_year = [], None
         if year is not None and year.resolved_path:

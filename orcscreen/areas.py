@@ -91,8 +91,8 @@ def segment_zones(profile: Profile, exchanger: str) -> tuple[str, ...]:
     "supercritical heating". Condenser (working fluid on the hot side): "condensation" on the
     plateau, "subcooling" on its cold-end side (lower Q), "desuperheating" on its hot-end side;
     a condenser without plateau is refused (ValueError). Recuperator: all "recuperation".
-    A zeotropic mixture glides while changing phase: its zones would need labels from the
-    path, not this rule.
+    A zeotropic mixture glides while changing phase: its profile says where
+    (``Profile.phase_change_Q_W``) and the zones follow that instead of a plateau.
     """
     codes, names = _zone_codes(profile, exchanger)
     return tuple(names[c] for c in codes)
@@ -105,6 +105,11 @@ def _zone_codes(profile: Profile, exchanger: str) -> tuple[np.ndarray, tuple[str
     n = len(profile.Q_W) - 1
     if rule.wf_side is None:
         return np.ones(n, dtype=np.intp), (rule.before, rule.plateau, rule.after)
+    glide = getattr(profile, "phase_change_Q_W", None)
+    if glide is not None:  # a mixture: the phase change is where the profile says, not a plateau
+        mid = 0.5 * (profile.Q_W[1:] + profile.Q_W[:-1])
+        codes = np.where(mid < glide[0], 0, np.where(mid <= glide[1], 1, 2))
+        return codes.astype(np.intp), (rule.before, rule.plateau, rule.after)
     T = getattr(profile, rule.wf_side)
     flat = (np.abs(np.diff(T)) <= PLATEAU_TOL_K) & (np.diff(profile.Q_W) > 0.0)
     if not flat.any():

@@ -21,9 +21,10 @@ import math
 from .cycles import CycleContext, Layout
 from .objectives import score
 from .optimize import optimise
+from .mixtures import is_mixture, mixture_name, parse_mixture
 from .properties import PropertyError, get_fluid
 
-__all__ = ["X_MIN", "X_MAX", "COMPOSITION_SCAN", "XATOL", "optimise_composition", "mixture_with", "components_to_optimise"]
+__all__ = ["X_MIN", "X_MAX", "COMPOSITION_SCAN", "XATOL", "optimise_composition", "components_to_optimise"]
 
 #: Range of the first component's mole fraction searched [-] (the pure ends are the pure fluids'
 #: own cases).
@@ -36,16 +37,10 @@ XATOL = 2e-3
 
 def components_to_optimise(name: str) -> tuple[str, str] | None:
     """(first, second) of a mixture named without its composition ("A&B"), else None."""
-    if "&" not in name or "[" in name:
+    if not is_mixture(name):
         return None
-    first, _, second = name.partition("&")
-    return first.strip(), second.strip()
-
-
-def mixture_with(first: str, second: str, x: float) -> str:
-    """The name of the mixture of first and second (CoolProp names) at first's mole fraction x
-    (CoolProp's syntax, 6 decimals)."""
-    return f"{first}[{x:.6f}]&{second}[{1.0 - x:.6f}]"
+    first, second, x = parse_mixture(name)
+    return None if x is not None else (first, second)
 
 
 def optimise_composition(layout: Layout, ctx: CycleContext, first: str, second: str):
@@ -63,7 +58,7 @@ def optimise_composition(layout: Layout, ctx: CycleContext, first: str, second: 
         x = round(float(x), 6)
         if x not in tried:
             try:
-                fluid = get_fluid(mixture_with(first, second, x))
+                fluid = get_fluid(mixture_name(first, second, x))
             except PropertyError as exc:
                 tried[x] = (None, -math.inf, str(exc))
                 return tried[x]

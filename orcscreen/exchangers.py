@@ -49,6 +49,7 @@ __all__ = [
     "COND_TOL_FAST_K",
     "recuperate",
     "open_heater_bleed_fraction",
+    "glide_duty",
 ]
 
 
@@ -57,11 +58,15 @@ class Profile:
     """T-Q profile of a counter-current exchanger.
 
     Q_W [W] from the cold end (0) to the duty; T_hot_K and T_cold_K [K] at the same points.
+    phase_change_Q_W [W]: where the working fluid changes phase along a glide (a zeotropic
+    mixture: from the bubble to the dew point), None for a pure fluid, whose plateau shows it
+    (orcscreen.areas names the zones from either).
     """
 
     Q_W: np.ndarray
     T_hot_K: np.ndarray
     T_cold_K: np.ndarray
+    phase_change_Q_W: tuple[float, float] | None = None
 
     @property
     def duty_W(self) -> float:
@@ -257,7 +262,18 @@ def heater_profile(path: FluidPath, m_wf: float, h_out: float, source) -> Profil
     hs_in = float(source.h_in_J_kg)
     Q = m_wf * (path.h - path.h[0])
     T_src = source.T_K(hs_in - m_wf * (h_out - path.h) / source.m_kg_s)
-    return Profile(Q, np.asarray(T_src, dtype=float), path.T_K)
+    return Profile(Q, np.asarray(T_src, dtype=float), path.T_K, glide_duty(path.labels, Q, path.T_K))
+
+
+def glide_duty(labels, Q_W, T_K) -> tuple[float, float] | None:
+    """(duty at the bubble point, duty at the dew point) [W] of a path with a glide (its dew point
+    hotter than its bubble point), from its labelled points; None otherwise (a pure fluid)."""
+    if "bubble point" not in labels or "dew point" not in labels:
+        return None
+    ib, id_ = labels.index("bubble point"), labels.index("dew point")
+    if not T_K[id_] > T_K[ib] + 1e-9:
+        return None
+    return float(Q_W[ib]), float(Q_W[id_])
 
 
 # ---------------------------------------------------------------------------------------------

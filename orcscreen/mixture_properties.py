@@ -34,7 +34,6 @@ latent heat. Sources: CoolProp documentation, "Mixtures" (inputs for mixtures: (
 from __future__ import annotations
 
 import math
-import re
 from collections import OrderedDict
 
 import numpy as np
@@ -55,8 +54,8 @@ TABLE_VAPOUR_FRACTIONS = np.array([0.0, 0.02, 0.05, 0.1, 0.2, 0.3, 0.4, 0.5, 0.6
 #: critical pressure, then HIGH_PRESSURES evenly in p up to TOP_REDUCED_PRESSURE (the properties
 #: change fastest near the critical point); the table stops at the last pressure where every
 #: flash converges and the bubble and dew temperatures still rise.
-LOW_PRESSURES = 48
-HIGH_PRESSURES = 30
+LOW_PRESSURES = 30
+HIGH_PRESSURES = 20
 SPLIT_REDUCED_PRESSURE = 0.6
 TOP_REDUCED_PRESSURE = 0.99
 
@@ -72,19 +71,16 @@ def table_pressures(p_lo_Pa: float, p_crit_Pa: float) -> np.ndarray:
 TABLE_TOLERANCE_K = 0.01
 TABLE_TOLERANCE_H = 1e-4
 
-_NAME = re.compile(r"^\s*([^&\[\]]+?)\s*\[\s*([0-9.eE+-]+)\s*\]\s*&\s*([^&\[\]]+?)\s*\[\s*([0-9.eE+-]+)\s*\]\s*$")
-
-
 def parse_components(name: str) -> tuple[str, str, float]:
-    """(first, second, first's mole fraction) of a mixture name in CoolProp's syntax,
-    ``"Isobutane[0.400000]&Isopentane[0.600000]"``; ValueError for any other form."""
-    m = _NAME.match(name)
-    if not m:
+    """(first, second, first's mole fraction) of a mixture name with its composition
+    (:func:`orcscreen.mixtures.parse_mixture`; 0 and 1 allowed: a pure component); ValueError
+    for any other form."""
+    from .mixtures import parse_mixture
+
+    a, b, x = parse_mixture(name, pure_ends=True)
+    if x is None:
         raise ValueError(f"{name!r} is not a binary mixture with its composition (expected 'A[x]&B[1-x]')")
-    a, xa, b, xb = m.group(1), float(m.group(2)), m.group(3), float(m.group(4))
-    if not (0.0 <= xa <= 1.0 and abs(xa + xb - 1.0) < 1e-6):
-        raise ValueError(f"{name!r}: mole fractions {xa:g} and {xb:g} must lie between 0 and 1 and add up to 1")
-    return a, b, xa
+    return a, b, x
 
 
 def _cubic_weights(xs: np.ndarray, x: float) -> tuple[tuple[float, float, float, float], int]:

@@ -138,10 +138,11 @@ def mixture_name(first: str, second: str, x_first: float | None = None) -> str:
     return f"{a}[{_fraction_text(x)}]{SEPARATOR}{b}[{_fraction_text(round(1.0 - x, DECIMALS))}]"
 
 
-def parse_mixture(name: str) -> tuple[str, str, float | None]:
+def parse_mixture(name: str, pure_ends: bool = False) -> tuple[str, str, float | None]:
     """(first, second, x_first or None) of a mixture name, components as written; raises
     MixtureError for a name that is not two components, or whose fractions are not both given,
-    not in (0, 1) or do not sum to 1 (to 1.5e-6: two numbers rounded to 6 decimals)."""
+    not in (0, 1) (with pure_ends: [0, 1], a pure component in a mixture's clothes, which the
+    tests use) or do not sum to 1 (to 1.5e-6: two numbers rounded to 6 decimals)."""
     text = str(name)
     parts = text.split(SEPARATOR)
     matches = [_PART.match(p) for p in parts]
@@ -157,7 +158,8 @@ def parse_mixture(name: str) -> tuple[str, str, float | None]:
         x1, x2 = float(xa), float(xb)
     except ValueError:
         raise MixtureError(f"{text!r}: mole fractions {xa!r}, {xb!r} are not numbers") from None
-    if not (0.0 < x1 < 1.0 and 0.0 < x2 < 1.0 and abs(x1 + x2 - 1.0) <= 1.5e-6):
+    inside = (0.0 <= x1 <= 1.0 and 0.0 <= x2 <= 1.0) if pure_ends else (0.0 < x1 < 1.0 and 0.0 < x2 < 1.0)
+    if not (inside and abs(x1 + x2 - 1.0) <= 1.5e-6):
         raise MixtureError(f"{text!r}: mole fractions must lie between 0 and 1 and sum to 1")
     return a, b, x1
 

@@ -16,13 +16,18 @@ import pytest
 import CoolProp.CoolProp as CP
 
 from orcscreen import api, streams
-from orcscreen.composition import X_MAX, X_MIN, mixture_with, optimise_composition
+from orcscreen.composition import X_MAX, X_MIN, optimise_composition
 from orcscreen.cycles import LAYOUTS, CycleContext
 from orcscreen.mixture_properties import TABLE_TOLERANCE_K
 from orcscreen.objectives import score
 from orcscreen.optimize import optimise
 from orcscreen.properties import get_fluid
 from orcscreen.study import study_from_dict
+
+def mixture_with(a, b, x):
+    """The engine's name of a mixture of a and b at a's mole fraction x (0 and 1 allowed)."""
+    return f"{a}[{x:.6f}]&{b}[{1.0 - x:.6f}]"
+
 
 SOURCE = {"kind": "water", "inlet_temperature_C": 120.0, "mass_flow_kg_s": 10.0, "min_outlet_temperature_C": 50.0}
 SINK = {"kind": "water", "inlet_temperature_C": 15.0, "temperature_rise_K": 10.0}

@@ -826,7 +826,10 @@ def exchanger_profiles(ctx: CycleContext, cs, heater_path, m_wf: float, h_out: f
     else:
         h, T, T_sink = condenser_approach(fluid, sink, cs, n, True)[2]
     m_c = m_wf if cs.condenser_share == 1.0 else m_wf * cs.condenser_share
-    out["condenser"] = Profile(m_c * (h - h[0]), T, np.asarray(T_sink, dtype=float))
+    glide = None
+    if cs.sat.glide_K > 0.0:  # where a mixture condenses: from the dew point (or a wet inlet) to the bubble point
+        glide = (m_c * max(cs.sat.hL - h[0], 0.0), m_c * (min(cs.sat.hV, h[-1]) - h[0]))
+    out["condenser"] = Profile(m_c * (h - h[0]), T, np.asarray(T_sink, dtype=float), glide)
     if cs.recuperator_active:
         prof = cs.rec_profile
         if prof is None:  # in the search: its two ends (hot side 4 -> 4r, cold side 2 -> 2r)
