@@ -121,8 +121,9 @@ def run_case(case) -> dict:
                 opt = (None, x, n)
         if isinstance(opt, tuple):
             _, reason, n = opt
-            return {"row": empty_row(case.fluid, case.layout, info, "infeasible", reason, time.perf_counter() - t0, n),
-                    "detail": None}
+            row = empty_row(case.fluid, case.layout, info, "infeasible", reason, time.perf_counter() - t0, n)
+            row["composition_optimised"] = pair is not None
+            return {"row": row, "detail": None}
         year = getattr(case, "year", None)
         design_notes, rated_year = [], None
         if year is not None and year.resolved_path:
@@ -139,6 +140,7 @@ def run_case(case) -> dict:
                                           for x, s, why in composition_scan]
         row = result_row(case.fluid, layout, info, ctx.fluid, ctx.source, ctx.sink, opt.cycle, opt.binding_limit,
                          opt.evaluations, time.perf_counter() - t0, ctx.settings)
+        row["composition_optimised"] = pair is not None
         if year is not None and year.resolved_path:
             try:
                 columns, year_detail, notes = year_figures(layout, ctx, opt.cycle, year, row, rated_year)

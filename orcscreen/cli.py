@@ -35,6 +35,11 @@ START_UP_S = 2.0
 #: (ranking.csv and ranking.xlsx: about 1.3 ms a row at 20,000 rows)
 REPORT_S = 5.0
 TABLES_S_PER_CASE = 0.0015
+#: Zeotropic mixtures (benchmarks/bench_mixtures.py, 2026-12-02): a composition's saturation
+#: table [s] (built once per worker process), and a case whose composition is optimised [s]
+#: (about 15 tables and an optimisation at each composition).
+MIXTURE_TABLE_S = 0.8
+COMPOSITION_SEARCH_S = 12.0
 
 CAUTION_LINE = "Preliminary screening, not a design: see README Cautions."
 
@@ -168,12 +173,28 @@ def _cmd_check(args: argparse.Namespace) -> int:
     if study.cycle.superheat_K == "optimise":
         per_case *= SUPERHEAT_SEARCH_FACTOR
     outputs_s = REPORT_S + TABLES_S_PER_CASE * study.n_cases
-    seconds = START_UP_S + study.n_cases * per_case / cores + outputs_s
+    mixtures_s = _mixtures_s(study, cores)
+    seconds = START_UP_S + study.n_cases * per_case / cores + outputs_s + mixtures_s
+    mixed = f", about {_duration(mixtures_s)} for the mixtures' property tables and composition searches" if mixtures_s else ""
     print(f"  time: about {_duration(seconds)} on {cores} core{'s' if cores != 1 else ''} "
-          f"(a rough estimate at {per_case * 1000:.3g} ms per case per core, the layouts' measured costs, plus {START_UP_S:g} s start-up "
-          f"and about {_duration(outputs_s)} for the tables, charts and report; real cases vary with fluid and layout)")
+          f"(a rough estimate at {per_case * 1000:.3g} ms per case per core, the layouts' measured costs, plus {START_UP_S:g} s start-up"
+          f"{mixed} and about {_duration(outputs_s)} for the tables, charts and report; real cases vary with fluid and layout)")
     print("nothing was run or written.")
     return EXIT_OK
+
+
+def _mixtures_s(study, cores: int) -> float:
+    """Extra time [s] of a study's mixtures: each fixed composition's table in every worker, and
+    the composition search of each pair to optimise in each layout that takes mixtures."""
+    from orcscreen.cycles import LAYOUTS
+    from orcscreen.mixtures import is_mixture, parse_mixture
+
+    mixtures = [parse_mixture(f) for f in study.fluids if is_mixture(f)]
+    fixed = sum(1 for *_, x in mixtures if x is not None)
+    searched = sum(1 for *_, x in mixtures if x is None)
+    layouts = sum(1 for n in study.layouts if LAYOUTS[n].takes_mixtures)
+    return (fixed * MIXTURE_TABLE_S * min(cores, study.n_points)
+            + study.n_points * searched * layouts * COMPOSITION_SEARCH_S) / cores
 
 
 def _cmd_fluids(args: argparse.Namespace) -> int:

@@ -133,6 +133,9 @@ def read_run(directory: str | os.PathLike[str]) -> RunFolder:
     if "coolprop_name" in table:  # runs that name fluids for people: match on the CoolProp name
         table["display_name"] = table["fluid"]
         table["fluid"] = table["coolprop_name"].astype(str)
+        if "composition_optimised" in table:  # a searched composition: match on its pair ("A&B")
+            searched = table["composition_optimised"].astype(str).str.lower().isin(("true", "1", "1.0"))
+            table.loc[searched, "fluid"] = table.loc[searched, "fluid"].str.replace(r"\[[^\]]*\]", "", regex=True)
     table["rank"] = pd.to_numeric(table["rank"], errors="coerce").astype("Int64")
     for col in ("reason", "display_name"):
         if col in table:

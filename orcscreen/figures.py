@@ -33,7 +33,8 @@ APPROACH_COLUMNS = {e: f"approach_{e}_K" for e in ("evaporator", "condenser", "r
 #: temperatures are its dew temperatures at those pressures; evaporator_glide_K and
 #: condenser_glide_K are dew minus bubble temperature there (0 for a pure fluid, NaN for a
 #: supercritical heater); first_component_*_fraction give a mixture's composition (NaN for a
-#: pure fluid). fluid is the catalogue's display name (what a
+#: pure fluid); composition_optimised is True where the composition was searched (the study's
+#: mole_fractions = "optimise"; the coolprop_name then holds the composition found). fluid is the catalogue's display name (what a
 #: person reads), coolprop_name the name CoolProp and the study's case keys use. evaporation_* are NaN for a supercritical
 #: heater; turbine_inlet_pressure_bar is the highest cycle pressure in every layout.
 COMMON_COLUMNS = (
@@ -52,7 +53,7 @@ COMMON_COLUMNS = (
 )
 _TAIL_COLUMNS = (
     "binding_limit", "sub_atmospheric_condenser", "family", "first_component_mole_fraction",
-    "first_component_mass_fraction",
+    "first_component_mass_fraction", "composition_optimised",
     "safety_class", "gwp100", "odp", "curve_type", "evaluations", "elapsed_s",
 )
 #: The layouts' own columns, from the layout registry, in registry order.
@@ -80,6 +81,7 @@ def empty_row(fluid: str, layout: str, info, status: str, reason: str, elapsed: 
         pinch_location="",
         condenser_area_basis="",
         binding_limit="",
+        composition_optimised=False,
         sub_atmospheric_condenser=None,
         evaluations=evaluations,
         elapsed_s=elapsed,
@@ -179,6 +181,7 @@ def result_row(fluid_name: str, layout: Layout, info, fluid, source, sink, r: Cy
         "volume_ratio_per_stage": getattr(r.turbine_design, "vr_per_stage", math.nan),
         "turbine_efficiency": r.eta_turbine,
         "binding_limit": binding,
+        "composition_optimised": False,
         "sub_atmospheric_condenser": bool(r.p_cond_Pa < P_ATM_PA),
         "evaluations": n,
         "elapsed_s": elapsed,
