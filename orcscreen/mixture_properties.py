@@ -377,9 +377,11 @@ class Mixture(Fluid):
                      min(max(at(q), 0.0), 1.0))
 
     def two_phase_h_of_T(self, p_Pa: float, T_K: float) -> float:
-        """Enthalpy [J/kg] at temperature T_K [K] inside the glide at p_Pa (linear between nodes)."""
+        """Enthalpy [J/kg] at temperature T_K [K] inside the glide at p_Pa: the cubic in T
+        through the four nearest vapour fractions of the table (T rises with h along the glide)."""
         T, h, _, _, _ = self._columns(p_Pa)
-        return float(np.interp(T_K, T, h))
+        w, k = _cubic_weights(T, T_K)
+        return float(w[0] * h[k] + w[1] * h[k + 1] + w[2] * h[k + 2] + w[3] * h[k + 3])
 
     # -- general flashes -------------------------------------------------------------------------
     def _flash_py(self, p_Pa: float, y: float, entropy: bool) -> State:
