@@ -50,6 +50,7 @@ __all__ = [
     "recuperate",
     "open_heater_bleed_fraction",
     "glide_duty",
+    "condensing_glide_duty",
 ]
 
 
@@ -263,6 +264,15 @@ def heater_profile(path: FluidPath, m_wf: float, h_out: float, source) -> Profil
     Q = m_wf * (path.h - path.h[0])
     T_src = source.T_K(hs_in - m_wf * (h_out - path.h) / source.m_kg_s)
     return Profile(Q, np.asarray(T_src, dtype=float), path.T_K, glide_duty(path.labels, Q, path.T_K))
+
+
+def condensing_glide_duty(sat: SatPoint, h: np.ndarray, m_kg_s: float) -> tuple[float, float] | None:
+    """(duty at the bubble point, duty at the dew point or the wet inlet) [W] of a condenser whose
+    working fluid (flow m_kg_s, enthalpies h from the cold end [J/kg]) glides at saturation sat;
+    None for a pure fluid (its plateau shows the zones)."""
+    if sat.glide_K <= 0.0:
+        return None
+    return m_kg_s * max(sat.hL - h[0], 0.0), m_kg_s * (min(sat.hV, h[-1]) - h[0])
 
 
 def glide_duty(labels, Q_W, T_K) -> tuple[float, float] | None:

@@ -41,7 +41,7 @@ import numpy as np
 
 from . import areas
 from .cycles import LAYOUTS
-from .exchangers import Profile, glide_duty, heater_profile
+from .exchangers import Profile, condensing_glide_duty, heater_profile
 from .paths import condensing_path
 from .controls import CONTROLS, MIN_SINK_FLOW_FRACTION
 from .turbine import ConstantEfficiency
@@ -237,7 +237,7 @@ def _condenser_profile(fluid, sat_c, states, m_out: float, sink, m_sink: float, 
     cpath = condensing_path(fluid, sat_c, states["1"], _condenser_inlet(states), n, True)
     Q = m_out * (cpath.h - cpath.h[0])
     T_sink = sink.T_K(sink.h_in_J_kg + Q / m_sink)
-    return Profile(Q, cpath.T_K, np.asarray(T_sink, dtype=float), glide_duty(cpath.labels, Q, cpath.T_K))
+    return Profile(Q, cpath.T_K, np.asarray(T_sink, dtype=float), condensing_glide_duty(sat_c, cpath.h, m_out))
 
 
 def _density(sink, T_K: float) -> float:

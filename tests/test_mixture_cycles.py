@@ -250,3 +250,37 @@ def test_the_shipped_study_finds_a_blend_above_its_components(hot_spring_rows):
     assert searched[0]["net_power_kW"] >= max(r["net_power_kW"] for r in blends) * (1 - 5e-4)
     for r in blends:
         assert 0.0 < r["first_component_mass_fraction"] < r["first_component_mole_fraction"]  # isobutane is lighter
+
+
+@pytest.mark.parametrize("layout", ["basic", "recuperated"])
+def test_a_mixture_design_off_design(layout):
+    """A year for a mixture: the solver given the design condition returns the design (1e-9);
+    in warmer air the power falls, energy closes, and both approaches stay positive on the
+    engine's checked off-design profiles, whose glide zones are named for the areas."""
+    from orcscreen import offdesign as od
+    from orcscreen.areas import segment_zones
+
+    study = study_from_dict({"source": {"kind": "brine", "inlet_temperature_C": 130.0, "mass_flow_kg_s": 30.0},
+                             "sink": {"kind": "air", "inlet_temperature_C": 14.0},
+                             "fluids": {"include": ["isobutane"],
+                                        "mixtures": [{"components": ["isobutane", "isopentane"], "mole_fractions": [0.6]}]},
+                             "cycle": {"layouts": [layout]}})
+    case = [c for c in study.cases() if "&" in c.fluid][0]
+    ctx = api.case_context(case, api.fluid_catalogue.get_info(case.fluid))
+    L = LAYOUTS[layout]
+    opt = optimise(L, ctx)
+    assert not isinstance(opt, tuple), opt
+    r, hw = opt.cycle, od.hardware_of(opt.cycle, ctx)
+    p = od.operating_point(L, ctx, hw, ctx.sink.T_in_K)
+    assert p.running, p.reason
+    assert p.W_net_W == pytest.approx(r.W_net_W, rel=1e-9)
+    W = [p.W_net_W]
+    for T in (20.0, 26.0):
+        q = od.operating_point(L, ctx, hw, T + 273.15, guess=(p.T_evap_K, p.T_cond_K))
+        assert q.running, (T, q.reason)
+        res = q.result
+        assert res.Q_in_W + res.W_pump_W == pytest.approx(res.Q_out_W + res.W_turbine_W, rel=1e-9)
+        assert q.profiles["condenser"].min_approach_K > 0.0 and q.profiles["evaporator"].min_approach_K > 0.0
+        assert "condensation" in segment_zones(q.profiles["condenser"], "condenser")
+        W.append(q.W_net_W)
+    assert W[0] > W[1] > W[2]

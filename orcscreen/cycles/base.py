@@ -28,7 +28,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from ..exchangers import Profile, condenser_approach, condenser_points, heater_profile
+from ..exchangers import Profile, condenser_approach, condenser_points, condensing_glide_duty, heater_profile
 from ..paths import flash_ph, state_from_ph, two_phase_state
 from ..states import CycleInfeasible, SatPoint, State
 from ..turbine import ConstantEfficiency, TurbineModel, size_parameter_m, volume_ratio
@@ -826,10 +826,7 @@ def exchanger_profiles(ctx: CycleContext, cs, heater_path, m_wf: float, h_out: f
     else:
         h, T, T_sink = condenser_approach(fluid, sink, cs, n, True)[2]
     m_c = m_wf if cs.condenser_share == 1.0 else m_wf * cs.condenser_share
-    glide = None
-    if cs.sat.glide_K > 0.0:  # where a mixture condenses: from the dew point (or a wet inlet) to the bubble point
-        glide = (m_c * max(cs.sat.hL - h[0], 0.0), m_c * (min(cs.sat.hV, h[-1]) - h[0]))
-    out["condenser"] = Profile(m_c * (h - h[0]), T, np.asarray(T_sink, dtype=float), glide)
+    out["condenser"] = Profile(m_c * (h - h[0]), T, np.asarray(T_sink, dtype=float), condensing_glide_duty(cs.sat, h, m_c))
     if cs.recuperator_active:
         prof = cs.rec_profile
         if prof is None:  # in the search: its two ends (hot side 4 -> 4r, cold side 2 -> 2r)
