@@ -40,7 +40,7 @@ import pandas as pd
 from orcscreen import plots, rank
 from orcscreen.controls import CONTROLS
 from orcscreen.figures import LAYOUT_COLUMNS, with_ts_data
-from orcscreen.fluids import NOT_CLASSIFIED, UNKNOWN, gwp_text, safety_class_text
+from orcscreen.fluids import FROM_COMPONENTS, NOT_CLASSIFIED, UNKNOWN, gwp_text, safety_class_text
 from orcscreen.objectives import CRITERIA, PARETO_COLUMN, rank_column
 from orcscreen.outputs import CRITERION_TOP, by_criterion, criteria_of, criterion_value_text, left_out_fluids, objective_of, ranking_table
 from orcscreen.safe_files import atomic_write, refuse_link
@@ -378,7 +378,11 @@ def fluid_cautions(row: Mapping) -> list[str]:
     out = []
     cls = str(row.get("safety_class") or "").strip().upper()
     if cls and cls[0] in _TOXICITY and cls[1:] in _FLAMMABILITY:
-        out.append(f"ASHRAE 34 class {cls}: {_TOXICITY[cls[0]]}, {_FLAMMABILITY[cls[1:]]}.")
+        if FROM_COMPONENTS in str(row.get("caution") or ""):  # a mixture without an ASHRAE 34 blend class
+            out.append(f"{FROM_COMPONENTS[0].upper()}{FROM_COMPONENTS[1:]}: {cls}, {_TOXICITY[cls[0]]}, "
+                       f"{_FLAMMABILITY[cls[1:]]}.")
+        else:
+            out.append(f"ASHRAE 34 class {cls}: {_TOXICITY[cls[0]]}, {_FLAMMABILITY[cls[1:]]}.")
         if cls[1:] in ("2", "3"):
             out.append("Flammable: hazardous-area classification, leak detection and ignition "
                        "control are required.")

@@ -284,3 +284,15 @@ def test_a_mixture_design_off_design(layout):
         assert "condensation" in segment_zones(q.profiles["condenser"], "condenser")
         W.append(q.W_net_W)
     assert W[0] > W[1] > W[2]
+
+
+def test_the_report_says_a_mixture_has_no_blend_class():
+    """A mixture without an ASHRAE 34 blend class: the report's cautions say its class is taken
+    from its components, not an assigned class (its row's caution says so too)."""
+    from orcscreen.report import fluid_cautions
+
+    info = api.fluid_catalogue.get_info("IsoButane[0.600000]&Isopentane[0.400000]")
+    caution = api.fluid_catalogue.caution_text(info)
+    lines = fluid_cautions({"safety_class": info.safety_class, "caution": caution, "gwp100": float("nan")})
+    assert lines[0].startswith("Not classified by ASHRAE 34 as a blend") and "A3" in lines[0]
+    assert not any(line.startswith("ASHRAE 34 class") for line in lines)
