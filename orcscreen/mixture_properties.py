@@ -376,6 +376,22 @@ class Mixture(Fluid):
         return State(at(T), p_Pa, y if not entropy else at(h), y if entropy else at(s), at(v),
                      min(max(at(q), 0.0), 1.0))
 
+    def two_phase_T_of_h(self, p_Pa: float, h: np.ndarray) -> np.ndarray:
+        """Temperatures [K] at enthalpies h [J/kg] inside the glide at p_Pa, all at once: the same
+        cubic as :meth:`two_phase_state`, vectorised."""
+        T, hs, _, _, _ = self._columns(p_Pa)
+        k = np.clip(np.searchsorted(hs, h) - 2, 0, len(hs) - 4)
+        x = [hs[k + i] for i in range(4)]
+        d = [h - xi for xi in x]
+        out = np.zeros(len(h))
+        for i in range(4):
+            w = np.ones(len(h))
+            for j in range(4):
+                if j != i:
+                    w *= d[j] / (x[i] - x[j])
+            out += w * T[k + i]
+        return out
+
     def two_phase_h_of_T(self, p_Pa: float, T_K: float) -> float:
         """Enthalpy [J/kg] at temperature T_K [K] inside the glide at p_Pa: the cubic in T
         through the four nearest vapour fractions of the table (T rises with h along the glide)."""

@@ -165,25 +165,26 @@ def add_zone(fluid, p_Pa: float, T_a: float, T_b: float, n: int, phase: str, lab
     labels.extend([label] * len(Tz))
 
 
-#: Segments of a glide on a checked (exact) path, evenly in enthalpy, besides the table's own
-#: vapour fractions: the glide's temperature bends (most near the bubble point), so a pinch
-#: against a straight sink line can fall between two points; at 40 segments the chord's error
-#: is about 1e-3 K, a tenth of the table's tolerance.
+#: Segments of a glide on a path, evenly in enthalpy, besides the table's own vapour fractions:
+#: the glide's temperature bends (most near the bubble point), so a pinch against a straight
+#: sink line can fall between two points; at 40 segments the chord's error is about 1e-3 K, a
+#: tenth of the table's tolerance. The search and the reported result use the same points (one
+#: vectorised evaluation of the table's cubic), so that their condensing pressures agree.
 GLIDE_SEGMENTS = 40
 
 
-def add_glide(fluid, sat: SatPoint, label: str, h: list, T: list, labels: list, exact: bool = False) -> None:
+def add_glide(fluid, sat: SatPoint, label: str, h: list, T: list, labels: list) -> None:
     """Append the interior points of a glide between the bubble and the dew point of sat: the
     vapour fractions of the fluid's two-phase table
-    (:meth:`orcscreen.mixture_properties.Mixture.two_phase_nodes`) and, exact, GLIDE_SEGMENTS
-    more evenly in enthalpy (the table's cubic); nothing for a pure fluid."""
+    (:meth:`orcscreen.mixture_properties.Mixture.two_phase_nodes`) and GLIDE_SEGMENTS more evenly
+    in enthalpy (the table's cubic); nothing for a pure fluid."""
     if sat.glide_K <= 0.0:
         return
     hn, Tn = fluid.two_phase_nodes(sat.p_Pa)
     pts = {float(a): float(b) for a, b in zip(hn[1:-1], Tn[1:-1])}
-    if exact:
-        for x in np.linspace(sat.hL, sat.hV, GLIDE_SEGMENTS + 1)[1:-1]:
-            pts.setdefault(float(x), fluid.two_phase_state(sat.p_Pa, float(x)).T_K)
+    he = np.linspace(sat.hL, sat.hV, GLIDE_SEGMENTS + 1)[1:-1]
+    for x, t in zip(he, fluid.two_phase_T_of_h(sat.p_Pa, he)):
+        pts.setdefault(float(x), float(t))
     for x in sorted(pts):
         h.append(x)
         T.append(pts[x])
@@ -207,7 +208,7 @@ def heating_path(fluid, sat_e: SatPoint, st_in: State, st3: State, n: int, exact
     h.append(sat_e.hL)
     T.append(sat_e.T_K)
     labels.append("bubble point")
-    add_glide(fluid, sat_e, "evaporating", h, T, labels, exact)
+    add_glide(fluid, sat_e, "evaporating", h, T, labels)
     h.append(sat_e.hV)
     T.append(sat_e.T_dew_K)
     labels.append("dew point")
@@ -277,7 +278,7 @@ def condensing_path(fluid, sat: SatPoint, st_out: State, st_in: State, n: int, e
     h_dew = min(sat.hV, h_in)
     if sat.glide_K > 0.0:
         n0 = len(pts_h)
-        add_glide(fluid, sat, "condensing", pts_h, pts_T, labels, exact)
+        add_glide(fluid, sat, "condensing", pts_h, pts_T, labels)
         keep = n0 + sum(1 for x in pts_h[n0:] if x < h_dew - 1e-9)
         del pts_h[keep:], pts_T[keep:], labels[keep:]
         T_dew = sat.T_dew_K if h_dew >= sat.hV else fluid.two_phase_state(sat.p_Pa, h_dew).T_K
