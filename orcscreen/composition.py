@@ -3,7 +3,7 @@
 A mixture named without its composition (``"Isobutane&Isopentane"``, the study's
 ``mole_fractions = "optimise"``) is optimised over the first component's mole fraction x: a
 bracketing scan of COMPOSITION_SCAN fractions from X_MIN to X_MAX, then Brent's bounded search
-(scipy) between the best point's neighbours to XATOL. At every x the layout's own optimisation
+(orcscreen.brent) between the best point's neighbours to XATOL. At every x the layout's own optimisation
 (:func:`orcscreen.optimize.optimise`) runs on that composition's properties, so the search is
 nested around the existing optimum: the cycle's variables are optimised for each composition
 and the composition for the best of them. The score is the study's objective, as the optimiser
@@ -49,7 +49,7 @@ def optimise_composition(layout: Layout, ctx: CycleContext, first: str, second: 
     (x, score or -inf, reason) tried, or (None, reason, evaluations, scan) when no composition
     gives a feasible cycle.
     """
-    from scipy.optimize import minimize_scalar
+    from .brent import minimize_scalar_bounded
 
     tried: dict[float, tuple] = {}
     total = [0]
@@ -80,8 +80,7 @@ def optimise_composition(layout: Layout, ctx: CycleContext, first: str, second: 
         return None, "no composition gives a feasible cycle: " + "; ".join(reasons[:3]), total[0], _scan(tried)
     lo, hi = xs[max(best - 1, 0)], xs[min(best + 1, len(xs) - 1)]
     if hi > lo:
-        minimize_scalar(lambda x: -at(x)[1] if math.isfinite(at(x)[1]) else 1e300, bounds=(lo, hi),
-                        method="bounded", options={"xatol": XATOL})
+        minimize_scalar_bounded(lambda x: -at(x)[1] if math.isfinite(at(x)[1]) else 1e300, (lo, hi), xatol=XATOL)
     x_best = max(tried, key=lambda x: tried[x][1])  # the best composition evaluated
     return tried[x_best][0], x_best, total[0], _scan(tried)
 

@@ -25,13 +25,13 @@ Sources:
 
 from __future__ import annotations
 
-import functools
 import math
 from collections.abc import Callable
 from dataclasses import dataclass
 
 import numpy as np
 
+from .brent import minimize_scalar_bounded
 from .paths import FluidPath, condensing_path, flash_ph, isobar_temperatures, state_from_ph
 from .states import CycleInfeasible, SatPoint, State
 
@@ -173,17 +173,9 @@ def refine_zone_pinch(h_of_T, source, pinch_K, h_out, hs_in, T_a, T_b, xatol_K=1
         h = h_of_T(T)
         return source.m_kg_s * (hs_in - float(source.h_J_kg(T + pinch_K))) / (h_out - h)
 
-    res = _minimize_scalar()(bound, bounds=(float(T_a), float(T_b)), method="bounded", options={"xatol": xatol_K})
+    res = minimize_scalar_bounded(bound, (float(T_a), float(T_b)), xatol=xatol_K)
     T = float(res.x)
     return float(res.fun), T, h_of_T(T)
-
-
-@functools.lru_cache(maxsize=1)
-def _minimize_scalar():
-    """SciPy's bounded scalar minimiser, imported on first use (SciPy's import is slow)."""
-    from scipy.optimize import minimize_scalar
-
-    return minimize_scalar
 
 
 def heater_flow(path: FluidPath, h_out: float, source, pinch_K: float, exact: bool,

@@ -41,6 +41,7 @@ import numpy as np
 
 from . import areas
 from .cycles import LAYOUTS
+from .brent import minimize_scalar_bounded
 from .exchangers import Profile, condensing_glide_duty, heater_profile
 from .paths import condensing_path
 from .controls import CONTROLS, MIN_SINK_FLOW_FRACTION
@@ -514,10 +515,8 @@ def best_sink_flow_point(layout, ctx, hw: Hardware, T_sink_in_K: float, T_source
                          m_source_kg_s: float | None = None, guess: tuple[float, float] | None = None) -> OperatingPoint:
     """The operating point at the sink's fan or pump speed that gives the largest net power, from
     MIN_SINK_FLOW_FRACTION to the design flow (or to the flow the source's outlet minimum
-    allows): a bounded scalar search (scipy's minimize_scalar, Brent's method) to SINK_FLOW_XTOL
+    allows): a bounded scalar search (Brent's method, orcscreen.brent: SciPy's minimize_scalar arithmetic) to SINK_FLOW_XTOL
     over the points of operating_point; the design speed's point when no slower one does better."""
-    from scipy.optimize import minimize_scalar
-
     full = operating_point(layout, ctx, hw, T_sink_in_K, T_source_in_K, m_source_kg_s, guess)
     start = (full.u, full.T_cond_K, full.T_mid_K) if full.running else guess
     top = min(1.0, full.sink_flow_fraction)
@@ -530,7 +529,7 @@ def best_sink_flow_point(layout, ctx, hw: Hardware, T_sink_in_K: float, T_source
         tried.append(p)
         return -p.W_net_W
 
-    minimize_scalar(loss, bounds=(MIN_SINK_FLOW_FRACTION, top), method="bounded", options={"xatol": SINK_FLOW_XTOL})
+    minimize_scalar_bounded(loss, (MIN_SINK_FLOW_FRACTION, top), xatol=SINK_FLOW_XTOL)
     return max(tried, key=lambda p: p.W_net_W)
 
 

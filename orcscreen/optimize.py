@@ -8,8 +8,8 @@ the objective can have kinks where the binding constraint changes (pinch locatio
 outlet limit, turbine outlet quality, pressure limit), so unimodality is not assumed over the
 whole range: a uniform scan brackets the best feasible region first, the edge of the feasible
 region is located where the best scan point borders an infeasible one (false position on the
-turbine-outlet quality margin, else bisection), and a bounded Brent search (scipy
-``minimize_scalar``, method "bounded") refines inside the bracket. The scan and the search use
+turbine-outlet quality margin, else bisection), and a bounded Brent search (SciPy's
+``minimize_scalar`` method "bounded", transcribed in :mod:`orcscreen.brent`) refines inside the bracket. The scan and the search use
 the layout's closed-form pinch candidates (``exact=False``); the optimum is then evaluated on
 the discretised profiles (``exact=True``) and, if the discretised pinch moves the answer,
 refined again on that model.
@@ -34,6 +34,7 @@ from dataclasses import dataclass, field, replace
 
 import numpy as np
 
+from .brent import minimize_scalar_bounded
 from .cycles import CycleContext, CycleResult, Layout, Variable, Window, reset_guesses
 from .case_variables import with_case_variables
 from .objectives import score
@@ -211,11 +212,9 @@ def _penalised(W: float) -> float:
 
 def _refine(power, a: float, b: float, xatol: float) -> float:
     """Bounded Brent search for the largest power(x) in [a, b]; returns the best point seen."""
-    from scipy.optimize import minimize_scalar
-
     if b - a <= xatol:
         return a if power(a) >= power(b) else b
-    res = minimize_scalar(lambda x: _penalised(power(x)), bounds=(a, b), method="bounded", options={"xatol": xatol})
+    res = minimize_scalar_bounded(lambda x: _penalised(power(x)), (a, b), xatol=xatol)
     return max([a, b, float(res.x)], key=power)
 
 

@@ -175,8 +175,8 @@ class _SaturationCurves:
     def T_K(self, p_Pa: float) -> float:
         """Saturation temperature [K] at p_Pa [Pa] (p_min_Pa <= p_Pa <= p_max_Pa): the root of
         ln p(T) = ln p_Pa in x = 1/T, where it is nearly a straight line (Clausius-Clapeyron), by
-        Brent's method (scipy), to a relative 1e-15 in T."""
-        from scipy.optimize import brentq
+        Brent's method (orcscreen.brent: SciPy's brentq arithmetic), to a relative 1e-15 in T."""
+        from .brent import brentq
 
         if p_Pa <= self.p_min_Pa:
             return self.T_min_K
@@ -476,11 +476,11 @@ class Fluid:
         return self._state(pair, a, b, what)
 
     def _bracketed_py(self, p_Pa: float, y: float, entropy: bool, phase: str, T_sat_K: float) -> State | None:
-        """Single-phase state at p_Pa and y = s or h by Brent's method (scipy) on T along the
+        """Single-phase state at p_Pa and y = s or h by Brent's method (orcscreen.brent) on T along the
         isobar with the phase imposed, between T_min_K and T_sat_K (liquid) or T_sat_K and
         T_max_K (gas): h and s rise with T along an isobar, so the root is unique. None if y is
         outside that range."""
-        from scipy.optimize import brentq
+        from .brent import brentq
 
         lo, hi = (self.T_min_K, T_sat_K) if phase == "liquid" else (T_sat_K, self.T_max_K)
         get = (lambda st: st.s) if entropy else (lambda st: st.h)

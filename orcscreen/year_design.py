@@ -4,7 +4,7 @@ pressure (the evaporation temperature, or a supercritical heater's pressure: the
 ``hot_side.variable``) is searched for the most net energy over the year, each candidate
 design's hardware rated bin by bin (orcscreen.offdesign).
 
-The search (Brent's bounded method, scipy's minimize_scalar, to YEAR_XATOL of the variable's
+The search (Brent's bounded method, orcscreen.brent, to YEAR_XATOL of the variable's
 window) rates each
 candidate on at most REPRESENTATIVE_BINS bins: consecutive bins merged into groups of about
 equal hours, each group at its hour-weighted mean sink temperature (our choice; the year's own
@@ -63,7 +63,7 @@ def design_for_year(layout, ctx, design, bins, control: str):
     binding limit None, when no other does better over every bin), the designs evaluated, a
     note, and the chosen design's year on every bin (orcscreen.offdesign.YearResult, None where
     the layout has no such variable: the caller rates it)."""
-    from scipy.optimize import minimize_scalar
+    from .brent import minimize_scalar_bounded
 
     name = layout.hot_side.variable
     var = next((v for v in layout.variables(ctx) if v.name == name), None)
@@ -87,7 +87,7 @@ def design_for_year(layout, ctx, design, bins, control: str):
         tried[float(x)] = -math.inf if year is None else year.energy_MWh
         return -tried[float(x)]
 
-    minimize_scalar(loss, bounds=(window.lo, window.hi), method="bounded", options={"xatol": xatol})
+    minimize_scalar_bounded(loss, (window.lo, window.hi), xatol=xatol)
     n = len(tried) + 2
     x_best = max(tried, key=tried.get)
     base = offdesign.annual_energy(layout, ctx, offdesign.hardware_of(design, ctx), bins, design.W_net_W, control)
