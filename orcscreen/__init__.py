@@ -9,13 +9,9 @@ The three entry points live in :mod:`orcscreen.api` and are loaded on first use 
 needs them, and ``from orcscreen import screen`` works as before.
 """
 
-from importlib.metadata import PackageNotFoundError, version
 from typing import TYPE_CHECKING
 
-try:
-    __version__ = version("orcscreen")
-except PackageNotFoundError:  # running from a source tree that is not installed
-    __version__ = "0+unknown"
+from orcscreen._version import __version__
 
 if TYPE_CHECKING:  # for type checkers and editors; at run time see __getattr__
     from orcscreen.api import evaluate_cycle, run_case, screen
