@@ -165,17 +165,61 @@ FORMATS_WITH_SVG = ("png", "svg")
 
 def _draw(records: list[FigureRecord], fig_dir: Path, stem: str, title: str, caption: str,
           draw: Callable[[], Any], group: str = "overview", formats: Sequence[str] = FORMATS) -> None:
-    """Run one chart function in its own try; keep its files (``formats``) or its error."""
-    record = FigureRecord(stem=stem, title=title, caption=caption, group=group)
+    """Queue one chart: its record now, its drawing (``draw``, saved as ``formats``) when
+    :func:`_render_all` runs the queue."""
+    records.append(FigureRecord(stem=stem, title=title, caption=caption, group=group))
+    _QUEUE.append((draw, fig_dir, stem, tuple(formats)))
+
+
+#: The charts queued by _draw, in record order: (draw, folder, stem, formats). A module global
+#: so that forked workers find the drawing functions (closures cannot be sent to a process).
+_QUEUE: list[tuple[Callable[[], Any], Path, str, tuple[str, ...]]] = []
+
+#: Processes that draw the charts at most (each chart is independent; Matplotlib draws on one core).
+CHART_WORKERS = 4
+
+
+def _render(i: int) -> tuple[str | None, str | None, str | None]:
+    """Draw and save queued chart i: (PNG path, SVG path, error)."""
+    draw, fig_dir, stem, formats = _QUEUE[i]
     try:
         ax = draw()
         paths = dict(zip(formats, plots.save_figure(ax.figure, fig_dir, stem, formats=formats)))
-        record.png, record.svg = paths.get("png"), paths.get("svg")
+        return (str(paths["png"]) if "png" in paths else None, str(paths["svg"]) if "svg" in paths else None, None)
     except Exception as exc:  # noqa: BLE001 - a failing chart must never lose the report
-        record.error = f"{type(exc).__name__}: {exc}"
-        log.warning("chart %s not drawn: %s", stem, record.error)
         log.debug("chart %s failed", stem, exc_info=True)
-    records.append(record)
+        return None, None, f"{type(exc).__name__}: {exc}"
+
+
+def _render_all(records: list[FigureRecord]) -> None:
+    """Draw the queued charts into their records: in forked processes (one per core, at most
+    CHART_WORKERS) where the platform forks and there is more than one chart and one core,
+    else here; the same files either way (Matplotlib's Agg output depends only on the figure)."""
+    n = len(_QUEUE)
+    workers = min(CHART_WORKERS, n, len(os.sched_getaffinity(0)) if hasattr(os, "sched_getaffinity") else os.cpu_count() or 1)
+    results = None
+    if workers > 1:
+        import multiprocessing
+        from concurrent.futures import ProcessPoolExecutor
+
+        try:
+            ctx = multiprocessing.get_context("fork")
+        except ValueError:
+            ctx = None
+        if ctx is not None:
+            try:
+                with ProcessPoolExecutor(workers, mp_context=ctx) as pool:
+                    results = list(pool.map(_render, range(n)))
+            except (OSError, RuntimeError) as exc:  # no processes to be had: draw here
+                log.debug("charts drawn in one process: %s", exc)
+                results = None
+    if results is None:
+        results = [_render(i) for i in range(n)]
+    for record, (png, svg, error) in zip(records[-n:] if n else [], results):
+        record.png, record.svg, record.error = (Path(png) if png else None), (Path(svg) if svg else None), error
+        if error:
+            log.warning("chart %s not drawn: %s", record.stem, error)
+    _QUEUE.clear()
 
 
 def _point_note(point: Mapping) -> str:
@@ -207,6 +251,17 @@ def make_figures(data: _RunData, fig_dir: Path, svg: bool = False) -> list[Figur
     ok = rank.feasible(data.table)
     if ok.empty:
         return records
+    _QUEUE.clear()
+    try:
+        _queue_figures(data, fig_dir, draw, records, ok)
+        _render_all(records)
+    finally:
+        _QUEUE.clear()
+    return records
+
+
+def _queue_figures(data: _RunData, fig_dir: Path, draw, records: list[FigureRecord], ok: pd.DataFrame) -> None:
+    """Queue every chart of the run (:func:`_draw`), in the report's order."""
     at_point = _at_point(ok, data.point) if data.point else ok
     note = _point_note(data.point)
 
@@ -302,7 +357,6 @@ def make_figures(data: _RunData, fig_dir: Path, svg: bool = False) -> list[Figur
         draw(records, fig_dir, f"ts_{stem}", f"T-s diagram, {label}",
               "Saturation dome, cycle path and numbered states.",
               lambda row=row, nd=need_detail: plots.ts_diagram(with_ts_data(nd(), row), row), group=key)
-    return records
 
 
 # --------------------------------------------------------------------------- cautions

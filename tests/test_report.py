@@ -388,3 +388,22 @@ def test_report_reads_only_its_columns_and_shows_the_same(built):
     built_at = re.compile(r"built \d{4}-\d\d-\d\d \d\d:\d\d UTC")
     assert built_at.sub("", report.render_report(mine, [])) == \
         built_at.sub("", report.render_report(every, []))
+
+
+def test_charts_drawn_in_forked_processes_are_the_same_files(built, tmp_path, monkeypatch):
+    """The report draws its charts in forked processes, one per core: the same PNG bytes as
+    drawn one after the other in this process, and every chart present."""
+    import filecmp
+    import shutil
+
+    out, _, _ = built
+    parallel = sorted((out / report.FIGURES_DIR).glob("*.png"))
+    assert len(parallel) >= 5
+    serial_run = tmp_path / "serial"
+    shutil.copytree(out, serial_run)
+    monkeypatch.setattr(report, "CHART_WORKERS", 1)
+    report.build_report(serial_run, top_n=3)
+    serial = sorted((serial_run / report.FIGURES_DIR).glob("*.png"))
+    assert [p.name for p in serial] == [p.name for p in parallel]
+    for a, b in zip(parallel, serial):
+        assert filecmp.cmp(a, b, shallow=False), a.name
