@@ -21,7 +21,8 @@ import math
 from .cycles import CycleContext, Layout
 from .objectives import score
 from .optimize import optimise
-from .mixtures import is_mixture, mixture_name, parse_mixture
+from .brent import minimize_scalar_bounded
+from .mixtures import DECIMALS, is_mixture, mixture_name, parse_mixture
 from .properties import PropertyError, get_fluid
 
 __all__ = ["X_MIN", "X_MAX", "COMPOSITION_SCAN", "XATOL", "optimise_composition", "components_to_optimise"]
@@ -49,13 +50,11 @@ def optimise_composition(layout: Layout, ctx: CycleContext, first: str, second: 
     (x, score or -inf, reason) tried, or (None, reason, evaluations, scan) when no composition
     gives a feasible cycle.
     """
-    from .brent import minimize_scalar_bounded
-
     tried: dict[float, tuple] = {}
     total = [0]
 
     def at(x: float):
-        x = round(float(x), 6)
+        x = round(float(x), DECIMALS)
         if x not in tried:
             try:
                 fluid = get_fluid(mixture_name(first, second, x))
@@ -76,7 +75,7 @@ def optimise_composition(layout: Layout, ctx: CycleContext, first: str, second: 
     values = [at(x)[1] for x in xs]
     best = max(range(len(xs)), key=lambda i: values[i])
     if not math.isfinite(values[best]):
-        reasons = sorted({tried[round(x, 6)][2] for x in xs})
+        reasons = sorted({tried[round(x, DECIMALS)][2] for x in xs})
         return None, "no composition gives a feasible cycle: " + "; ".join(reasons[:3]), total[0], _scan(tried)
     lo, hi = xs[max(best - 1, 0)], xs[min(best + 1, len(xs) - 1)]
     if hi > lo:

@@ -39,6 +39,7 @@ from collections import OrderedDict
 import numpy as np
 
 from . import properties
+from .mixtures import mass_fraction, parse_mixture
 from .properties import SAT_MEMO_ENTRIES, Fluid
 from .states import PropertyError, SatPoint, State
 
@@ -75,8 +76,6 @@ def parse_components(name: str) -> tuple[str, str, float]:
     """(first, second, first's mole fraction) of a mixture name with its composition
     (:func:`orcscreen.mixtures.parse_mixture`; 0 and 1 allowed: a pure component); ValueError
     for any other form."""
-    from .mixtures import parse_mixture
-
     a, b, x = parse_mixture(name, pure_ends=True)
     if x is None:
         raise ValueError(f"{name!r} is not a binary mixture with its composition (expected 'A[x]&B[1-x]')")
@@ -144,7 +143,6 @@ class SaturationTable:
         self._dew_T = CubicSpline(self.lnp, data[:, -1, 0])
         self._dew_dT = self._dew_T.derivative()
         self._nodes_T_dew = data[:, -1, 0]
-        self._nodes_T_bubble = data[:, 0, 0]
 
     @staticmethod
     def _node(AS, cp, p: float, q: float, M_mix: float, M: tuple[float, float], ends: dict, j: int) -> tuple:
@@ -176,9 +174,6 @@ class SaturationTable:
 
     def T_dew_K(self, p_Pa: float) -> float:
         return float(self._dew_T(math.log(p_Pa)))
-
-    def T_bubble_K(self, p_Pa: float) -> float:
-        return float(self.columns(p_Pa)[0][0])
 
     @property
     def T_dew_min_K(self) -> float:
@@ -225,7 +220,7 @@ class Mixture(Fluid):
         self._AS = AS
         M = tuple(CP.AbstractState(backend, c).molar_mass() for c in (first, second))
         self.M_kg_mol = AS.molar_mass()
-        self.mass_fraction_first = x * M[0] / self.M_kg_mol
+        self.mass_fraction_first = mass_fraction(x, *M)
         self.T_max_K = AS.Tmax()
         self.p_max_Pa = AS.pmax()
         if x in (0.0, 1.0):  # a pure fluid in a mixture's clothes (tests; CoolProp's mixture critical point fails)

@@ -54,6 +54,7 @@ __all__ = [
     "check_pair",
     "entry_names",
     "is_mixture",
+    "mass_fraction",
     "mass_fraction_first",
     "mass_weighted",
     "mixture_facts",
@@ -174,7 +175,8 @@ def mass_weighted(value_first: float, value_second: float, w_first: float) -> fl
     return w_first * value_first + (1.0 - w_first) * value_second
 
 
-def _mass_fraction(x: float, M_first: float, M_second: float) -> float:
+def mass_fraction(x: float, M_first: float, M_second: float) -> float:
+    """Mass fraction [-] of the first component at its mole fraction x [-], molar masses M [kg/mol]."""
     return x * M_first / (x * M_first + (1.0 - x) * M_second)
 
 
@@ -184,7 +186,7 @@ def mass_fraction_first(name: str) -> float:
     a, b, x = _infos(name)
     if x is None:
         raise MixtureError(f"{name!r}: no composition (to be optimised); a mass fraction needs one")
-    return _mass_fraction(x, a.M_kg_mol, b.M_kg_mol)
+    return mass_fraction(x, a.M_kg_mol, b.M_kg_mol)
 
 
 # -- pairs ---------------------------------------------------------------------------------
@@ -365,7 +367,7 @@ def _stability(a: FluidInfo, b: FluidInfo) -> tuple[float | None, str]:
 def _facts(first: str, second: str, x: float | None) -> FluidInfo:
     a, b = fluids.get_info(first), fluids.get_info(second)
     check_pair(a.coolprop_name, b.coolprop_name)
-    w_a = None if x is None else _mass_fraction(x, a.M_kg_mol, b.M_kg_mol)
+    w_a = None if x is None else mass_fraction(x, a.M_kg_mol, b.M_kg_mol)
     safety, safety_source, from_components = _safety(a, b, w_a)
     gwp, gwp_source, gwp_report = _combined(a, b, w_a, "gwp100")
     odp, odp_source, _ = _combined(a, b, w_a, "odp")

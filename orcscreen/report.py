@@ -215,7 +215,7 @@ def _render_all(records: list[FigureRecord]) -> None:
                 results = None
     if results is None:
         results = [_render(i) for i in range(n)]
-    for record, (png, svg, error) in zip(records[-n:] if n else [], results):
+    for record, (png, svg, error) in zip(records, results):  # one record per queued chart, in order
         record.png, record.svg, record.error = (Path(png) if png else None), (Path(svg) if svg else None), error
         if error:
             log.warning("chart %s not drawn: %s", record.stem, error)

@@ -149,3 +149,17 @@ def test_a_mixture_survives_pickling_as_its_name():
     m = get_fluid(_name("Isobutane", "Isopentane", 0.5))
     assert pickle.loads(pickle.dumps(m)) is m
     assert np.isfinite(m.T_crit_K) and m.T_min_K < 240.0
+
+
+def test_the_solved_saturation_is_coolprops_and_the_table_agrees():
+    """Mixture.sat_T_solved and T_sat_solved_K flash CoolProp directly (the table's reference):
+    the dew point at T, the bubble point at its pressure; the table agrees within its tolerance."""
+    a, b, x = PAIRS[0]
+    m = get_fluid(_name(a, b, x))
+    for T in (300.0, 350.0):
+        ref, tab = m.sat_T_solved(T), m.sat_T(T)
+        assert ref.T_dew_K == pytest.approx(T, abs=1e-9)
+        assert ref.p_Pa == pytest.approx(CP.PropsSI("P", "T", T, "Q", 1, _direct(a, b, x)), rel=1e-9)
+        assert tab.T_K == pytest.approx(ref.T_K, abs=TABLE_TOLERANCE_K)
+        assert tab.p_Pa == pytest.approx(ref.p_Pa, rel=1e-4)
+        assert m.T_sat_solved_K(ref.p_Pa) == pytest.approx(T, abs=1e-6)

@@ -108,7 +108,10 @@ class EvaporatorHotSide(HotSide):
     def highest_u(self, ctx):
         fluid = ctx.fluid
         p_max = ctx.settings.max_evaporation_pressure_Pa(fluid)
-        return fluid.T_sat_K(p_max) if p_max < fluid.p_sat_max_Pa else fluid.T_sat_max_K if fluid.is_mixture else math.inf
+        if p_max < fluid.p_sat_max_Pa:
+            return fluid.T_sat_K(p_max)
+        # a saturation curve that ends below the critical pressure (a mixture's table) caps it there
+        return fluid.T_sat_max_K if p_max < fluid.p_crit_Pa else math.inf
 
     def point(self, ctx, u, hot, T_cond_K, T_source_K):
         fluid = ctx.fluid
@@ -176,8 +179,9 @@ class Subcritical(Layout):
             raise ValueError(f"layout {self.name!r} needs the evaporation pressure or the evaporation temperature (one of them)")
         if T_evap is None:
             if not p < fluid.p_sat_max_Pa:
-                raise ValueError(f"evaporation pressure {p / 1e5:.4g} bar is not below the critical pressure of {fluid.name} "
-                                 f"({fluid.p_crit_Pa / 1e5:.4g} bar): use a transcritical layout")
+                raise ValueError(f"evaporation pressure {p / 1e5:.4g} bar is not below the highest saturation pressure of "
+                                 f"{fluid.name} ({fluid.p_sat_max_Pa / 1e5:.4g} bar: its critical pressure, or the end of a "
+                                 "mixture's table); above the critical pressure use a transcritical layout")
             T_evap = fluid.T_sat_K(p)
         T3 = given.get("turbine_inlet_temperature_K")
         superheat = 0.0 if T3 is None else T3 - T_evap
