@@ -34,6 +34,7 @@ import numpy as np
 from .brent import minimize_scalar_bounded
 from .paths import FluidPath, condensing_path, flash_ph, isobar_temperatures, state_from_ph
 from .states import CycleInfeasible, SatPoint, State
+from .streams import SMALL_ARRAY
 
 __all__ = [
     "Profile",
@@ -147,8 +148,12 @@ def flow_bounds(h_wf_J_kg, h_wf_out_J_kg: float, h_source_in_J_kg: float, h_sour
     """The flow bound [kg/s] of every point of a heating path (see :func:`max_flow_for_pinch`;
     inf at points with no heat left to take)."""
     h = np.asarray(h_wf_J_kg, dtype=float)
+    floor = 1e-9 * max(abs(h_wf_out_J_kg), 1.0)
+    if h.ndim == 1 and h.size <= SMALL_ARRAY:  # the same arithmetic in Python floats (streams.SMALL_ARRAY)
+        return np.array([m_source_kg_s * (h_source_in_J_kg - hs) / dh if dh > floor else math.inf
+                         for dh, hs in zip([h_wf_out_J_kg - x for x in h.tolist()], np.asarray(h_source_at_J_kg, dtype=float).tolist())])
     dh = h_wf_out_J_kg - h
-    usable = dh > 1e-9 * max(abs(h_wf_out_J_kg), 1.0)
+    usable = dh > floor
     bounds = np.full(h.shape, np.inf)
     bounds[usable] = m_source_kg_s * (h_source_in_J_kg - np.asarray(h_source_at_J_kg)[usable]) / dh[usable]
     return bounds
@@ -295,6 +300,10 @@ def condenser_approach(fluid, sink, cs, n: int, exact: bool):
     """
     if exact and cs.cond_check is not None:
         return cs.cond_check
+    if not exact:
+        path = condensing_path(fluid, cs.sat, cs.s1, cs.condenser_inlet, n, False)
+        if path.h.size <= SMALL_ARRAY:
+            return _condenser_approach_fast(path, sink)
     h, T, T_sink, labels = condenser_points(fluid, sink, cs, n, exact)
     dT = T - T_sink
     j = int(dT.argmin())
@@ -302,6 +311,19 @@ def condenser_approach(fluid, sink, cs, n: int, exact: bool):
     if exact:
         cs.cond_check = out
     return out
+
+
+def _condenser_approach_fast(path: FluidPath, sink):
+    """condenser_approach on a short condensing path (the closed-form model's 3-4 corners) in
+    Python floats: the same arithmetic as condenser_points, without numpy's per-call overhead."""
+    h, T = path.h.tolist(), path.T_K.tolist()
+    h0, span = h[0], h[-1] - h[0]
+    hs_in = sink.h_in_J_kg
+    rise = sink.h_out_J_kg - hs_in
+    T_sink = [sink.T_K(hs_in + (x - h0) / span * rise) for x in h]
+    dT = [a - b for a, b in zip(T, T_sink)]
+    j = min(range(len(dT)), key=dT.__getitem__)
+    return dT[j], path.labels[j], (path.h, path.T_K, np.array(T_sink))
 
 
 def condenser_points(fluid, sink, cs, n: int, exact: bool):

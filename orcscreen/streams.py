@@ -98,6 +98,10 @@ _MARGIN_K = 5.0  # tables reach this far above the inlet temperature [K]
 # Newton on a segment cubic stops after a step below this (in units of the segment): the error left
 # is of order the step squared, far below 1e-9 K.
 _NEWTON_STOP = 1e-6
+#: Arrays up to this size take the scalar path point by point: a few Python floats cost less
+#: than numpy's per-call overhead on a tiny array (the search's paths have 3-6 points); larger
+#: arrays (the reported profiles) stay vectorised. The same arithmetic either way.
+SMALL_ARRAY = 8
 
 
 class StreamError(ValueError):
@@ -232,6 +236,8 @@ class _HermiteCurve:
         if isinstance(T, _SCALARS):
             return self._h1(float(T))
         Ta = np.asarray(T, float)
+        if Ta.ndim == 1 and Ta.size <= SMALL_ARRAY:
+            return np.array([self._h1(x) for x in Ta.tolist()])
         i, u = self._rows(Ta)
         C = self._hC[i]
         return C[..., 0] + u * (C[..., 1] + u * (C[..., 2] + u * C[..., 3]))
@@ -262,6 +268,8 @@ class _HermiteCurve:
         if isinstance(h, _SCALARS):
             return self._T1(float(h))
         y = np.asarray(h, float)
+        if y.ndim == 1 and y.size <= SMALL_ARRAY:
+            return np.array([self._T1(x) for x in y.tolist()])
         i = np.searchsorted(self._hn, y, side="right")
         inv_d = self._inv_d[i]
         v = (y - self._hb[i]) * self._inv_dh[i]

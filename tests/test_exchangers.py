@@ -81,6 +81,23 @@ def test_max_flow_for_pinch_is_the_energy_balance_of_the_binding_point():
     assert m == pytest.approx(m_s * cp * (T_in - 360.0) / 3e5, rel=1e-12)
 
 
+def test_short_path_bounds_equal_the_vectorised_ones():
+    """flow_bounds on a path of at most SMALL_ARRAY points (Python floats) gives the same bits as
+    on a longer path holding the same points (numpy), including the no-heat-left points (inf)."""
+    from orcscreen.exchangers import flow_bounds
+    from orcscreen.streams import SMALL_ARRAY
+
+    rng = np.random.default_rng(3)
+    h = np.sort(rng.uniform(0.0, 4e5, size=30))
+    hs_at = rng.uniform(1e5, 5e5, size=30)
+    h_out = float(h[5])  # points 5.. have no heat left: inf
+    long = flow_bounds(h, h_out, 6e5, hs_at, 12.0)
+    for n in range(1, SMALL_ARRAY + 1):
+        short = flow_bounds(h[:n], h_out, 6e5, hs_at[:n], 12.0)
+        assert np.array_equal(short, long[:n])
+    assert np.isinf(long[5:]).all() and np.isfinite(long[:5]).all()
+
+
 def test_open_heater_balance_and_its_limits():
     y = open_heater_bleed_fraction(100e3, 2800e3, 700e3)
     # the mixing closes the energy balance: y h_bleed + (1 - y) h_feed = h_out

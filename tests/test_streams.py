@@ -195,6 +195,21 @@ def test_hot_water_inverse_round_trip_scalar_and_array():
     assert hw.T_K(r.h * 1e3 - (IAPWS95(P=0.8, T=300.0).h * 1e3 - hw.h_J_kg(300.0))) == pytest.approx(400.0, abs=1e-3)
 
 
+def test_short_arrays_take_the_scalar_path_with_the_same_numbers():
+    """Arrays of at most S.SMALL_ARRAY points are evaluated point by point in Python floats; the
+    values equal those of the vectorised path (the same points inside a longer array) to 1e-12
+    (same arithmetic; the Newton steps may stop one step apart), inside and outside the table."""
+    hw = S.HotWater(150.0 + C, 5.0, 6.0e5)
+    rng = np.random.default_rng(11)
+    T_long = rng.uniform(hw.T_min_valid_K - 10.0, hw.T_max_valid_K + 10.0, size=40)
+    h_long = hw.h_J_kg(T_long)
+    for n in range(1, S.SMALL_ARRAY + 1):
+        T_short, h_short = T_long[:n].copy(), h_long[:n].copy()
+        assert np.array_equal(hw.h_J_kg(T_short), h_long[:n])
+        assert np.max(np.abs(hw.T_K(h_short) - hw.T_K(h_long)[:n])) < 1e-9
+        assert np.max(np.abs(hw.T_K(h_short) - T_short)) < 1e-6
+
+
 def test_extrapolation_outside_the_table_is_monotone_and_invertible():
     """Outside the table the curve continues with constant cp (module convention): monotone, exact inverse."""
     hw = S.HotWater(90.0 + C, 5.0, 3.0e5)
