@@ -291,15 +291,15 @@ class Subcritical(Layout):
     def _heater_closure(self, ctx: CycleContext, sat_e: SatPoint, cs, st3: State, exact: bool):
         """(working-fluid flow [kg/s], pinch location, heating path, outlet enthalpy [J/kg]): the
         largest flow that keeps the evaporator pinch and the source outlet limit, kept in ctx.memo."""
-        path, h_out, fast_interior = self.heater_path(ctx, sat_e, cs, st3, ctx.settings.n_zone_segments, exact)
         key = ("heater", exact, st3.h, cs.heater_key())
-        if ctx.memo is not None and key in ctx.memo:
-            m_wf, location, path = ctx.memo[key]
-        else:
-            m_wf, location, path = heater_flow(path, h_out, ctx.source, ctx.settings.pinch_evaporator_K, exact,
-                                               fast_interior=fast_interior)
-            if ctx.memo is not None:
-                ctx.memo[key] = m_wf, location, path
+        memo = ctx.memo
+        if memo is not None and key in memo:
+            return memo[key]
+        path, h_out, fast_interior = self.heater_path(ctx, sat_e, cs, st3, ctx.settings.n_zone_segments, exact)
+        m_wf, location, path = heater_flow(path, h_out, ctx.source, ctx.settings.pinch_evaporator_K, exact,
+                                           fast_interior=fast_interior)
+        if memo is not None:
+            memo[key] = m_wf, location, path, h_out
         return m_wf, location, path, h_out
 
     def _check_cold_side(self, ctx: CycleContext, sat_e: SatPoint, cs) -> None:
