@@ -54,13 +54,13 @@ class CaseVariable:
 #: The case's own free variables, outermost last (the optimiser nests them in this order).
 CASE_VARIABLES = (
     CaseVariable(Variable("pinch_evaporator_K", "evaporator pinch", "K", scan_points=6, xatol=0.02,
-                          near_half_width=2.0, near_min_width=0.5, scan_from_top=True),
+                          near_half_width=2.0, near_min_width=0.5, scan_from="top"),
                  "pinch_evaporator_bounds_K", "min pinch", "max pinch", _with_setting("pinch_evaporator_K")),
     CaseVariable(Variable("pinch_condenser_K", "condenser pinch", "K", scan_points=6, xatol=0.02,
-                          near_half_width=2.0, near_min_width=0.5, scan_from_top=True),
+                          near_half_width=2.0, near_min_width=0.5, scan_from="top"),
                  "pinch_condenser_bounds_K", "min pinch", "max pinch", _with_setting("pinch_condenser_K")),
     CaseVariable(Variable("sink_temperature_rise_K", "sink temperature rise", "K", scan_points=7, xatol=0.02,
-                          near_half_width=3.0, near_min_width=0.5, scan_from_top=True),
+                          near_half_width=3.0, near_min_width=0.5, scan_from="top"),
                  "sink_rise_bounds_K", "min sink temperature rise", "max sink temperature rise", _with_rise),
 )
 

@@ -437,15 +437,18 @@ def _optimise_nested(layout: Layout, ctx: CycleContext, variables: tuple[Variabl
         grid = np.array([w.lo])
     else:
         grid = np.linspace(w.lo, w.hi, outer.scan_points)
-    if outer.scan_from_top:
-        # the full inner search at the top of the grid, then each lower point warm-started
-        # from its neighbour (a full search wherever that cannot be trusted, see inner_near),
-        # down to where the objective has fallen twice in a row past its best (one peak)
+    if outer.scan_from:
+        # the full inner search at one end of the grid (Variable.scan_from), then each next point
+        # warm-started from its neighbour (a full search wherever that cannot be trusted, see
+        # inner_near), on to where the objective has fallen twice in a row past its best (one peak)
         W = [-math.inf] * len(grid)
-        for k in range(len(grid) - 1, -1, -1):
+        order = range(len(grid) - 1, -1, -1) if outer.scan_from == "top" else range(len(grid))
+        seen: list[int] = []
+        for k in order:
             W[k] = power(float(grid[k]), near=True)
-            best_k = max(range(k, len(grid)), key=lambda m: W[m])
-            if k <= best_k - 2 and W[k] < W[k + 1] < W[best_k]:
+            seen.append(k)
+            best_k = max(sorted(seen), key=lambda m: W[m])  # ties: the lowest value
+            if len(seen) - seen.index(best_k) >= 3 and W[seen[-1]] < W[seen[-2]] < W[best_k]:
                 break
     else:
         W = [power(float(g)) for g in grid]
@@ -456,7 +459,7 @@ def _optimise_nested(layout: Layout, ctx: CycleContext, variables: tuple[Variabl
     near_power = lambda v: power(v, near=True)  # noqa: E731
     if len(grid) > 1:
         a, b = float(grid[max(i - 1, 0)]), float(grid[min(i + 1, len(grid) - 1)])
-        x = _at_bound(near_power, grid, i, outer.xatol) if outer.scan_from_top else None
+        x = _at_bound(near_power, grid, i, outer.xatol) if outer.scan_from else None
         if x is None:
             x = _refine_across_regimes(near_power, lambda v: inner_near(v)[0], a, best, b, outer.xatol)
         best = max([float(grid[i]), x], key=near_power)
@@ -464,7 +467,7 @@ def _optimise_nested(layout: Layout, ctx: CycleContext, variables: tuple[Variabl
         r, limit, _, scan = inner_near(best)
         return r, limit, total, scan
     point = {**fixed, outer.name: best}
-    if outer.scan_from_top and len(inner_vars) == 1 and memo.get(best, (None,))[0] is not None:
+    if outer.scan_from and len(inner_vars) == 1 and memo.get(best, (None,))[0] is not None:
         # polish the warm-started inner optimum at the best outer value on the discretised
         # model; the chart's scan of the inner variable there is the coarse scan alone
         iv = inner_vars[0]

@@ -163,8 +163,10 @@ class Variable:
     near_xatol: tolerance of a warm-started search inside an outer search (None: xatol); the
     optimum's own search always uses xatol; near_predict: centre that bracket on the optimum
     extrapolated along the two nearest outer values (a ridge) rather than on the nearest one;
-    scan_from_top: as an outer variable, scan from the top of its window down, each point's inner
-    optimum warm-started from the point above (one full inner search instead of one per point).
+    scan_from: as an outer variable, "top" or "bottom": scan from that end of its window, each
+    point's inner optimum warm-started from the point before (one full inner search instead of
+    one per point), and stop where the objective has fallen twice in a row past its best (one
+    peak assumed); None: every scan point gets a full inner search.
     """
 
     name: str
@@ -178,7 +180,7 @@ class Variable:
     near_min_width: float = 1.0
     near_xatol: float | None = None
     near_predict: bool = False
-    scan_from_top: bool = False
+    scan_from: str | None = None
 
     def display(self, value: float) -> float:
         return value * self.scale + self.offset

@@ -35,7 +35,7 @@ __all__ = ["BleedRegenerative", "BLEED_REGENERATIVE", "BLEED_PLACE", "BLEED_PRES
 #: Where the bleed pressure's saturation temperature sits between the condensing (0) and the
 #: evaporation temperature (1), as a free variable (scan of 5, to 0.005).
 BLEED_PLACE = Variable("bleed_temperature_fraction", "bleed saturation temperature, fraction of the span", "-",
-                       scan_points=5, xatol=0.005, scan_from_top=True)
+                       scan_points=5, xatol=0.005, scan_from="top")
 #: Key of a bleed pressure given directly [Pa] (exploring by hand) instead of its place.
 BLEED_PRESSURE_KEY = "bleed_pressure_Pa"
 _PLACE_BOUNDS = (0.05, 0.95)

@@ -35,7 +35,7 @@ __all__ = ["Reheat", "REHEAT", "REHEAT_PLACE", "REHEAT_PRESSURE_KEY"]
 #: Where the reheat pressure's saturation temperature sits between the condensing (0) and the
 #: evaporation temperature (1), as a free variable (scan of 5, to 0.005).
 REHEAT_PLACE = Variable("reheat_temperature_fraction", "reheat saturation temperature, fraction of the span", "-",
-                        scan_points=5, xatol=0.005, scan_from_top=True)
+                        scan_points=5, xatol=0.005, scan_from="top")
 #: Key of a reheat pressure given directly [Pa] (exploring by hand) instead of its place.
 REHEAT_PRESSURE_KEY = "reheat_pressure_Pa"
 #: Key of a reheater outlet temperature given directly [K] (exploring by hand).

@@ -62,7 +62,7 @@ __all__ = ["Transcritical", "TRANSCRITICAL", "TRANSCRITICAL_RECUPERATED", "HEATE
 
 #: The heater pressure over the critical pressure as a free variable (outer: scan of 5 from the top, to 3e-3).
 HEATER_REDUCED_PRESSURE = Variable("heater_reduced_pressure", "heater reduced pressure", "-", scan_points=5, xatol=3e-3,
-                                   scan_from_top=True)
+                                   scan_from="top")
 #: The turbine inlet temperature as a free variable (inner: scan of 6, to 2e-3 K; at a fixed heater
 #: pressure the net power rises smoothly to one maximum above the feasible edge).
 TURBINE_INLET_TEMPERATURE = Variable("turbine_inlet_temperature_K", "turbine inlet temperature", "°C", offset=-273.15,
