@@ -69,7 +69,7 @@ EVAPORATION_TEMPERATURE = Variable("evaporation_temperature_K", "evaporation tem
 #: keeps 2e-3 K).
 EVAPORATION_TEMPERATURE_NESTED = dataclasses.replace(EVAPORATION_TEMPERATURE, near_xatol=0.02, near_predict=True)
 #: The turbine-inlet superheat as a free variable (scan of 6, refined to 0.1 K).
-SUPERHEAT = Variable("superheat_K", "superheat", "K", scan_points=6, xatol=0.1)
+SUPERHEAT = Variable("superheat_K", "superheat", "K", scan_points=6, xatol=0.1, scan_from="bottom")
 
 
 def evaporation_window(ctx: CycleContext, superheat_K: float) -> Window:
