@@ -24,11 +24,12 @@ EXIT_INTERRUPTED = 130
 
 #: Measured cost of one case in a batch on one core of the 2-core benchmark machines, store
 #: writes included (benchmarks/bench_scaling.py: 6-8 ms on 2026-12-01, 11-12 ms on the slower
-#: machine of 2026-12-02); an optimised superheat costs about 25 times more (a search over the
-#: superheat, each point with its own evaporation optimum). Start-up: imports, validation and
+#: machine of 2026-12-02); an optimised superheat costs about 6 times more in total over a study
+#: (benchmarks/bench_superheat.py on the demo, 2026-12-03: median 2.8x, total 5.9-6.3x; a
+#: search over the superheat, each point with its own evaporation optimum). Start-up: imports, validation and
 #: the output files, about 1-2.5 s for 2,000 cases (bench_scaling: wall minus batch time).
 SECONDS_PER_CASE_PER_CORE = 0.010
-SUPERHEAT_SEARCH_FACTOR = 25
+SUPERHEAT_SEARCH_FACTOR = 6
 START_UP_S = 2.0
 #: Charts and report of a run [s] (the demo study's, 4-6 s on this project's 2-core machine,
 #: 2026-12-02: mostly fixed, a few charts of the top cases) and the tables per case [s]
