@@ -165,7 +165,10 @@ def test_constant_model_reproduces_the_pinned_results():
     models, when each study gave a constant turbine efficiency (kept in the pins file). With
     turbine_model = "constant" and that efficiency, and the sink's auxiliary power as it was
     then (the study's fixed fraction per kW rejected, in the pins file), every case must come
-    out the same: status, and net power to 1e-9 relative."""
+    out the same: status, and net power to 1e-9 relative. A study whose superheat is optimised
+    holds to 2e-5 since 6891a76 (the superheat is scanned from 0 K with warm-started evaporation
+    searches that stop at 0.02 K: the optimum moves along a flat ridge; regress_studies measured
+    at most 1e-5 on thermal-oil-loop, here 1.1e-6 for n-hexane)."""
     from orcscreen.api import run_case
     from orcscreen.study import study_from_dict
 
@@ -182,6 +185,7 @@ def test_constant_model_reproduces_the_pinned_results():
         raw["machines"].pop("max_turbine_stages", None)
         raw.get("limits", {}).pop("max_volume_ratio_per_stage", None)
         wanted = {(json.dumps(c["sweep"], sort_keys=True), c["fluid"], c["layout"]): c for c in cases}
+        rel = 2e-5 if raw.get("cycle", {}).get("superheat_K") == "optimise" else 1e-9
         for case in study_from_dict(raw).cases():
             pin = wanted.get((json.dumps(dict(case.sweep), sort_keys=True), case.fluid, case.layout))
             if pin is None:
@@ -189,6 +193,6 @@ def test_constant_model_reproduces_the_pinned_results():
             row = run_case(case)["row"]
             assert row["status"] == pin["status"], (study_name, case.fluid, case.layout, row["reason"])
             if pin["status"] == "ok":
-                assert row["net_power_kW"] == pytest.approx(pin["net_power_kW"], rel=1e-9), (study_name, case.fluid)
+                assert row["net_power_kW"] == pytest.approx(pin["net_power_kW"], rel=rel), (study_name, case.fluid)
             checked += 1
     assert checked == sum(len(c) for c in pins["cases"].values())
