@@ -300,14 +300,13 @@ def condenser_approach(fluid, sink, cs, n: int, exact: bool):
     """
     if exact and cs.cond_check is not None:
         return cs.cond_check
-    if not exact:
-        path = condensing_path(fluid, cs.sat, cs.s1, cs.condenser_inlet, n, False)
-        if path.h.size <= SMALL_ARRAY:
-            return _condenser_approach_fast(path, sink)
-    h, T, T_sink, labels = condenser_points(fluid, sink, cs, n, exact)
+    path = condensing_path(fluid, cs.sat, cs.s1, cs.condenser_inlet, n, exact)
+    if not exact and path.h.size <= SMALL_ARRAY:
+        return _condenser_approach_fast(path, sink)
+    h, T, T_sink = _against_sink(path, sink)
     dT = T - T_sink
     j = int(dT.argmin())
-    out = float(dT[j]), labels[j], (h, T, T_sink)
+    out = float(dT[j]), path.labels[j], (h, T, T_sink)
     if exact:
         cs.cond_check = out
     return out
@@ -315,7 +314,7 @@ def condenser_approach(fluid, sink, cs, n: int, exact: bool):
 
 def _condenser_approach_fast(path: FluidPath, sink):
     """condenser_approach on a short condensing path (the closed-form model's 3-4 corners) in
-    Python floats: the same arithmetic as condenser_points, without numpy's per-call overhead."""
+    Python floats: the same arithmetic as _against_sink, without numpy's per-call overhead."""
     h, T = path.h.tolist(), path.T_K.tolist()
     h0, span = h[0], h[-1] - h[0]
     hs_in = sink.h_in_J_kg
@@ -331,11 +330,16 @@ def condenser_points(fluid, sink, cs, n: int, exact: bool):
     end: the condensing path (n segments per single-phase zone when exact) against the sink,
     whose enthalpy rises in proportion to the duty."""
     path = condensing_path(fluid, cs.sat, cs.s1, cs.condenser_inlet, n, exact)
+    return (*_against_sink(path, sink), path.labels)
+
+
+def _against_sink(path: FluidPath, sink):
+    """(h [J/kg], T_wf [K], T_sink [K]) of a condensing path against the sink, whose enthalpy
+    rises in proportion to the duty."""
     h, T = path.h, path.T_K
     frac = (h - h[0]) / (h[-1] - h[0])
     hs_in = sink.h_in_J_kg
-    T_sink = sink.T_K(hs_in + frac * (sink.h_out_J_kg - hs_in))
-    return h, T, T_sink, path.labels
+    return h, T, sink.T_K(hs_in + frac * (sink.h_out_J_kg - hs_in))
 
 
 def solve_condensing_temperature(fluid, sink, cold_side, pinch_K: float, T_floor_K: float, T_ceiling_K: float,

@@ -182,6 +182,10 @@ class Variable:
     near_predict: bool = False
     scan_from: str | None = None
 
+    def __post_init__(self):
+        if self.scan_from not in (None, "top", "bottom"):
+            raise ValueError(f"Variable {self.name}: scan_from is 'top', 'bottom' or None, not {self.scan_from!r}")
+
     def display(self, value: float) -> float:
         return value * self.scale + self.offset
 
