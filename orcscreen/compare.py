@@ -512,6 +512,7 @@ def default_chart_path(dir_a: str | os.PathLike[str], dir_b: str | os.PathLike[s
 def write_comparison(c: Comparison, chart_path: str | os.PathLike[str]) -> tuple[Path, Path]:
     """Write the chart to ``chart_path`` (PNG) and the table beside it (same stem, ``.csv``);
     return both paths. The CSV's floats have 6 significant digits, like ranking.csv."""
+    from orcscreen import plots
     from orcscreen.safe_files import atomic_write
 
     chart = Path(chart_path)
@@ -521,5 +522,5 @@ def write_comparison(c: Comparison, chart_path: str | os.PathLike[str]) -> tuple
     chart.parent.mkdir(parents=True, exist_ok=True)
     atomic_write(table_path, c.table.to_csv(index=False, float_format=FLOAT_FORMAT, lineterminator="\n"))
     ax = comparison_chart(c)
-    ax.figure.savefig(chart, format="png", dpi=200, metadata={"Software": None}, facecolor="white")
+    plots.write_png(ax.figure, chart)
     return chart, table_path

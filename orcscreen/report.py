@@ -164,16 +164,43 @@ FORMATS_WITH_SVG = ("png", "svg")
 
 
 def _draw(records: list[FigureRecord], fig_dir: Path, stem: str, title: str, caption: str,
-          draw: Callable[[], Any], group: str = "overview", formats: Sequence[str] = FORMATS) -> None:
+          draw: Callable[[], Any], group: str = "overview", formats: Sequence[str] = FORMATS,
+          prepare: Callable[[], Any] | None = None) -> None:
     """Queue one chart: its record now, its drawing (``draw``, saved as ``formats``) when
-    :func:`_render_all` runs the queue."""
+    :func:`_render_all` runs the queue. ``prepare``: the chart's data, computed in this process
+    before the drawing processes start (what every one of them would otherwise load again,
+    such as the property library for a T-s diagram's dome); ``draw`` must still work without it."""
     records.append(FigureRecord(stem=stem, title=title, caption=caption, group=group))
-    _QUEUE.append((draw, fig_dir, stem, tuple(formats)))
+    _QUEUE.append((draw, fig_dir, stem, tuple(formats), prepare))
 
 
-#: The charts queued by _draw, in record order: (draw, folder, stem, formats). A module global
-#: so that forked workers find the drawing functions (closures cannot be sent to a process).
-_QUEUE: list[tuple[Callable[[], Any], Path, str, tuple[str, ...]]] = []
+#: The charts queued by _draw, in record order: (draw, folder, stem, formats, prepare). A module
+#: global so that forked workers find the drawing functions (closures cannot be sent to a process).
+_QUEUE: list[tuple[Callable[[], Any], Path, str, tuple[str, ...], Callable[[], Any] | None]] = []
+
+
+class _Once:
+    """A function of no arguments whose first successful value is kept (a failure is raised
+    again on the next call, so that it is recorded on the chart that needs it)."""
+
+    def __init__(self, fn: Callable[[], Any]):
+        self._fn, self._done, self._value = fn, False, None
+
+    def __call__(self) -> Any:
+        if not self._done:
+            self._value, self._done = self._fn(), True
+        return self._value
+
+
+def _prepare_all() -> None:
+    """Compute the queued charts' data here, before any drawing process is forked; load the
+    fonts every chart uses. A failure is left for the chart's drawing to record."""
+    for stem, prepare in ((q[2], q[4]) for q in _QUEUE if q[4] is not None):
+        try:
+            prepare()
+        except Exception:  # noqa: BLE001 - recorded when the chart is drawn
+            log.debug("data of chart %s not prepared", stem, exc_info=True)
+    plots.load_fonts()
 
 #: Processes that draw the charts at most (each chart is independent; Matplotlib draws on one core).
 CHART_WORKERS = 4
@@ -181,7 +208,7 @@ CHART_WORKERS = 4
 
 def _render(i: int) -> tuple[str | None, str | None, str | None]:
     """Draw and save queued chart i: (PNG path, SVG path, error)."""
-    draw, fig_dir, stem, formats = _QUEUE[i]
+    draw, fig_dir, stem, formats, _ = _QUEUE[i]
     try:
         ax = draw()
         paths = dict(zip(formats, plots.save_figure(ax.figure, fig_dir, stem, formats=formats)))
@@ -196,6 +223,7 @@ def _render_all(records: list[FigureRecord]) -> None:
     CHART_WORKERS) where the platform forks and there is more than one chart and one core,
     else here; the same files either way (Matplotlib's Agg output depends only on the figure)."""
     n = len(_QUEUE)
+    _prepare_all()
     workers = min(CHART_WORKERS, n, len(os.sched_getaffinity(0)) if hasattr(os, "sched_getaffinity") else os.cpu_count() or 1)
     results = None
     if workers > 1:
@@ -354,9 +382,11 @@ def _queue_figures(data: _RunData, fig_dir: Path, draw, records: list[FigureReco
               "dashed); the bar marks each exchanger's pinch with its value. A narrow exchanger "
               "(a recuperator, usually) is drawn enlarged in an inset as well.",
               lambda row=row, nd=need_detail: plots.tq_diagram(nd(), row), group=key)
+        ts_detail = _Once(lambda row=row, nd=need_detail: with_ts_data(nd(), row))
         draw(records, fig_dir, f"ts_{stem}", f"T-s diagram, {label}",
               "Saturation dome, cycle path and numbered states.",
-              lambda row=row, nd=need_detail: plots.ts_diagram(with_ts_data(nd(), row), row), group=key)
+              lambda row=row, ts_detail=ts_detail: plots.ts_diagram(ts_detail(), row), group=key,
+              prepare=ts_detail)
 
 
 # --------------------------------------------------------------------------- cautions

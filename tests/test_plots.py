@@ -385,6 +385,22 @@ def test_turbine_map_plots_every_feasible_case_and_rings_the_best(run):
     _assert_units(ax)
 
 
+def test_log_axes_are_labelled_in_plain_numbers(run):
+    """The turbine map's logarithmic size axis and volume-ratio colour bar carry plain numbers,
+    never math text (no parser per chart; easier to read): every drawn tick label, major and
+    minor, is a number as Python's float() reads it."""
+    df, _ = run
+    ax = plots.turbine_map(df)
+    ax.figure.canvas.draw()
+    bar = next(a for a in ax.figure.axes if a is not ax)
+    labels = [t.get_text() for axis in (ax.xaxis, bar.yaxis)
+              for t in axis.get_ticklabels(which="both") if t.get_visible() and t.get_text()]
+    assert labels, "no tick label drawn"
+    assert all("$" not in t for t in labels), labels
+    for t in labels:
+        float(t.replace("\N{MINUS SIGN}", "-"))
+
+
 def test_turbine_map_without_feasible_case_raises_clearly(run):
     df, _ = run
     with pytest.raises(ValueError, match="turbine map: no feasible case"):
@@ -466,6 +482,32 @@ def test_save_figure_writes_png_and_svg_that_are_not_blank(run, tmp_path):
     pixels = mpimg.imread(paths[0])
     assert pixels.shape[1] == pytest.approx(plots.WIDTH_IN * 200, abs=2)   # A4 width at 200 dpi
     assert pixels[..., :3].std() > 0.05
+
+
+def test_png_has_the_pixels_of_matplotlibs_own_savefig(run, tmp_path):
+    """plots.write_png lays the figure out once and writes an opaque RGB PNG: the same pixels
+    and the same axes positions as Matplotlib's own savefig (constrained layout, PNG at 200 dpi,
+    white face; the reference), the same bytes when written twice, and the layout engine off
+    afterwards."""
+    from PIL import Image
+
+    df, details = run
+    row = _best_ok(df)
+    mine = plots.tq_diagram(details[row["case_key"]], row).figure
+    ref = plots.tq_diagram(details[row["case_key"]], row).figure
+    plots.write_png(mine, tmp_path / "mine.png")
+    plots.write_png(mine, tmp_path / "again.png")
+    ref.savefig(tmp_path / "ref.png", format="png", dpi=200, facecolor="white")
+    assert (tmp_path / "mine.png").read_bytes() == (tmp_path / "again.png").read_bytes()
+    with Image.open(tmp_path / "mine.png") as a, Image.open(tmp_path / "ref.png") as b:
+        assert a.mode == "RGB" and b.mode == "RGBA"
+        assert a.size == b.size and a.info["dpi"] == pytest.approx((200, 200), abs=0.01)   # pHYs in whole dots per metre
+        pa, pb = np.asarray(a), np.asarray(b)
+    assert (pb[..., 3] == 255).all()                      # the reference is opaque too
+    np.testing.assert_array_equal(pa, pb[..., :3])
+    for ax_m, ax_r in zip(mine.axes, ref.axes, strict=True):
+        np.testing.assert_allclose(ax_m.get_position().bounds, ax_r.get_position().bounds, rtol=0, atol=1e-12)
+    assert type(mine.get_layout_engine()).__name__ == "PlaceHolderLayoutEngine"
 
 
 def test_file_stem_is_safe_for_odd_fluid_names():

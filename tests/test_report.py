@@ -333,6 +333,49 @@ def test_a_failing_chart_is_reported_and_the_rest_is_kept(built, monkeypatch, tm
     assert len(list((other / "figures").glob("ts_*.png"))) == 2
 
 
+def test_a_failure_in_a_charts_prepared_data_is_recorded_on_that_chart(built, monkeypatch, tmp_path):
+    """The T-s diagrams' data (dome and path, from the property library) is computed before the
+    drawing processes start; when that fails, the failure is recorded on each T-s chart (it is
+    raised again where the chart is drawn), the data is asked for again there, and every other
+    chart is drawn."""
+    out, _, _ = built
+    other = tmp_path / "copy"
+    other.mkdir()
+    for name in ("run.sqlite", "ranking.csv"):
+        (other / name).write_bytes((out / name).read_bytes())
+    calls = []
+
+    def broken(detail, row):
+        calls.append(row["case_key"])
+        raise RuntimeError("the saturation dome broke (raised on purpose)")
+
+    monkeypatch.setattr(report, "with_ts_data", broken)
+    monkeypatch.setattr(report, "CHART_WORKERS", 1)      # the calls are counted in this process
+    page = _parse(report.build_report(other, top_n=2).read_text(encoding="utf-8"))
+    problems = _section(page, "chart-problems")
+    assert "RuntimeError: the saturation dome broke (raised on purpose)" in problems
+    assert problems.count("T-s diagram") == 2
+    assert len(calls) == 4 and len(set(calls)) == 2      # prepared once, then again when drawn
+    assert not list((other / "figures").glob("ts_*"))
+    assert len(list((other / "figures").glob("tq_*.png"))) == 2
+
+
+def test_prepared_chart_data_is_computed_once():
+    """report._Once keeps its first value; a failure is raised again on the next call."""
+    calls = []
+
+    def flaky():
+        calls.append(1)
+        if len(calls) == 1:
+            raise ValueError("first call fails")
+        return len(calls)
+
+    once = report._Once(flaky)
+    with pytest.raises(ValueError, match="first call fails"):
+        once()
+    assert once() == 2 and once() == 2 and len(calls) == 2
+
+
 def test_rebuild_removes_charts_of_an_earlier_report(built, tmp_path):
     out, _, _ = built
     other = tmp_path / "copy"
