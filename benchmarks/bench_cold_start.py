@@ -26,7 +26,6 @@ over base).
 from __future__ import annotations
 
 import argparse
-import os
 import shutil
 import sqlite3
 import subprocess
@@ -54,18 +53,6 @@ def first_case_count(db: Path) -> int:
         con.close()
 
 
-def child_env(tree: Path, pyc_dir: Path | None) -> dict[str, str]:
-    """The launch's environment: ``tree`` first on sys.path; compiled modules kept in pyc_dir
-    (PYTHONPYCACHEPREFIX, as an installed package keeps its .pyc files) unless it is None
-    (then the environment decides, e.g. PYTHONDONTWRITEBYTECODE=1: every module compiled at
-    every launch)."""
-    env = {**os.environ, "PYTHONPATH": str(tree)}
-    if pyc_dir is not None:
-        env.pop("PYTHONDONTWRITEBYTECODE", None)
-        env["PYTHONPYCACHEPREFIX"] = str(pyc_dir)
-    return env
-
-
 def launch(study: str, out_dir: Path, jobs: int | None, poll_s: float, finish: bool, timeout_s: float,
            tree: Path = bl.REPO, pyc_dir: Path | None = None) -> dict:
     """One launch of the orcscreen of ``tree`` (its folder first on sys.path, and the working
@@ -75,7 +62,7 @@ def launch(study: str, out_dir: Path, jobs: int | None, poll_s: float, finish: b
         cmd += ["--jobs", str(jobs)]
     db = out_dir / STORE_FILE
     log = out_dir.parent / f"{out_dir.name}.log"
-    env = child_env(tree, pyc_dir)
+    env = bl.child_env(tree, pyc_dir)
     t_store = t_first = None
     with open(log, "w") as fh:
         t0 = time.perf_counter()
@@ -119,14 +106,6 @@ def study_file(study: str, fluids: str, tmp: Path) -> str:
     return str(out)
 
 
-def export_commit(commit: str, dest: Path) -> Path:
-    """A clean copy of the repository at ``commit`` (``git archive | tar -x``) in dest."""
-    dest.mkdir(parents=True)
-    archive = subprocess.run(["git", "-C", str(bl.REPO), "archive", commit], check=True, capture_output=True).stdout
-    subprocess.run(["tar", "-x", "-C", str(dest)], input=archive, check=True)
-    return dest
-
-
 def run_single(args, study: str, tmp: Path, pyc_dir: Path | None) -> None:
     firsts, stores = [], []
     if pyc_dir is not None:  # untimed: compiles the modules once
@@ -146,7 +125,7 @@ def run_single(args, study: str, tmp: Path, pyc_dir: Path | None) -> None:
 
 
 def run_paired(args, study: str, tmp: Path, pyc_dir: Path | None) -> None:
-    base = export_commit(args.base, tmp / "base")
+    base = bl.export_commit(args.base, tmp / "base")
     trees = {"base": base, "this": bl.REPO}
     print(f"base      {args.base} exported to {base}; this tree {bl.REPO}")
     for name, tree in trees.items():  # untimed: fills the constants cache, compiles the modules

@@ -366,3 +366,25 @@ def paired_optimisations(studies: dict, passes: int, labels: tuple[str, str]) ->
         eb = median([evaluations((other, *k)) for k in both])
         print(f"{name:<16}{len(both):>8}{median(ta) * 1e3:>14.2f}{median(tb) * 1e3:>12.2f}{f'{ea:.0f}/{eb:.0f}':>11}"
               f"{median([y / x for x, y in zip(ta, tb)]):>31.2f}{sum(tb) / sum(ta):>8.2f}")
+
+
+# -- other commits ---------------------------------------------------------------------------------
+
+def export_commit(commit: str, dest: Path) -> Path:
+    """A clean copy of the repository at ``commit`` (``git archive | tar -x``) in dest."""
+    dest.mkdir(parents=True)
+    archive = subprocess.run(["git", "-C", str(REPO), "archive", commit], check=True, capture_output=True).stdout
+    subprocess.run(["tar", "-x", "-C", str(dest)], input=archive, check=True)
+    return dest
+
+
+def child_env(tree: Path, pyc_dir: Path | None) -> dict[str, str]:
+    """The launch's environment: ``tree`` first on sys.path; compiled modules kept in pyc_dir
+    (PYTHONPYCACHEPREFIX, as an installed package keeps its .pyc files) unless it is None
+    (then the environment decides, e.g. PYTHONDONTWRITEBYTECODE=1: every module compiled at
+    every launch)."""
+    env = {**os.environ, "PYTHONPATH": str(tree)}
+    if pyc_dir is not None:
+        env.pop("PYTHONDONTWRITEBYTECODE", None)
+        env["PYTHONPYCACHEPREFIX"] = str(pyc_dir)
+    return env
