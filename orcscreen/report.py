@@ -218,10 +218,12 @@ def _render(i: int) -> tuple[str | None, str | None, str | None]:
         return None, None, f"{type(exc).__name__}: {exc}"
 
 
-def _render_all(records: list[FigureRecord]) -> None:
+def _render_all(records: list[FigureRecord], meanwhile: Callable[[], Any] | None = None) -> None:
     """Draw the queued charts into their records: in forked processes (one per core, at most
     CHART_WORKERS) where the platform forks and there is more than one chart and one core,
-    else here; the same files either way (Matplotlib's Agg output depends only on the figure)."""
+    else here; the same files either way (Matplotlib's Agg output depends only on the figure).
+    ``meanwhile``: work of this process that needs no chart, done while the charts are drawn
+    (best effort: an exception there is dropped; the work is to be done again after)."""
     n = len(_QUEUE)
     _prepare_all()
     workers = min(CHART_WORKERS, n, len(os.sched_getaffinity(0)) if hasattr(os, "sched_getaffinity") else os.cpu_count() or 1)
@@ -237,17 +239,30 @@ def _render_all(records: list[FigureRecord]) -> None:
         if ctx is not None:
             try:
                 with ProcessPoolExecutor(workers, mp_context=ctx) as pool:
-                    results = list(pool.map(_render, range(n)))
+                    futures = [pool.submit(_render, i) for i in range(n)]
+                    _best_effort(meanwhile)
+                    meanwhile = None
+                    results = [f.result() for f in futures]
             except (OSError, RuntimeError) as exc:  # no processes to be had: draw here
                 log.debug("charts drawn in one process: %s", exc)
                 results = None
     if results is None:
         results = [_render(i) for i in range(n)]
+    _best_effort(meanwhile)
     for record, (png, svg, error) in zip(records, results):  # one record per queued chart, in order
         record.png, record.svg, record.error = (Path(png) if png else None), (Path(svg) if svg else None), error
         if error:
             log.warning("chart %s not drawn: %s", record.stem, error)
     _QUEUE.clear()
+
+
+def _best_effort(work: Callable[[], Any] | None) -> None:
+    if work is None:
+        return
+    try:
+        work()
+    except Exception:  # noqa: BLE001 - done again, and raised there, by whoever needs it
+        log.debug("work beside the charts failed", exc_info=True)
 
 
 def _point_note(point: Mapping) -> str:
@@ -261,7 +276,8 @@ def _point_note(point: Mapping) -> str:
     return "operating point of the best case: " + ", ".join(parts)
 
 
-def make_figures(data: _RunData, fig_dir: Path, svg: bool = False) -> list[FigureRecord]:
+def make_figures(data: _RunData, fig_dir: Path, svg: bool = False,
+                 meanwhile: Callable[[], Any] | None = None) -> list[FigureRecord]:
     """Draw every chart of the run into ``fig_dir`` (PNG; SVG too when ``svg``); one record per
     chart, failures included.
 
@@ -282,7 +298,7 @@ def make_figures(data: _RunData, fig_dir: Path, svg: bool = False) -> list[Figur
     _QUEUE.clear()
     try:
         _queue_figures(data, fig_dir, draw, records, ok)
-        _render_all(records)
+        _render_all(records, meanwhile)
     finally:
         _QUEUE.clear()
     return records
@@ -1181,8 +1197,15 @@ _CSP = ("default-src 'none'; img-src data:; style-src 'unsafe-inline'; "
         "script-src 'unsafe-inline'; base-uri 'none'; form-action 'none'")
 
 
-def render_report(data: _RunData, records: list[FigureRecord]) -> str:
-    """The whole HTML page as a string."""
+def _chart_free_parts(data: _RunData) -> dict[str, str]:
+    """The sections of the page that show no chart (made while the charts are drawn)."""
+    return {"candidates": _candidates(data), "summary": _summary(data), "problems": _problems_section(data),
+            "cautions": _cautions_section()}
+
+
+def render_report(data: _RunData, records: list[FigureRecord], parts: Mapping[str, str] | None = None) -> str:
+    """The whole HTML page as a string. ``parts``: :func:`_chart_free_parts` of data, if made."""
+    parts = parts or _chart_free_parts(data)
     name = data.meta.get("study_name") or "orcscreen study"
     overview = [r for r in records if r.group == "overview"]
     sweeps = [r for r in records if r.group == "sweep"]
@@ -1215,8 +1238,8 @@ def render_report(data: _RunData, records: list[FigureRecord]) -> str:
         '<a href="#top">top fluids</a> · ' + ('<a href="#sweeps">sweeps</a> · ' if sweeps else "") +
         '<a href="#summary">inputs and method</a> · '
         '<a href="#problems">infeasible and failed</a> · <a href="#cautions">cautions</a></nav>'
-        + _candidates(data) + _ranking_section(data, overview) + sweep_section + top_section
-        + _summary(data) + _problems_section(data) + _chart_problems(records) + _cautions_section()
+        + parts["candidates"] + _ranking_section(data, overview) + sweep_section + top_section
+        + parts["summary"] + parts["problems"] + _chart_problems(records) + parts["cautions"]
         + f"<footer>orcscreen screening report · study hash "
         f"<code>{_e(data.meta.get('study_hash', ''))}</code> · built {made} · written by orcscreen "
         f"{_e(data.meta.get('orcscreen_version', ''))} with CoolProp "
@@ -1255,7 +1278,9 @@ def build_report(out_dir: str | os.PathLike[str], top_n: int = 5, svg: bool = Fa
             data = _load(out_dir, max(0, int(top_n)), store=store, rank_by=rank_by)
         except sqlite3.DatabaseError as exc:  # a damaged file: say so, with what to do
             raise store.error_for(exc) from None
-        records = make_figures(data, out_dir / FIGURES_DIR, svg=svg)
-        page = render_report(data, records)
+        parts: dict[str, str] = {}
+        records = make_figures(data, out_dir / FIGURES_DIR, svg=svg,
+                               meanwhile=lambda: parts.update(_chart_free_parts(data)))
+        page = render_report(data, records, parts or None)
         atomic_write(path, page)  # temporary file without following links, then rename
     return path

@@ -360,6 +360,39 @@ def test_a_failure_in_a_charts_prepared_data_is_recorded_on_that_chart(built, mo
     assert len(list((other / "figures").glob("tq_*.png"))) == 2
 
 
+def test_the_sections_without_charts_are_made_once_beside_the_drawing(built, monkeypatch, tmp_path):
+    """The page's sections that show no chart are made while the charts are drawn, once; when
+    that fails, they are made again after the charts (and the page is whole)."""
+    out, _, _ = built
+    other = tmp_path / "copy"
+    other.mkdir()
+    for name in ("run.sqlite", "ranking.csv"):
+        (other / name).write_bytes((out / name).read_bytes())
+    real, calls = report._chart_free_parts, []
+
+    def counted(data):
+        calls.append(1)
+        return real(data)
+
+    monkeypatch.setattr(report, "_chart_free_parts", counted)
+    whole = report.build_report(other, top_n=2).read_text(encoding="utf-8")
+    assert len(calls) == 1
+
+    def failing_first(data):
+        calls.append(1)
+        if len(calls) == 2:
+            raise RuntimeError("the summary broke once (raised on purpose)")
+        return real(data)
+
+    monkeypatch.setattr(report, "_chart_free_parts", failing_first)
+    again = report.build_report(other, top_n=2).read_text(encoding="utf-8")
+    assert len(calls) == 3
+    built_at = re.compile(r"built \d{4}-\d\d-\d\d \d\d:\d\d UTC")
+    assert built_at.sub("", again) == built_at.sub("", whole)
+    for section in ("summary", "problems", "cautions"):
+        assert f'id="{section}"' in again
+
+
 def test_prepared_chart_data_is_computed_once():
     """report._Once keeps its first value; a failure is raised again on the next call."""
     calls = []
