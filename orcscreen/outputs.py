@@ -562,7 +562,7 @@ def write_outputs(out_dir: str | os.PathLike[str],
         "left_out_fluids": left_out_fluids(meta),
     }
     _atomic_write(info_path, json.dumps(info, indent=2) + "\n")
-    from orcscreen.spreadsheet import SPREADSHEET_FILE, write_spreadsheet  # openpyxl: only there
+    from orcscreen.spreadsheet import SPREADSHEET_FILE, write_spreadsheet  # XlsxWriter: only there
 
     write_spreadsheet(out_dir / SPREADSHEET_FILE, ranking_path, info, meta.get("study"),
                       text_columns=("case_key", *_VERSION_COLUMNS))

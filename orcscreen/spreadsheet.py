@@ -1,8 +1,12 @@
 """``DIR/ranking.xlsx``: ranking.csv as a spreadsheet, with units, number formats, the inputs and
 the cautions.
 
-Three sheets, written with openpyxl (imported here only, and only when a file is written) in its
-write-only mode, which streams the rows to the file, so memory does not grow with the cases:
+Three sheets, written with XlsxWriter (imported here only, and only when a file is written) in its
+constant-memory mode, which streams each row to a temporary file as it is written, so memory
+does not grow with the cases. XlsxWriter rather than a reading-and-writing library: it loads in
+a quarter of the time and writes the cells about twice as fast (a 135-case ranking: 0.25 s
+against 0.7-0.9 s with openpyxl's write-only mode, 2026-12-03); the tests read the file back
+with openpyxl, a second, independent implementation of the format:
 
 * "ranking": ranking.csv's header, a row of units under it, then ranking.csv's rows in its
   order, read back from ranking.csv itself (every value is the CSV's). Panes frozen below the two
@@ -18,7 +22,8 @@ write-only mode, which streams the rows to the file, so memory does not grow wit
 
 Units come from the endings of the names (``_kW``, ``_C``, ``_kg_s``...: DESIGN.md section 5);
 the money columns carry the study's currency (run-info.json ``money``). The file is written to
-a temporary file and renamed (orcscreen.safe_files), like ranking.csv.
+a temporary file and renamed (orcscreen.safe_files), like ranking.csv. Text is always written as
+text, never as a formula or a number, with the characters XML cannot hold replaced by U+FFFD.
 """
 
 from __future__ import annotations
@@ -27,6 +32,7 @@ import itertools
 import json
 import math
 import os
+import re
 from collections.abc import Iterable, Iterator, Mapping
 from pathlib import Path
 from typing import Any
@@ -119,44 +125,97 @@ def write_spreadsheet(target: str | os.PathLike[str], ranking_csv: str | os.Path
     text_columns: columns read as text whatever they look like (keys and hashes, which may be
     all digits). Written to a temporary file, then renamed over ``target``.
     """
-    from openpyxl import Workbook
+    import xlsxwriter
 
     target = Path(target)
     currency = (info.get("money") or {}).get("currency")
-    wb = Workbook(write_only=True)
-    fluids, written, total = _ranking_sheet(wb, Path(ranking_csv), currency, tuple(text_columns))
-    note = {} if written == total else {SPREADSHEET_FILE: (
-        f"the first {written} of {total} rows of ranking.csv (a sheet holds at most "
-        f"{SHEET_ROWS} rows); every row is in ranking.csv")}
-    _inputs_sheet(wb, {**info, **note}, study, currency)
-    _cautions_sheet(wb, fluids)
-    wb.properties.title = f"orcscreen ranking: {info.get('study_name') or ''}".strip()
-    wb.properties.creator = f"orcscreen {info.get('orcscreen_version') or ''}".strip()
     with atomic_writer(target) as stream:
-        wb.save(stream.buffer)  # the binary layer of the temporary file's text stream
+        # the binary layer of the temporary file's text stream; every text cell through
+        # write_string, so no option of XlsxWriter's guessing is needed
+        wb = xlsxwriter.Workbook(stream.buffer, {"constant_memory": True, "strings_to_formulas": False,
+                                                 "strings_to_numbers": False, "strings_to_urls": False})
+        sheet = _Sheets(wb)
+        fluids, written, total = _ranking_sheet(sheet, Path(ranking_csv), currency, tuple(text_columns))
+        note = {} if written == total else {SPREADSHEET_FILE: (
+            f"the first {written} of {total} rows of ranking.csv (a sheet holds at most "
+            f"{SHEET_ROWS} rows); every row is in ranking.csv")}
+        _inputs_sheet(sheet, {**info, **note}, study, currency)
+        _cautions_sheet(sheet, fluids)
+        wb.set_properties({"title": f"orcscreen ranking: {info.get('study_name') or ''}".strip(),
+                           "author": f"orcscreen {info.get('orcscreen_version') or ''}".strip()})
+        wb.close()
     return target
+
+
+class _Sheets:
+    """The workbook's sheets, each written row after row (constant-memory mode), with one format
+    object per distinct set of properties."""
+
+    def __init__(self, wb):
+        self.wb, self._formats = wb, {}
+
+    def new(self, name: str, widths: Iterable[float] = ()) -> "_Rows":
+        ws = self.wb.add_worksheet(name)
+        for i, width in enumerate(widths):
+            ws.set_column(i, i, width)
+        return _Rows(ws, self)
+
+    def format(self, **props):
+        key = tuple(sorted(props.items()))
+        if key not in self._formats:
+            self._formats[key] = self.wb.add_format(props) if props else None
+        return self._formats[key]
+
+
+class _Rows:
+    """One sheet, appended to a row at a time (XlsxWriter's constant-memory mode needs the rows
+    in order)."""
+
+    def __init__(self, ws, sheets: _Sheets):
+        self.ws, self.sheets, self.n = ws, sheets, 0
+
+    def append(self, values: Iterable, formats: Iterable | None = None) -> None:
+        """One row: numbers and booleans as such (with the format given for their column, or
+        none), text as text, None and NaN as an empty cell."""
+        ws, r = self.ws, self.n
+        for c, (v, fmt) in enumerate(zip(values, formats if formats is not None else itertools.repeat(None))):
+            if v is None or (isinstance(v, float) and math.isnan(v)):
+                continue
+            if isinstance(v, bool):
+                ws.write_boolean(r, c, v, fmt)
+            elif isinstance(v, (int, float)):
+                ws.write_number(r, c, v, fmt)
+            else:
+                ws.write_string(r, c, _clean(str(v)), fmt)
+        self.n += 1
+
+
+#: Characters XML 1.0 cannot hold (C0 controls but tab, newline and carriage return).
+_NOT_XML = re.compile("[\x00-\x08\x0b\x0c\x0e-\x1f]")
+
+
+def _clean(text: str) -> str:
+    return _NOT_XML.sub("\ufffd", text)
 
 
 # --------------------------------------------------------------------------- ranking sheet
 
-def _ranking_sheet(wb, ranking_csv: Path, currency: str | None,
+def _ranking_sheet(sheets: _Sheets, ranking_csv: Path, currency: str | None,
                    text_columns: tuple[str, ...]) -> tuple[list[str], int, int]:
     """The "ranking" sheet, at most :data:`SHEET_ROWS` rows in all; returns the fluids of the
     ranking in order of first appearance, the rows written and the rows of ranking.csv."""
     import pandas as pd
-    from openpyxl.utils import get_column_letter
 
-    ws = wb.create_sheet("ranking")
     header = pd.read_csv(ranking_csv, nrows=0).columns.tolist()
     styles = [column_style(c, currency) for c in header]
     chunks = _csv_chunks(ranking_csv, header, text_columns)
     first = next(chunks, None)
-    for i, (name, (unit, _)) in enumerate(zip(header, styles), 1):  # widths go before the rows
-        ws.column_dimensions[get_column_letter(i)].width = _width(name, unit, first, i - 1)
-    ws.freeze_panes = "B3"
-    ws.append(_styled(ws, header, bold=True))
-    ws.append(_styled(ws, [u for u, _ in styles], italic=True))
-    formats = [f for _, f in styles]
+    ws = sheets.new("ranking", [_width(name, unit, first, i) for i, (name, (unit, _)) in enumerate(zip(header, styles))])
+    ws.ws.freeze_panes(2, 1)  # below the header and units rows, right of the first column
+    bold, italic = sheets.format(bold=True), sheets.format(italic=True)
+    ws.append(header, itertools.repeat(bold))
+    ws.append([u or None for u, _ in styles], itertools.repeat(italic))
+    formats = [sheets.format(num_format=f) if f is not None else None for _, f in styles]
     fluids: dict[str, None] = {}
     room = SHEET_ROWS - 2  # below the header and units rows
     n = total = 0
@@ -164,10 +223,10 @@ def _ranking_sheet(wb, ranking_csv: Path, currency: str | None,
         if "fluid" in header:
             fluids.update(dict.fromkeys(str(f) for f in chunk[header.index("fluid")] if _present(f)))
         for values in itertools.islice(zip(*chunk), max(room - n, 0)):
-            ws.append(_row(ws, values, formats))
+            ws.append(_row(values), formats)
             n += 1
         total += len(chunk[0]) if chunk else 0
-    ws.auto_filter.ref = f"A2:{get_column_letter(max(len(header), 1))}{n + 2}"
+    ws.ws.autofilter(1, 0, n + 1, max(len(header), 1) - 1)  # on the units row: sorting moves no header
     return list(fluids), n, total
 
 
@@ -201,69 +260,25 @@ def _width(name: str, unit: str, chunk: list[list] | None, column: int) -> float
     return float(min(max(widest + 2, _MIN_WIDTH), _MAX_WIDTH))
 
 
-def _row(ws, values: Iterable, formats: list[str | None]) -> list:
-    """One ranking row for ``ws.append``: numbers in a cell of their column's format, NaN as an
-    empty cell, infinities as the CSV's text."""
-    from openpyxl.cell import WriteOnlyCell
-
-    row: list = []
-    for v, fmt in zip(values, formats):
-        if isinstance(v, float):
-            if math.isnan(v):
-                v = None
-            elif math.isinf(v):
-                v = "inf" if v > 0 else "-inf"
-        if fmt is not None and isinstance(v, (int, float)) and not isinstance(v, bool):
-            cell = WriteOnlyCell(ws, v)
-            cell.number_format = fmt
-            row.append(cell)
-        elif isinstance(v, str):
-            row.append(_text(ws, v))
-        else:
-            row.append(v)
-    return row
-
-
-def _text(ws, text: str, font=None):
-    """A text value as written, never read as a formula (a cell when it begins with "=" or has
-    a ``font``); characters XML cannot hold become U+FFFD."""
-    from openpyxl.cell import WriteOnlyCell
-    from openpyxl.cell.cell import ILLEGAL_CHARACTERS_RE
-
-    text = ILLEGAL_CHARACTERS_RE.sub("\ufffd", text)
-    if font is None and not text.startswith("="):
-        return text
-    cell = WriteOnlyCell(ws, text)
-    cell.data_type = "s"
-    if font is not None:
-        cell.font = font
-    return cell
-
-
-def _styled(ws, texts: Iterable[str], *, bold: bool = False, italic: bool = False) -> list:
-    """Header cells in a bold or italic font."""
-    from openpyxl.styles import Font
-
-    font = Font(bold=bold, italic=italic)
-    return [_text(ws, str(t), font) for t in texts]
+def _row(values: Iterable) -> list:
+    """One ranking row: infinities as the CSV's text (a number format cannot show them)."""
+    return [("inf" if v > 0 else "-inf") if isinstance(v, float) and math.isinf(v) else v for v in values]
 
 
 # --------------------------------------------------------------------------- inputs sheet
 
-def _inputs_sheet(wb, info: Mapping[str, Any], study: Mapping[str, Any] | None,
+def _inputs_sheet(sheets: _Sheets, info: Mapping[str, Any], study: Mapping[str, Any] | None,
                   currency: str | None) -> None:
     """The "inputs" sheet: key, value, unit; run-info.json's entries, then the study."""
-    ws = wb.create_sheet("inputs")
-    for letter, width in zip("ABC", (45, 45, 14)):
-        ws.column_dimensions[letter].width = width
-    ws.freeze_panes = "A2"
-    ws.append(_styled(ws, ["key", "value", "unit"], bold=True))
+    ws = sheets.new("inputs", (45, 45, 14))
+    ws.ws.freeze_panes(1, 0)
+    bold = sheets.format(bold=True)
+    ws.append(["key", "value", "unit"], itertools.repeat(bold))
     for title, data in (("run (run-info.json)", info),
                         ("study (as run, with defaults)", study or {})):
-        ws.append(_styled(ws, [title], bold=True))
+        ws.append([title], [bold])
         for key, value in _flat(data):
-            ws.append([_text(ws, key), _text(ws, value) if isinstance(value, str) else value,
-                       column_style(key, currency)[0]])
+            ws.append([key, value, column_style(key, currency)[0] or None])
         ws.append([])
 
 
@@ -283,32 +298,24 @@ def _flat(data: Mapping[str, Any], prefix: str = "") -> Iterator[tuple[str, Any]
 
 # --------------------------------------------------------------------------- cautions sheet
 
-def _cautions_sheet(wb, fluids: list[str]) -> None:
+def _cautions_sheet(sheets: _Sheets, fluids: list[str]) -> None:
     """The "cautions" sheet: the general cautions, then each fluid's catalogue cautions."""
-    from openpyxl.cell import WriteOnlyCell
-    from openpyxl.styles import Alignment
-
     from orcscreen import fluids as catalogue
 
-    ws = wb.create_sheet("cautions")
     # column A is the fluid's; a caution line overflows into the empty cells to its right
-    for letter, width in zip("ABCDEF", (24, 24, 12, 10, 10, 90)):
-        ws.column_dimensions[letter].width = width
-    ws.append(_styled(ws, ["Cautions"], bold=True))
+    ws = sheets.new("cautions", (24, 24, 12, 10, 10, 90))
+    bold = sheets.format(bold=True)
+    ws.append(["Cautions"], [bold])
     for line in catalogue.CAUTIONS.strip().splitlines():
         ws.append([line])
     ws.append([])
-    ws.append(_styled(ws, ["Fluids of this ranking (fluid catalogue)"], bold=True))
-    ws.append(_styled(ws, ["fluid", "name", "safety class", "GWP100", "ODP", "cautions"], bold=True))
-    wrap = Alignment(wrap_text=True, vertical="top")
+    ws.append(["Fluids of this ranking (fluid catalogue)"], [bold])
+    ws.append(["fluid", "name", "safety class", "GWP100", "ODP", "cautions"], itertools.repeat(bold))
+    wrap = [None] * 5 + [sheets.format(text_wrap=True, valign="top")]
     for name in fluids:
         try:
             info = catalogue.get_info(name)
         except catalogue.UnknownFluidError:
-            ws.append([_text(ws, name), None, None, None, None,
-                       "not in the fluid catalogue: see the cautions above"])
+            ws.append([name, None, None, None, None, "not in the fluid catalogue: see the cautions above"])
             continue
-        text = WriteOnlyCell(ws, info.cautions)
-        text.alignment = wrap
-        ws.append([_text(ws, name), _text(ws, info.display_name), info.safety_class or None,
-                   info.gwp100, info.odp, text])
+        ws.append([name, info.display_name, info.safety_class or None, info.gwp100, info.odp, info.cautions], wrap)

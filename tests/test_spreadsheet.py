@@ -119,7 +119,9 @@ def test_panes_filter_widths_and_number_formats(run_dir):
             if isinstance(cell.value, (int, float)) and not isinstance(cell.value, bool):
                 assert cell.number_format != "General", name
                 assert cell.number_format == column_style(name)[1], name
-    widths = [ws.column_dimensions[openpyxl.utils.get_column_letter(i + 1)].width
+    # ECMA-376 Part 1, 18.3.1.13 (col): the stored width is the characters shown plus 5 pixels
+    # of padding at the default font's 7-pixel digit width, truncated to 1/256: n + 182/256
+    widths = [ws.column_dimensions[openpyxl.utils.get_column_letter(i + 1)].width - 182 / 256
               for i in range(len(header))]
     assert all(6 <= w <= 50 for w in widths)
     assert widths[col["turbine_outlet_temperature_C"]] >= len("turbine_outlet_temperature_C")
