@@ -17,6 +17,8 @@ from collections.abc import Sequence
 from pathlib import Path
 from typing import Any
 
+from orcscreen._version import __version__
+
 EXIT_OK = 0
 EXIT_INTERNAL = 1
 EXIT_BAD_INPUT = 2
@@ -381,15 +383,6 @@ class _Exit(Exception):
         self.status = status
 
 
-def _version() -> str:
-    from importlib import metadata
-
-    try:
-        return metadata.version("orcscreen")
-    except metadata.PackageNotFoundError:
-        return "unknown"
-
-
 def build_parser() -> argparse.ArgumentParser:
     fmt = argparse.RawDescriptionHelpFormatter
     parser = _Parser(
@@ -400,7 +393,7 @@ def build_parser() -> argparse.ArgumentParser:
         "Exit status: 0 ok, 2 bad input, 1 internal error.\n" + CAUTION_LINE,
         formatter_class=fmt,
     )
-    parser.add_argument("--version", action="version", version=f"orcscreen {_version()}")
+    parser.add_argument("--version", action="version", version=f"orcscreen {__version__}")
     parser.add_argument("--debug", action="store_true", help="show the traceback of an internal error")
     sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
 

@@ -39,7 +39,6 @@ import sqlite3
 import time
 from collections.abc import Iterable, Iterator, Mapping
 from datetime import datetime, timezone
-from importlib import metadata
 from pathlib import Path
 from typing import TYPE_CHECKING, Any, NamedTuple
 
@@ -156,11 +155,10 @@ def _environment_error(exc: sqlite3.Error, path: Path) -> StoreError | None:
 
 
 def orcscreen_version() -> str:
-    """Installed version of orcscreen (package metadata), "unknown" if not installed."""
-    try:
-        return metadata.version("orcscreen")
-    except metadata.PackageNotFoundError:
-        return "unknown"
+    """orcscreen's version (orcscreen/_version.py, which the package metadata reads too)."""
+    from orcscreen._version import __version__
+
+    return __version__
 
 
 def _is_the_file_at(fd: int, path: Path) -> bool:

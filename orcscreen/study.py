@@ -22,7 +22,6 @@ import math
 import re
 import tomllib
 from collections.abc import Iterator, Mapping
-from importlib import metadata
 from pathlib import Path
 from typing import Annotated, Any, Literal, Optional, Union, get_args, get_origin
 
@@ -1811,18 +1810,12 @@ def study_from_dict(d: Mapping[str, Any], origin: str = "<dict>", *, allow_huge:
     return study
 
 
-@functools.lru_cache(maxsize=1)
-def _own_version() -> str:
-    try:
-        return metadata.version("orcscreen")
-    except metadata.PackageNotFoundError:
-        return "0+unknown"
-
-
 def _versions() -> dict[str, str]:
     from orcscreen import properties
 
-    return {"orcscreen": _own_version(), "coolprop": properties.coolprop_version()}
+    from orcscreen._version import __version__
+
+    return {"orcscreen": __version__, "coolprop": properties.coolprop_version()}
 
 
 def _canonical(obj: Any) -> str:
