@@ -133,7 +133,7 @@ def _superheat_optimised_studies() -> list[str]:
 
 
 @pytest.mark.skipif(os.environ.get("ORCSCREEN_GRID_PROFILE") != "full",
-                    reason="about 20 minutes a study on one core: ORCSCREEN_GRID_PROFILE=full runs it")
+                    reason="about 30 minutes a study on one core: ORCSCREEN_GRID_PROFILE=full runs it")
 @pytest.mark.parametrize("name", _superheat_optimised_studies())
 def test_superheat_optimised_studies_match_a_grid_over_both_variables(name):
     """Every feasible case of every shipped study whose superheat is optimised, against the best
