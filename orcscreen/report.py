@@ -202,6 +202,7 @@ def _prepare_all() -> None:
             log.debug("data of chart %s not prepared", stem, exc_info=True)
     plots.load_fonts()
 
+
 #: Processes that draw the charts at most (each chart is independent; Matplotlib draws on one core).
 CHART_WORKERS = 4
 
