@@ -37,14 +37,15 @@ def run_study(study: str, out: Path, tree: Path, pyc_dir: Path, timeout_s: float
 def time_report(run_dir: Path, tree: Path, pyc_dir: Path) -> dict:
     """One ``orcscreen report run_dir`` with ``tree``'s code: wall [s], CPU of the process
     tree [s] (user + system, children included), exit status."""
-    t0 = time.perf_counter()
-    proc = subprocess.Popen(bl.orcscreen_command("report", str(run_dir)), cwd=tree, env=bl.child_env(tree, pyc_dir),
-                            stdout=subprocess.DEVNULL, stderr=subprocess.PIPE)
-    _, status, usage = os.wait4(proc.pid, 0)
-    wall = time.perf_counter() - t0
-    err = proc.stderr.read().decode(errors="replace") if proc.stderr else ""
-    proc.stderr.close()
-    proc.returncode = os.waitstatus_to_exitcode(status)
+    with tempfile.TemporaryFile() as log:  # a file, not a pipe: a long log cannot stall the child
+        t0 = time.perf_counter()
+        proc = subprocess.Popen(bl.orcscreen_command("report", str(run_dir)), cwd=tree,
+                                env=bl.child_env(tree, pyc_dir), stdout=subprocess.DEVNULL, stderr=log)
+        _, status, usage = os.wait4(proc.pid, 0)
+        wall = time.perf_counter() - t0
+        proc.returncode = os.waitstatus_to_exitcode(status)
+        log.seek(0)
+        err = log.read().decode(errors="replace")
     return {"wall": wall, "cpu": usage.ru_utime + usage.ru_stime, "rc": proc.returncode, "err": err[-400:]}
 
 

@@ -950,8 +950,7 @@ def save_figure(fig: Figure, directory: Path | str, stem: str,
     """
     directory = Path(directory)
     directory.mkdir(parents=True, exist_ok=True)
-    fig.patch.set_facecolor("white")
-    _freeze_layout(fig, dpi)
+    _freeze_layout(fig, dpi)  # once for every format (write_png's own call then does nothing)
     paths = []
     for fmt in formats:
         path = directory / f"{stem}.{fmt}"
