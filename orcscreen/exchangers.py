@@ -166,6 +166,11 @@ def _C(T_K: float) -> str:
 # ---------------------------------------------------------------------------------------------
 # heater: pinch-limited working-fluid flow
 # ---------------------------------------------------------------------------------------------
+#: The heater's binding limit where the source leaves at its lowest outlet temperature (the
+#: pinch location heater_flow returns then; the optimiser reads it).
+SOURCE_OUTLET_LIMIT = "source outlet limit"
+
+
 def refine_zone_pinch(h_of_T, source, pinch_K, h_out, hs_in, T_a, T_b, xatol_K=1e-5):
     """Pinch-limited flow inside one zone of a heating path, between two discretisation points.
 
@@ -233,7 +238,7 @@ def heater_flow(path: FluidPath, h_out: float, source, pinch_K: float, exact: bo
     if source.T_out_min_K is not None:
         m_lim = source.m_kg_s * (hs_in - float(source.h_J_kg(source.T_out_min_K))) / (h_out - path.h[0])
         if m_lim < m_wf:
-            m_wf, location = m_lim, "source outlet limit"
+            m_wf, location = m_lim, SOURCE_OUTLET_LIMIT
     return m_wf, location, path
 
 

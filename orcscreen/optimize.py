@@ -9,7 +9,10 @@ outlet limit, turbine outlet quality, pressure limit), so unimodality is not ass
 whole range: a uniform scan brackets the best feasible region first, the edge of the feasible
 region is located where the best scan point borders an infeasible one (false position on the
 turbine-outlet quality margin, else bisection), and a bounded Brent search (SciPy's
-``minimize_scalar`` method "bounded", transcribed in :mod:`orcscreen.brent`) refines inside the bracket. The scan and the search use
+``minimize_scalar`` method "bounded", transcribed in :mod:`orcscreen.brent`) refines inside the bracket;
+where the best of the bracket is the kink at which the source outlet limit meets a pinch, that
+kink is found instead as the zero of the source's outlet margin on the pinch side
+(:func:`_outlet_kink`), which a parabolic search approaches only at the golden section's rate. The scan and the search use
 the layout's closed-form pinch candidates (``exact=False``); the optimum is then evaluated on
 the discretised profiles (``exact=True``) and, if the discretised pinch moves the answer,
 refined again on that model.
@@ -36,6 +39,7 @@ import numpy as np
 
 from .brent import minimize_scalar_bounded
 from .cycles import CycleContext, CycleResult, Layout, Variable, Window, reset_guesses
+from .exchangers import SOURCE_OUTLET_LIMIT
 from .case_variables import with_case_variables
 from .objectives import score
 
@@ -56,10 +60,15 @@ EXACT_REFINE_RTOL = 2e-5
 #: SEARCH_ZONE_SEGMENTS per zone, against the reported ones; measured 1e-7 to 2e-4 apart except
 #: close to the critical point, where the search is then redone on the reported model.
 SCORE_REFINE_RTOL = 2e-4
+#: Largest number of points of the kink search (_outlet_kink) before it gives way to Brent's.
+KINK_MAX_STEPS = 24
+#: The kink search ends when the kink is bracketed within KINK_XTOL of the variable's
+#: tolerance, or when the nearest point on the pinch side is within KINK_END of that of the
+#: zero of the source's outlet margin predicted from the pinch side.
+KINK_XTOL = 1e-2
+KINK_END = 1e-2
 #: The binding limit of an optimum whose free variables sit on no bound and no edge.
 INTERIOR = "none (interior optimum)"
-#: Name of the source outlet limit as a binding limit (the heater's pinch location says the same).
-SOURCE_OUTLET_LIMIT = "source outlet limit"
 #: The source leaves at its minimum outlet temperature when it is this close to it [K]: the
 #: flow closure meets the limit to round-off, and an optimum at the kink between the limit and
 #: the pinch is located to 2e-3 K of evaporation temperature (common practice: a tolerance
@@ -218,6 +227,91 @@ def _refine(power, a: float, b: float, xatol: float) -> float:
     return max([a, b, float(res.x)], key=power)
 
 
+def _zero_of(points: list[tuple[float, float]]) -> float | None:
+    """Where y = 0 by inverse interpolation through two or three points (x, y) with distinct y
+    (the quadratic x(y) through three, the line through two); None when two y coincide."""
+    (x0, y0), (x1, y1) = points[0], points[1]
+    if y0 == y1:
+        return None
+    if len(points) == 2:
+        return x0 - y0 * (x1 - x0) / (y1 - y0)
+    x2, y2 = points[2]
+    if y2 in (y0, y1):
+        return None
+    return (x0 * y1 * y2 / ((y0 - y1) * (y0 - y2)) + x1 * y0 * y2 / ((y1 - y0) * (y1 - y2))
+            + x2 * y0 * y1 / ((y2 - y0) * (y2 - y1)))
+
+
+def _outlet_kink(obj: _Objective, a: float, x0: float, b: float, tol: float) -> float | None:
+    """The optimum in [a, b] where the source outlet limit and a pinch meet, or None when the
+    best of [a, b] is no such kink (the caller then searches as before).
+
+    Where the source has a lowest outlet temperature, the heater's flow is the smaller of the
+    flow that cools the source to that temperature and the flow its pinch allows
+    (exchangers.heater_flow), and the net power has a kink where the two are equal; a
+    parabolic search converges there only at the golden section's rate. On the pinch side the
+    source's outlet margin T_source_out - T_min is smooth and falls to 0 at the kink: its zero
+    is predicted by inverse interpolation through the (up to three) pinch-side points nearest
+    it (_zero_of), and the next point is set past that zero on the pinch side, by twice the
+    last prediction's move (at least KINK_END / 2 of the end tolerance, at most half way to
+    the nearest pinch-side point), so that the nearest pinch-side points close in on the kink;
+    bisection where no zero is predicted inside the bracket. The search ends when the kink is
+    bracketed within tol * KINK_XTOL, or the nearest pinch-side point is within
+    tol * KINK_XTOL * KINK_END of the zero predicted; the answer is the better of the two
+    points that bracket the kink. None when a, x0 and b are not all feasible on one regime with
+    the limit holding at one end and a pinch at the other, when the limit holds on more than
+    one stretch, or when the net power does not rise into the kink on the limit's side and fall
+    from it on the pinch side.
+    """
+    T_min = getattr(obj.ctx.source, "T_out_min_K", None)
+    if T_min is None:
+        return None
+    pts = sorted({a, x0, b})
+    if not all(obj(x).ok for x in pts) or len({obj(x).regime for x in pts}) > 1:
+        return None
+
+    def held(x):
+        return obj(x).pinch_location == SOURCE_OUTLET_LIMIT
+
+    ends = (held(pts[0]), held(pts[-1]))
+    if ends[0] == ends[1]:
+        return None
+    toward = 1.0 if ends[0] else -1.0  # the direction from the limit's side to the pinch's
+    xtol = tol * KINK_XTOL
+    last = None
+    for _ in range(KINK_MAX_STEPS):
+        xs = sorted(pts, key=lambda x: toward * x)  # the limit's side first
+        n_held = sum(held(x) for x in xs)
+        if not all(held(x) for x in xs[:n_held]) or any(held(x) for x in xs[n_held:]):
+            return None  # the limit holds on more than one stretch
+        near_held, near_pinch = xs[n_held - 1], xs[n_held]
+        if n_held >= 2 and not obj.power(near_held) > obj.power(xs[n_held - 2]):
+            return None  # the net power does not rise into the kink
+        if len(xs) - n_held >= 2 and not obj.power(near_pinch) > obj.power(xs[n_held + 1]):
+            return None  # nor fall from it
+        if toward * (near_pinch - near_held) <= xtol:
+            break
+        x_new = 0.5 * (near_held + near_pinch)
+        side = [(x, obj(x).T_source_out_K - T_min) for x in xs[n_held:n_held + 3]]
+        zero = _zero_of(side) if len(side) >= 2 else None
+        if zero is not None and toward * near_held < toward * zero < toward * near_pinch:
+            if toward * (near_pinch - zero) <= KINK_END * xtol:
+                break  # the nearest pinch-side point is at the kink
+            # past the zero predicted, on the pinch side, by twice the last prediction's move,
+            # at most half way to the nearest pinch-side point
+            push = max(2.0 * abs(zero - (zero if last is None else last)), 0.5 * KINK_END * xtol)
+            x_new = zero + toward * min(push, 0.5 * toward * (near_pinch - zero))
+            last = zero
+        if not obj(x_new).ok or obj(x_new).regime != obj(pts[0]).regime:
+            return None
+        pts.append(x_new)
+    else:
+        return None
+    xs = sorted(pts, key=lambda x: toward * x)
+    n_held = sum(held(x) for x in xs)
+    return max(xs[n_held - 1], xs[n_held], key=obj.power)
+
+
 def _scan(obj: _Objective, grid) -> tuple[list[CycleResult], tuple[list, list, list]]:
     """Results at the grid points, and the scan for the chart: (x values, net power [W] or -inf, limits)."""
     tol, obj.eta_tol = obj.eta_tol, (None if obj.exact else ETA_TOL_SCAN)
@@ -251,7 +345,11 @@ def _scan_and_refine(obj: _Objective, w: Window, n_scan: int):
     elif i < n_scan - 1 and results[i + 1].regime != results[i].regime:
         (b, far), upper_edge = _regime_edge(obj, float(grid[i]), b), "turbine stage count"
         others.append((far, float(grid[i + 1])))
-    x_opt = _refine(obj.power, a, b, xatol)
+    x_opt = None
+    if lower_edge is None and upper_edge is None and not others:
+        x_opt = _outlet_kink(obj, a, float(grid[i]), b, xatol)
+    if x_opt is None:
+        x_opt = _refine(obj.power, a, b, xatol)
     for lo, hi in others:
         x_far = _refine(obj.power, lo, hi, xatol)
         if obj.power(x_far) > obj.power(x_opt):
@@ -396,7 +494,9 @@ def _optimise_nested(layout: Layout, ctx: CycleContext, variables: tuple[Variabl
             total += obj.n
             return inner(v)
         tol = iv.near_xatol or iv.xatol
-        x = _refine(obj.power, a, b, tol)
+        x = _outlet_kink(obj, a, x0, b, tol)
+        if x is None:
+            x = _refine(obj.power, a, b, tol)
         for _ in range(2):
             # an optimum at a bracket end that is no edge: walk the bracket that way, twice at most
             if b - x < 10 * tol and not edge_b and b < wi.hi:
