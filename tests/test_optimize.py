@@ -6,6 +6,7 @@ refined with the discretised (reported) model around the grid's best point, for 
 fluid and layout of the demo study. The grid is the reference: no published value is involved.
 """
 
+import math
 import os
 import tomllib
 from pathlib import Path
@@ -14,6 +15,7 @@ import numpy as np
 import pytest
 
 from orcscreen import fluids
+from orcscreen import optimize as opt_mod
 from orcscreen.api import case_context, run_case
 from orcscreen.cycles import LAYOUTS
 from orcscreen.cycles.subcritical import evaporation_window
@@ -125,6 +127,39 @@ def test_optimised_superheat_matches_grid():
         assert not isinstance(opt, tuple), opt
         best = max(grid_optimum_W(ctx, layout, float(sh), n=200) for sh in np.linspace(0.0, 25.0, 26))
         assert opt.cycle.W_net_W >= best * (1.0 - TOLERANCE), (case.fluid, opt.cycle.W_net_W, best)
+
+
+def test_envelope_test_stops_the_superheat_scan_only_where_the_scan_would_stop_there(monkeypatch):
+    """The demo's scenario (studies/demo.toml) with the superheat optimised, basic layout. For a
+    dry fluid (isobutane: the turbine outlet is superheated vapour) whose net power falls off
+    0 K of superheat, the envelope test (orcscreen.optimize._envelope_falls) stops the scan at
+    0 K: the same optimum as the full scan with the test switched off, in fewer evaluations. For
+    wet fluids whose inner optimum at 0 K is interior (R152A, R161: the turbine outlet is wet
+    there) the test declines, and the scan finds more net power at a higher superheat than at
+    0 K (the net power first dips, then rises again past the dew line of the outlet)."""
+    raw = tomllib.loads((STUDIES / "demo.toml").read_text(encoding="utf-8"))
+    raw["cycle"].update(superheat_K="optimise", max_superheat_K=40.0, layouts=["basic"])
+    raw["fluids"] = {"include": ["IsoButane", "R152A", "R161"]}
+    for case in study_from_dict(raw).cases():
+        ctx, layout = _case_objects(case)
+        inner, outer = layout.variables(ctx)
+        at_zero = opt_mod._optimise_nested(layout, ctx, (inner,), {outer.name: 0.0}, polish=False)
+        assert at_zero[1] == opt_mod.INTERIOR, (case.fluid, at_zero[1])
+        stops, _ = opt_mod._envelope_falls(layout, ctx, inner, outer, at_zero[:2], outer.xatol * 100)
+        with_test = optimise(layout, ctx)
+        with monkeypatch.context() as m:
+            m.setattr(opt_mod, "ENVELOPE_FALL_RTOL", math.inf)  # the test never says "falls"
+            without = optimise(layout, ctx)
+        if case.fluid == "IsoButane":
+            assert stops and math.isnan(at_zero[0].turbine_outlet_quality)
+            assert with_test.cycle.variables["superheat_K"] == without.cycle.variables["superheat_K"] == 0.0
+            assert with_test.cycle.W_net_W == pytest.approx(without.cycle.W_net_W, rel=1e-9)
+            assert with_test.evaluations < without.evaluations, (with_test.evaluations, without.evaluations)
+        else:
+            assert not stops and at_zero[0].turbine_outlet_quality < 1.0, case.fluid
+            assert with_test.cycle.variables["superheat_K"] > 1.0, case.fluid
+            assert with_test.cycle.W_net_W > at_zero[0].W_net_W, case.fluid
+            assert with_test.cycle.W_net_W == without.cycle.W_net_W
 
 
 def _superheat_optimised_studies() -> list[str]:
