@@ -343,7 +343,8 @@ class Layout:
     #: a supercritical heater (no evaporation plateau)
     supercritical: bool = False
     #: cost of one optimisation relative to the basic layout's, as measured (benchmarks/
-    #: bench_layouts.py, 2026-12-02): for the time estimate of `orcscreen check`
+    #: bench_layouts.py, total over total, 2026-12-02; the transcritical layouts' 2026-12-03,
+    #: after the kink search): for the time estimate of `orcscreen check`
     cost_factor: float = 1.0
     #: how orcscreen.offdesign moves the heater of a fixed design (a HotSide: its pressure
     #: coordinate, the hot end held, the state and path at a point); None: off design not modelled

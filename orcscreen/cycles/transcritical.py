@@ -122,7 +122,7 @@ class Transcritical(Layout):
 
     supercritical = True
     hot_side = SupercriticalHotSide()
-    cost_factor = 5.0
+    cost_factor = 4.0
     limits = ("max pressure", "max supercritical reduced pressure", "thermal stability", "turbine outlet quality",
               "min condensing pressure", "condensation below the critical temperature", "heater pinch",
               "condenser pinch", "source outlet limit")
