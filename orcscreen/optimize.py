@@ -9,11 +9,11 @@ outlet limit, turbine outlet quality, pressure limit), so unimodality is not ass
 whole range: a uniform scan brackets the best feasible region first, the edge of the feasible
 region is located where the best scan point borders an infeasible one (false position on the
 turbine-outlet quality margin, else bisection), and a bounded Brent search (SciPy's
-``minimize_scalar`` method "bounded", transcribed in :mod:`orcscreen.brent`) refines inside the bracket;
-where the best of the bracket is the kink at which the source outlet limit meets a pinch, that
-kink is found instead as the zero of the source's outlet margin on the pinch side
-(:func:`_outlet_kink`), which a parabolic search approaches only at the golden section's rate. The scan and the search use
-the layout's closed-form pinch candidates (``exact=False``); the optimum is then evaluated on
+``minimize_scalar`` method "bounded", transcribed in :mod:`orcscreen.brent`) refines inside the
+bracket; where the best of the bracket is the kink at which the source outlet limit meets a
+pinch, which a parabolic search approaches only at the golden section's rate, the kink is found
+instead as the zero of the source's outlet margin on the pinch side (:func:`_outlet_kink`).
+The scan and the search use the layout's closed-form pinch candidates (``exact=False``); the optimum is then evaluated on
 the discretised profiles (``exact=True``) and, if the discretised pinch moves the answer,
 refined again on that model.
 
@@ -62,9 +62,9 @@ EXACT_REFINE_RTOL = 2e-5
 SCORE_REFINE_RTOL = 2e-4
 #: Largest number of points of the kink search (_outlet_kink) before it gives way to Brent's.
 KINK_MAX_STEPS = 24
-#: The kink search ends when the kink is bracketed within KINK_XTOL of the variable's
-#: tolerance, or when the nearest point on the pinch side is within KINK_END of that of the
-#: zero of the source's outlet margin predicted from the pinch side.
+#: The kink search ends when the kink is bracketed within KINK_XTOL times the variable's
+#: tolerance, or when the nearest pinch-side point is within KINK_END times that distance of
+#: the zero of the source's outlet margin predicted from the pinch side.
 KINK_XTOL = 1e-2
 KINK_END = 1e-2
 #: The envelope test of a scanned outer variable (_envelope_falls): the fall of the objective
@@ -608,7 +608,7 @@ def _envelope_falls(layout: Layout, ctx: CycleContext, iv: Variable, outer: Vari
     the window (the optimum is at v0), by the envelope theorem; (answer, evaluations spent).
 
     Envelope theorem (e.g. Mas-Colell, Whinston and Green, *Microeconomic Theory*, Oxford 1995,
-    section M.L): where the inner optimum x*(v0) is interior and the objective smooth there,
+    mathematical appendix; from memory): where the inner optimum x*(v0) is interior and the objective smooth there,
     d score*(v)/dv at v0 equals the partial derivative of the score in v at fixed x*(v0). The
     score is evaluated at v0 and at v0 + h (h: one outer tolerance, the scan's resolution and
     _at_bound's step, towards the window), each at x* and x* +- d (d: ten inner tolerances, the
