@@ -13,9 +13,9 @@ turbine-outlet quality margin, else bisection), and a bounded Brent search (SciP
 bracket; where the best of the bracket is the kink at which the source outlet limit meets a
 pinch, which a parabolic search approaches only at the golden section's rate, the kink is found
 instead as the zero of the source's outlet margin on the pinch side (:func:`_outlet_kink`).
-The scan and the search use the layout's closed-form pinch candidates (``exact=False``); the optimum is then evaluated on
-the discretised profiles (``exact=True``) and, if the discretised pinch moves the answer,
-refined again on that model.
+The scan and the search use the layout's closed-form pinch candidates (``exact=False``); the
+optimum is then evaluated on the discretised profiles (``exact=True``) and, if the discretised
+pinch moves the answer, refined again on that model.
 
 Outer variables (e.g. an optimised superheat, a supercritical turbine inlet temperature, a bleed
 or reheat pressure): a uniform scan of the outer variable, each point with its own inner
