@@ -21,8 +21,10 @@ Outer variables (e.g. an optimised superheat, a supercritical turbine inlet temp
 or reheat pressure): a uniform scan of the outer variable, each point with its own inner
 optimum, brackets the best; a bounded Brent search refines it, each trial warm-started from the
 nearest inner optimum already found (a narrow bracket around it; the full inner search when an
-edge is near); the best outer value is polished with the full inner search. With more than two
-variables the same scheme nests.
+edge is near); the best outer value is polished with the full inner search. A scan from the
+bottom of its window (the superheat) stops at its first point when the envelope theorem shows
+the objective falling off it (:func:`_envelope_falls`). With more than two variables the same
+scheme nests.
 
 Sources: Brent, R. P., *Algorithms for Minimization without Derivatives*, Prentice-Hall 1973
 (the bounded scalar search as implemented in SciPy); Dowell and Jarratt, BIT 11 (1971) 168-174
