@@ -147,13 +147,22 @@ class _Objective:
         guess, eta = self._predict(x)
         r = self.layout.evaluate(self.ctx, self.point(x), exact=self.exact, T_cond_guess_K=guess, cond_tol_K=self.cond_tol_K,
                                  eta_guess=eta, eta_tol=self.eta_tol)
+        self._record(x, r)
+        return r
+
+    def _record(self, x: float, r: CycleResult) -> None:
         if r.ok:
             # a size-dependent turbine's efficiency at the size found: the next point's best guess
             eta_found = getattr(r.turbine_design, "efficiency", r.eta_turbine)
             self.T_cond_guess, self.eta_guess = r.T_cond_K, eta_found
             self._solved.append((x, r.T_cond_K, eta_found))
         self.cache[x] = r
-        return r
+
+    def seed(self, xs, results: list[CycleResult]) -> None:
+        """Take results already evaluated at xs, in that order, as if evaluated here (the same
+        cache and guesses; no evaluation counted)."""
+        for x, r in zip(xs, results):
+            self._record(float(x), r)
 
     def power(self, x: float) -> float:
         """The objective's score at x (the net power [W] by default; larger is better)."""
@@ -391,12 +400,14 @@ def _no_feasible_reason(var: Variable, results: list[CycleResult], w: Window) ->
             f"e.g. {common}")
 
 
-def _optimise_innermost(layout: Layout, ctx: CycleContext, var: Variable, fixed: Mapping[str, float], polish: bool = True):
+def _optimise_innermost(layout: Layout, ctx: CycleContext, var: Variable, fixed: Mapping[str, float], polish: bool = True,
+                        keep: list | None = None):
     """Best value of the innermost variable at fixed outer values: (result, limit, evaluations, scan).
 
     polish=False returns the closed-form model's optimum without the discretised re-evaluation
     (used inside an outer search, whose objective must be one model). result is None when
-    nothing is feasible; limit is then the reason.
+    nothing is feasible; limit is then the reason. keep, when given, receives the results of
+    the scan (in the scan's order).
     """
     n_scan = var.scan_points
     w = layout.window(ctx, var.name, fixed)
@@ -404,6 +415,8 @@ def _optimise_innermost(layout: Layout, ctx: CycleContext, var: Variable, fixed:
         return None, _no_room_reason(var, w), 0, ([], [], [])
     fast = _Objective(layout, ctx, var, fixed, exact=False)
     x_opt, info, scan = _scan_and_refine(fast, w, n_scan)
+    if keep is not None:
+        keep.extend(fast.cache[float(x)] for x in scan[0])
     if x_opt is None:
         return None, _no_feasible_reason(var, info, w), fast.n, scan
     if not polish:
@@ -446,21 +459,27 @@ def _polish(layout: Layout, ctx: CycleContext, var: Variable, fixed: Mapping[str
 
 
 def _optimise_nested(layout: Layout, ctx: CycleContext, variables: tuple[Variable, ...], fixed: Mapping[str, float],
-                     polish: bool = True):
-    """Best values of variables (innermost first) at fixed outer values: (result, limit, evaluations, scan)."""
+                     polish: bool = True, keep: list | None = None):
+    """Best values of variables (innermost first) at fixed outer values: (result, limit, evaluations, scan).
+    keep: see _optimise_innermost (one variable only)."""
     if len(variables) == 1:
-        return _optimise_innermost(layout, ctx, variables[0], fixed, polish)
+        return _optimise_innermost(layout, ctx, variables[0], fixed, polish, keep)
     inner_vars, outer = variables[:-1], variables[-1]
     w = layout.window(ctx, outer.name, fixed)
     total = 0
     memo: dict[float, tuple] = {}
+    scanned: dict[float, list[CycleResult]] = {}  # the inner scan's results of each full inner search
 
     def inner(v: float):
         nonlocal total
         if v not in memo:
-            out = _optimise_nested(layout, ctx, inner_vars, {**fixed, outer.name: v}, polish=False)
+            kept: list[CycleResult] = []
+            out = _optimise_nested(layout, ctx, inner_vars, {**fixed, outer.name: v}, polish=False,
+                                   keep=kept if len(inner_vars) == 1 else None)
             total += out[2]
             memo[v] = out
+            if kept:
+                scanned[v] = kept
         return memo[v]
 
     def inner_near(v: float):
@@ -593,7 +612,13 @@ def _optimise_nested(layout: Layout, ctx: CycleContext, variables: tuple[Variabl
         x_in = memo[best][0].variables[iv.name]
         fast = _Objective(layout, ctx, iv, point, exact=False)
         wi = layout.window(ctx, iv.name, point)
-        _, scan = _scan(fast, np.linspace(wi.lo, wi.hi, iv.scan_points))
+        grid_in = np.linspace(wi.lo, wi.hi, iv.scan_points)
+        if best in scanned and list(memo[best][3][0]) == list(grid_in):
+            # the full inner search at this outer value began with this very scan: taken as it is
+            fast.seed(grid_in, scanned[best])
+            scan = memo[best][3]
+        else:
+            _, scan = _scan(fast, grid_in)
         r, limit, n = _polish(layout, ctx, iv, point, fast, x_in, memo[best][1], wi)
         total += fast.n + n
     else:
