@@ -321,9 +321,9 @@ def _all_gone(pids, timeout_s=20.0) -> bool:
     return False
 
 
-def _start_cli(tmp_path, *args):
+def _start_cli(tmp_path, *args, temperatures=(110, 120, 130)):
     study_file = tmp_path / "study.toml"
-    study_file.write_text(study_toml(study_dict()))
+    study_file.write_text(study_toml(study_dict(temperatures=temperatures)))
     out = tmp_path / "out"
     proc = subprocess.Popen([sys.executable, "-m", "orcscreen", "run", str(study_file), "--out",
                              str(out), "--no-report", *args], start_new_session=True,
@@ -369,7 +369,9 @@ def test_kill_with_forked_workers_leaves_none_and_resumes(reference, tmp_path):
 
 @needs_fork
 def test_ctrl_c_stops_the_forked_workers_and_keeps_the_finished_cases(reference, tmp_path):
-    proc, out = _start_cli(tmp_path, "--jobs", "2")
+    # 15 source temperatures (120 cases, a few seconds): the reference's 24 cases take about
+    # 1 s, and the interrupt, sent once the first case is stored, could come after the last one
+    proc, out = _start_cli(tmp_path, "--jobs", "2", temperatures=tuple(range(100, 160, 4)))
     workers = _children(proc.pid)
     try:
         os.killpg(proc.pid, signal.SIGINT)  # what a terminal sends to the whole group
