@@ -319,7 +319,8 @@ def _outlet_kink(obj: _Objective, a: float, x0: float, b: float, tol: float) -> 
                 break  # the nearest pinch-side point is at the kink
             # past the zero predicted, on the pinch side, by twice the last prediction's move,
             # at most half way to the nearest pinch-side point
-            push = max(2.0 * abs(zero - (zero if last is None else last)), 0.5 * KINK_END * xtol)
+            moved = 0.0 if last is None else abs(zero - last)
+            push = max(2.0 * moved, 0.5 * KINK_END * xtol)
             x_new = zero + toward * min(push, 0.5 * toward * (near_pinch - zero))
             last = zero
         if not obj(x_new).ok or obj(x_new).regime != obj(pts[0]).regime:

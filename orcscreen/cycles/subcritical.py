@@ -31,7 +31,8 @@ import math
 from collections.abc import Mapping
 
 
-from ..exchangers import COND_TOL_FAST_K, heater_flow, recuperate, refine_zone_pinch, solve_condensing_temperature
+from ..exchangers import (COND_TOL_FAST_K, SOURCE_OUTLET_LIMIT, heater_flow, recuperate, refine_zone_pinch,
+                          solve_condensing_temperature)
 from ..paths import heating_path
 from ..states import CycleInfeasible, SatPoint, State
 from .base import (
@@ -139,7 +140,7 @@ class Subcritical(Layout):
     takes_mixtures = True
 
     limits = ("max pressure", "max reduced pressure", "thermal stability", "turbine outlet quality",
-              "min condensing pressure", "evaporator pinch", "condenser pinch", "source outlet limit")
+              "min condensing pressure", "evaporator pinch", "condenser pinch", SOURCE_OUTLET_LIMIT)
 
     def __init__(self, name: str, description: str, recuperator: bool):
         self.name = name

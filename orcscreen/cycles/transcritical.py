@@ -29,7 +29,7 @@ from __future__ import annotations
 import math
 from collections.abc import Mapping
 
-from ..exchangers import COND_TOL_FAST_K, heater_flow, recuperate, solve_condensing_temperature
+from ..exchangers import COND_TOL_FAST_K, SOURCE_OUTLET_LIMIT, heater_flow, recuperate, solve_condensing_temperature
 from ..paths import supercritical_heating_path
 from ..states import CycleInfeasible, State
 from .base import (
@@ -125,7 +125,7 @@ class Transcritical(Layout):
     cost_factor = 4.0
     limits = ("max pressure", "max supercritical reduced pressure", "thermal stability", "turbine outlet quality",
               "min condensing pressure", "condensation below the critical temperature", "heater pinch",
-              "condenser pinch", "source outlet limit")
+              "condenser pinch", SOURCE_OUTLET_LIMIT)
 
     def __init__(self, name: str, description: str, recuperator: bool):
         self.name = name
